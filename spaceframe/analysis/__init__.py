@@ -1,0 +1,1 @@
+"""Analyses over a Model: one module per kind (static, stability)."""

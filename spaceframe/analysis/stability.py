@@ -1,0 +1,343 @@
+"""Stability diagnosis: find mechanisms and name the nodes and directions.
+
+Cheap checks run before any factorisation (all vectorised):
+
+1. nodes with no members and a free direction without a spring;
+2. free nodes whose members are all collinear or all coplanar (the 3x3 nodal
+   stiffness has a zero eigenvalue; its eigenvector is the free direction);
+3. parts (connected components) with no support at all;
+4. parts whose supports cannot stop all six rigid-body motions.
+
+Whatever still makes the stiffness singular is named from the zero-energy
+modes of the reduced stiffness (:func:`mechanism_modes`).
+
+:func:`determinacy` gives, for small models, the rank r of the equilibrium
+matrix, the number of states of self-stress s = b - r and of inextensional
+mechanisms m = 3j - k - r (Pellegrino and Calladine, "Matrix analysis of
+statically and kinematically indeterminate frameworks", Int. J. Solids
+Structures 22(4), 1986).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
+
+from spaceframe.assembly import equilibrium_matrix
+from spaceframe.errors import MechanismError, ModelError
+from spaceframe.tolerances import NODE_STIFFNESS_RATIO, RANK_TOLERANCE
+
+if TYPE_CHECKING:
+    from spaceframe.model import Model
+
+__all__ = [
+    "Determinacy",
+    "check_stability",
+    "describe_dofs",
+    "determinacy",
+    "mechanism_modes",
+    "solve_determinate",
+]
+
+_AXES = "xyz"
+#: How many nodes an error message lists before saying "and N more".
+_LIST = 8
+
+
+def _direction_name(v: np.ndarray) -> str:
+    v = v / np.linalg.norm(v)
+    k = int(np.argmax(np.abs(v)))
+    if abs(abs(v[k]) - 1.0) < 1e-6:
+        return _AXES[k]
+    return "(" + ", ".join(f"{x:+.3f}" for x in v) + ")"
+
+
+def _list_nodes(ids: np.ndarray) -> str:
+    shown = ", ".join(str(int(i)) for i in ids[:_LIST])
+    more = f" and {ids.size - _LIST} more" if ids.size > _LIST else ""
+    return shown + more
+
+
+def describe_dofs(dofs: np.ndarray) -> str:
+    """'node 12 (z), node 13 (x, y)' for global degree-of-freedom numbers."""
+    dofs = np.unique(np.asarray(dofs, dtype=np.int64))
+    nodes, axes = np.divmod(dofs, 3)
+    parts = []
+    for n in np.unique(nodes)[:_LIST]:
+        dirs = ", ".join(_AXES[a] for a in axes[nodes == n])
+        parts.append(f"node {int(n)} ({dirs})")
+    extra = np.unique(nodes).size - _LIST
+    return ", ".join(parts) + (f" and {extra} more nodes" if extra > 0 else "")
+
+
+def _plane_text(model: Model, node: int, normal: np.ndarray) -> str:
+    name = _direction_name(normal)
+    p = model.nodes[node]
+    if name in _AXES:
+        return f"the plane {name} = {p[_AXES.index(name)]:.6g}"
+    return f"the plane through ({p[0]:.6g}, {p[1]:.6g}, {p[2]:.6g}) with normal {name}"
+
+
+def _nodal_stiffness(model: Model) -> np.ndarray:
+    """(n, 3, 3): sum over each node's members of (EA/L) c c^T, plus springs."""
+    c = model.directions
+    kcc = model.axial_stiffness[:, None, None] * (c[:, :, None] * c[:, None, :])
+    S = np.zeros((model.n_nodes, 3, 3))
+    np.add.at(S, model.members[:, 0], kcc)
+    np.add.at(S, model.members[:, 1], kcc)
+    S[:, [0, 1, 2], [0, 1, 2]] += model.springs
+    return S
+
+
+def check_stability(model: Model) -> None:
+    """Raise MechanismError for mechanisms that are cheap to find.
+
+    Raises
+    ------
+    MechanismError
+        With ``nodes`` and ``directions`` of the first problems found.
+    """
+    n = model.n_nodes
+    free = ~model.restraint
+    degree = np.bincount(model.members.ravel(), minlength=n)
+
+    # 1. nodes that nothing holds in a free direction
+    lonely = free & (degree[:, None] == 0) & (model.springs <= 0)
+    bad = np.flatnonzero(lonely.any(axis=1))
+    if bad.size:
+        dirs = ["".join(_AXES[a] for a in np.flatnonzero(lonely[i])) for i in bad]
+        raise MechanismError(
+            f"{bad.size} node(s) have no members and are not supported in every direction: "
+            + ", ".join(
+                f"node {int(i)} (free along {d})"
+                for i, d in zip(bad[:_LIST], dirs, strict=False)
+            )
+            + (f" and {bad.size - _LIST} more" if bad.size > _LIST else ""),
+            nodes=bad,
+            directions=dirs,
+        )
+
+    # 2. collinear / coplanar members at free nodes
+    S = _nodal_stiffness(model)
+    scale = np.abs(S).max(axis=(1, 2))
+    # Restrained directions cannot move: make them stiff before looking.
+    big = np.where(scale > 0, scale, 1.0)
+    S[:, [0, 1, 2], [0, 1, 2]] += model.restraint * big[:, None]
+    w, v = np.linalg.eigh(S)
+    weak = w[:, 0] <= NODE_STIFFNESS_RATIO * np.maximum(w[:, 2], 1e-300)
+    weak &= degree > 0
+    bad = np.flatnonzero(weak)
+    if bad.size:
+        msgs = []
+        dirs = []
+        for i in bad[:_LIST]:
+            vec = v[i][:, 0]
+            name = _direction_name(vec)
+            dirs.append(name)
+            rank = int(np.sum(w[i] > NODE_STIFFNESS_RATIO * w[i, 2]))
+            if rank == 1:
+                line = _direction_name(v[i][:, 2])
+                why = f"all its members lie on one line (along {line})"
+            else:
+                why = f"all its members lie in {_plane_text(model, int(i), vec)}"
+            msgs.append(f"node {int(i)} has no stiffness along {name}: {why}")
+        more = f" (and {bad.size - _LIST} more nodes)" if bad.size > _LIST else ""
+        raise MechanismError("; ".join(msgs) + more, nodes=bad, directions=dirs)
+
+    # 3. and 4. parts without (enough) support
+    adj = sp.coo_matrix(
+        (np.ones(model.n_members), (model.members[:, 0], model.members[:, 1])), shape=(n, n)
+    )
+    n_parts, label = connected_components(adj, directed=False)
+    held = model.restraint | (model.springs > 0)
+    held_parts = np.bincount(label, weights=held.any(axis=1), minlength=n_parts) > 0
+    used = degree > 0
+    loose = np.flatnonzero(~held_parts & (np.bincount(label, weights=used, minlength=n_parts) > 0))
+    if loose.size:
+        nodes = np.flatnonzero(label == loose[0])
+        raise MechanismError(
+            f"{loose.size} part(s) of the frame are not connected to any support; the first "
+            f"has {nodes.size} nodes: {_list_nodes(nodes)}",
+            nodes=nodes,
+            directions=["any"] * nodes.size,
+        )
+    _check_rigid_body(model, label, n_parts, held)
+
+
+def _check_rigid_body(model: Model, label: np.ndarray, n_parts: int, held: np.ndarray) -> None:
+    """Each part's supports must stop its three translations and three rotations."""
+    names = ("translation along x", "translation along y", "translation along z",
+             "rotation about x", "rotation about y", "rotation about z")
+    held_nodes = np.flatnonzero(held.any(axis=1))
+    for part in np.unique(label[held_nodes]):
+        nodes_p = held_nodes[label[held_nodes] == part]
+        members_p = np.flatnonzero(label[model.members[:, 0]] == part)
+        all_nodes = np.unique(model.members[members_p])
+        if all_nodes.size < 2:
+            continue
+        centre = model.nodes[all_nodes].mean(axis=0)
+        r = model.nodes[nodes_p] - centre
+        # Rigid-body velocity fields (translations, rotations) at the held dofs.
+        modes = np.zeros((nodes_p.size, 3, 6))
+        modes[:, [0, 1, 2], [0, 1, 2]] = 1.0
+        modes[:, :, 3] = np.cross([1.0, 0, 0], r)
+        modes[:, :, 4] = np.cross([0, 1.0, 0], r)
+        modes[:, :, 5] = np.cross([0, 0, 1.0], r)
+        G = modes[held[nodes_p]]  # rows: held directions
+        # A part that is flat or a line has fewer genuine rigid-body modes to
+        # check: rotations about its own line do not move anything.
+        span = model.nodes[all_nodes] - centre
+        R = np.zeros((all_nodes.size, 3, 6))
+        R[:, [0, 1, 2], [0, 1, 2]] = 1.0
+        R[:, :, 3] = np.cross([1.0, 0, 0], span)
+        R[:, :, 4] = np.cross([0, 1.0, 0], span)
+        R[:, :, 5] = np.cross([0, 0, 1.0], span)
+        Rf = R.reshape(-1, 6)
+        _, s, vt = np.linalg.svd(Rf, full_matrices=False)
+        genuine = vt[s > RANK_TOLERANCE * s[0] * 1e3]
+        Gm = G @ genuine.T if G.size else np.zeros((0, genuine.shape[0]))
+        sg = np.linalg.svd(Gm, compute_uv=False) if Gm.size else np.zeros(0)
+        scale = max(float(np.linalg.norm(span, axis=1).max()), 1.0)
+        rank = int(np.sum(sg > 1e-9 * scale))
+        if rank < genuine.shape[0]:
+            _, _, vg = np.linalg.svd(Gm if Gm.size else np.zeros((1, genuine.shape[0])))
+            free_mode = vg[-1] @ genuine
+            k = int(np.argmax(np.abs(free_mode)))
+            raise MechanismError(
+                f"too few supports: the part with nodes {_list_nodes(all_nodes)} can move as a "
+                f"rigid body ({names[k]} is not prevented; {int(held[nodes_p].sum())} restrained "
+                f"directions at nodes {_list_nodes(nodes_p)})",
+                nodes=nodes_p,
+                directions=[names[k]] * nodes_p.size,
+            )
+
+
+def mechanism_modes(
+    K: sp.spmatrix, free_dofs: np.ndarray, k: int = 3
+) -> tuple[np.ndarray, list[np.ndarray]]:
+    """Zero-energy modes of a singular reduced stiffness.
+
+    Parameters
+    ----------
+    K : (m, m) sparse
+        Reduced stiffness (free degrees of freedom).
+    free_dofs : (m,) int
+        Global dof number of each row.
+    k : int
+        Number of modes to look for.
+
+    Returns
+    -------
+    energies : (j,) float
+        Relative eigenvalues (lambda / max diagonal) of the modes found near zero.
+    dofs : list of (p,) int
+        For each mode, the global dofs that move most (>= 10 % of its peak).
+    """
+    m = K.shape[0]
+    scale = float(np.abs(K.diagonal()).max(initial=1.0))
+    k = max(1, min(k, m - 1))
+    if m <= 3000:
+        w, V = np.linalg.eigh(K.toarray() / scale)
+        w, V = w[:k], V[:, :k]
+    else:
+        from scipy.sparse.linalg import eigsh
+
+        # Shift-invert about a small negative value: (K - sigma I) is then
+        # positive definite and factorisable even though K is singular.
+        w, V = eigsh(sp.csc_matrix(K) / scale, k=k, sigma=-1e-6, which="LM")
+    zero = np.flatnonzero(w < 1e-9)
+    out = []
+    for j in zero:
+        vec = np.abs(V[:, j])
+        out.append(free_dofs[vec >= 0.1 * vec.max()])
+    return w[zero], out
+
+
+@dataclass
+class Determinacy:
+    """Counts from the rank of the equilibrium matrix.
+
+    Attributes
+    ----------
+    rank : int
+        Rank r of A restricted to the free degrees of freedom.
+    self_stress : int
+        States of self-stress s = b - r.
+    mechanisms : int
+        Inextensional mechanisms m = 3j - k - r (k restrained directions).
+    """
+
+    rank: int
+    self_stress: int
+    mechanisms: int
+
+    @property
+    def statically_determinate(self) -> bool:
+        """No self-stress and no mechanism: A t = f has one solution."""
+        return self.self_stress == 0 and self.mechanisms == 0
+
+
+#: Largest number of degrees of freedom for which determinacy uses a dense SVD.
+DENSE_LIMIT = 6000
+
+
+def determinacy(model: Model) -> Determinacy:
+    """Rank of the equilibrium matrix and the counts s and m (small models).
+
+    Raises
+    ------
+    ModelError
+        If the model is too large for a dense rank computation.
+    """
+    free = np.flatnonzero(~model.restraint.ravel())
+    if free.size > DENSE_LIMIT or model.n_members > DENSE_LIMIT:
+        raise ModelError(
+            f"determinacy: {free.size} free directions and {model.n_members} members exceed the "
+            f"dense limit of {DENSE_LIMIT}; use the stability check instead"
+        )
+    A = equilibrium_matrix(model).tocsr()[free].toarray()
+    if A.size == 0:
+        return Determinacy(0, model.n_members, free.size)
+    s = np.linalg.svd(A, compute_uv=False)
+    r = int(np.sum(s > RANK_TOLERANCE * s[0])) if s.size else 0
+    return Determinacy(rank=r, self_stress=model.n_members - r, mechanisms=free.size - r)
+
+
+def solve_determinate(model: Model, forces: np.ndarray) -> np.ndarray:
+    """Member forces from equilibrium alone, A_f t = f_f, for a determinate frame.
+
+    No stiffness is used: for a statically determinate frame the member forces
+    follow from statics only (and do not depend on E or A).
+
+    Parameters
+    ----------
+    forces : (n, 3) float
+        Applied nodal loads, N.
+
+    Returns
+    -------
+    t : (b,) float
+        Axial forces, N, tension positive.
+
+    Raises
+    ------
+    ModelError
+        If the frame is not statically determinate.
+    """
+    d = determinacy(model)
+    if not d.statically_determinate:
+        raise ModelError(
+            f"not statically determinate: {d.self_stress} state(s) of self-stress and "
+            f"{d.mechanisms} mechanism(s)"
+        )
+    free = np.flatnonzero(~model.restraint.ravel())
+    A = equilibrium_matrix(model).tocsr()[free].tocsc()
+    # At free dofs there are no reactions: A t = f there.
+    from scipy.sparse.linalg import spsolve
+
+    t = spsolve(A, np.asarray(forces, dtype=float).ravel()[free])
+    return np.asarray(t, dtype=float)

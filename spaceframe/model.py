@@ -1,0 +1,692 @@
+"""The Model: a pin-jointed space frame held as plain numpy arrays.
+
+Nothing here knows about files or solvers.  Readers, the model file and
+Python scripts all end in the same arrays:
+
+- ``nodes`` : (n, 3) float64, metres
+- ``members`` : (b, 2) int64 node ids
+- per-member ``area`` (m²), ``E`` (Pa), ``density`` (kg/m³), ``alpha`` (1/K)
+- ``restraint`` : (n, 3) bool, ``springs`` : (n, 3) float (N/m)
+- ``groups`` : name -> member ids, ``node_sets`` : name -> node ids
+- ``cases`` : name -> :class:`LoadCase`, ``combinations`` : name -> {case: factor}
+- ``panels`` (load surfaces, polygons of node ids) and ``markers`` (positions
+  with a layer name, e.g. from DXF POINT entities).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from spaceframe.errors import ModelError
+
+if TYPE_CHECKING:
+    from spaceframe.results import Results
+
+__all__ = ["STANDARD_GRAVITY", "LoadCase", "Model"]
+
+#: Standard acceleration of gravity, m/s² (CGPM 1901, the conventional value).
+STANDARD_GRAVITY = 9.80665
+
+_AXES = "xyz"
+
+
+@dataclass
+class LoadCase:
+    """Loads of one case, as arrays sized to the model when the case is solved.
+
+    Attributes
+    ----------
+    forces : (n, 3) float
+        Applied nodal forces, N.
+    temperature : (b,) float
+        Member temperature change, K.
+    initial_strain : (b,) float
+        Imposed free strain (lack of fit; positive = member too long), -.
+    settlement : (n, 3) float
+        Prescribed displacement of restrained directions, m.
+    settlement_mask : (n, 3) bool
+        Where a settlement was given.
+    """
+
+    name: str
+    forces: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))
+    temperature: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    initial_strain: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    settlement: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))
+    settlement_mask: np.ndarray = field(default_factory=lambda: np.zeros((0, 3), dtype=bool))
+
+    def resize(self, n_nodes: int, n_members: int) -> None:
+        """Grow the arrays (with zeros) to a model of ``n_nodes`` and ``n_members``."""
+        self.forces = _grow(self.forces, n_nodes)
+        self.settlement = _grow(self.settlement, n_nodes)
+        self.settlement_mask = _grow(self.settlement_mask, n_nodes)
+        self.temperature = _grow(self.temperature, n_members)
+        self.initial_strain = _grow(self.initial_strain, n_members)
+
+    @property
+    def is_empty(self) -> bool:
+        """True when the case applies nothing at all."""
+        return not (
+            np.any(self.forces)
+            or np.any(self.temperature)
+            or np.any(self.initial_strain)
+            or np.any(self.settlement_mask)
+        )
+
+
+def _grow(a: np.ndarray, n: int) -> np.ndarray:
+    if a.shape[0] >= n:
+        return a
+    out = np.zeros((n, *a.shape[1:]), dtype=a.dtype)
+    out[: a.shape[0]] = a
+    return out
+
+
+class Model:
+    """A three-dimensional pin-jointed frame.
+
+    Build it with :meth:`add_nodes`, :meth:`add_members`, supports and loads,
+    then call :meth:`solve`.  Every ``add_*`` method validates its input and
+    raises :class:`~spaceframe.errors.ModelError` naming the offending index
+    and value; nothing is changed when it raises.
+
+    Examples
+    --------
+    >>> import spaceframe as sf
+    >>> m = sf.Model()
+    >>> ids = m.add_nodes([[0, 0, 0], [1, 0, 1], [2, 0, 0]])
+    >>> m.add_members([[0, 1], [1, 2]], area=1e-4, E=210e9)
+    array([0, 1])
+    """
+
+    def __init__(self) -> None:
+        self.nodes = np.zeros((0, 3))
+        self.members = np.zeros((0, 2), dtype=np.int64)
+        self.area = np.zeros(0)
+        self.E = np.zeros(0)
+        self.density = np.zeros(0)
+        self.alpha = np.zeros(0)
+        self.restraint = np.zeros((0, 3), dtype=bool)
+        self.springs = np.zeros((0, 3))
+        self.groups: dict[str, np.ndarray] = {}
+        self.node_sets: dict[str, np.ndarray] = {}
+        self.cases: dict[str, LoadCase] = {}
+        self.combinations: dict[str, dict[str, float]] = {}
+        #: Load panels: polygon k has node ids ``panel_nodes[panel_offsets[k]:panel_offsets[k+1]]``.
+        self.panel_nodes = np.zeros(0, dtype=np.int64)
+        self.panel_offsets = np.zeros(1, dtype=np.int64)
+        self.panel_groups: dict[str, np.ndarray] = {}
+        #: Marker points (e.g. DXF POINT entities): positions in metres and layer names.
+        self.markers = np.zeros((0, 3))
+        self.marker_layers = np.zeros(0, dtype=object)
+        #: Free-form, namespaced extras ("dxf:layer", "heal:report", "source", ...).
+        self.meta: dict[str, Any] = {}
+        self._cache: dict[str, np.ndarray] = {}
+
+    # ------------------------------------------------------------------ sizes
+    @property
+    def n_nodes(self) -> int:
+        """Number of nodes."""
+        return int(self.nodes.shape[0])
+
+    @property
+    def n_members(self) -> int:
+        """Number of members."""
+        return int(self.members.shape[0])
+
+    @property
+    def n_panels(self) -> int:
+        """Number of load panels."""
+        return int(self.panel_offsets.shape[0] - 1)
+
+    def __repr__(self) -> str:
+        return (
+            f"Model({self.n_nodes} nodes, {self.n_members} members, "
+            f"{int(self.restraint.any(axis=1).sum())} supported nodes, "
+            f"{len(self.cases)} cases, {len(self.combinations)} combinations)"
+        )
+
+    # ------------------------------------------------------- derived geometry
+    def _derived(self, key: str) -> np.ndarray:
+        # Lengths and direction cosines are derived from nodes and members and
+        # cached until either changes (every mutation goes through add_*).
+        if key not in self._cache:
+            d = self.nodes[self.members[:, 1]] - self.nodes[self.members[:, 0]]
+            length = np.sqrt(np.einsum("ij,ij->i", d, d))
+            with np.errstate(invalid="ignore", divide="ignore"):
+                self._cache["directions"] = d / length[:, None]
+            self._cache["lengths"] = length
+        return self._cache[key]
+
+    @property
+    def lengths(self) -> np.ndarray:
+        """(b,) float: member lengths, m."""
+        return self._derived("lengths")
+
+    @property
+    def directions(self) -> np.ndarray:
+        """(b, 3) float: unit vectors from each member's first node to its second."""
+        return self._derived("directions")
+
+    @property
+    def axial_stiffness(self) -> np.ndarray:
+        """(b,) float: EA/L, N/m."""
+        return self.E * self.area / self.lengths
+
+    @property
+    def mass(self) -> np.ndarray:
+        """(b,) float: member masses density*A*L, kg."""
+        return self.density * self.area * self.lengths
+
+    def extents(self) -> tuple[np.ndarray, np.ndarray]:
+        """Lower and upper corners of the bounding box of the nodes, m."""
+        if self.n_nodes == 0:
+            return np.zeros(3), np.zeros(3)
+        return self.nodes.min(axis=0), self.nodes.max(axis=0)
+
+    @property
+    def size(self) -> float:
+        """Diagonal of the bounding box, m (1.0 for an empty or single-point model)."""
+        lo, hi = self.extents()
+        d = float(np.linalg.norm(hi - lo))
+        return d if d > 0 else 1.0
+
+    # ------------------------------------------------------------ validation
+    def _node_ids(self, node_ids: Any, what: str) -> np.ndarray:
+        ids = np.atleast_1d(np.asarray(node_ids))
+        if ids.ndim != 1:
+            raise ModelError(f"{what}: node ids must be a 1-D list, got shape {ids.shape}")
+        if ids.size and not np.issubdtype(ids.dtype, np.integer):
+            raise ModelError(
+                f"{what}: node ids must be integers, got {ids.dtype} ({ids[:3].tolist()})"
+            )
+        ids = ids.astype(np.int64)
+        bad = np.flatnonzero((ids < 0) | (ids >= self.n_nodes))
+        if bad.size:
+            k = int(bad[0])
+            raise ModelError(
+                f"{what}: entry {k} refers to node {int(ids[k])}, which does not exist "
+                f"(the model has nodes 0..{self.n_nodes - 1})"
+            )
+        return ids
+
+    def _member_ids(self, member_ids: Any, what: str) -> np.ndarray:
+        ids = np.atleast_1d(np.asarray(member_ids))
+        if ids.ndim != 1:
+            raise ModelError(f"{what}: member ids must be a 1-D list, got shape {ids.shape}")
+        if ids.size and not np.issubdtype(ids.dtype, np.integer):
+            raise ModelError(f"{what}: member ids must be integers, got {ids.dtype}")
+        ids = ids.astype(np.int64)
+        bad = np.flatnonzero((ids < 0) | (ids >= self.n_members))
+        if bad.size:
+            k = int(bad[0])
+            raise ModelError(
+                f"{what}: entry {k} refers to member {int(ids[k])}, which does not exist "
+                f"(the model has members 0..{self.n_members - 1})"
+            )
+        return ids
+
+    @staticmethod
+    def _per_item(value: Any, k: int, name: str, *, positive: bool = False) -> np.ndarray:
+        arr = np.asarray(value, dtype=float)
+        if arr.ndim == 0:
+            arr = np.full(k, float(arr))
+        if arr.shape != (k,):
+            raise ModelError(f"{name}: expected a scalar or {k} values, got shape {arr.shape}")
+        bad = np.flatnonzero(~np.isfinite(arr) | ((arr <= 0) if positive else False))
+        if bad.size:
+            j = int(bad[0])
+            need = "a positive finite number" if positive else "a finite number"
+            raise ModelError(f"{name}[{j}] = {float(arr[j])}: must be {need}")
+        return arr
+
+    @staticmethod
+    def _vector(value: Any, name: str) -> np.ndarray:
+        vec = np.asarray(value, dtype=float)
+        if vec.ndim == 1:
+            if vec.shape != (3,):
+                raise ModelError(f"{name}: expected 3 components, got {vec.shape[0]}")
+        elif vec.ndim != 2 or vec.shape[1] != 3:
+            raise ModelError(f"{name}: expected (3,) or (k, 3) values, got shape {vec.shape}")
+        bad = np.argwhere(~np.isfinite(vec))
+        if bad.size:
+            where = tuple(int(i) for i in bad[0])
+            raise ModelError(f"{name}: component {where} = {float(vec[where])} is not finite")
+        return vec
+
+    def _invalidate(self) -> None:
+        self._cache.clear()
+
+    # ------------------------------------------------------------------ nodes
+    def add_nodes(self, xyz: Any) -> np.ndarray:
+        """Add nodes.
+
+        Parameters
+        ----------
+        xyz : (k, 3) float
+            Coordinates in metres.
+
+        Returns
+        -------
+        ids : (k,) int
+            The new node ids (0-based, consecutive).
+
+        Raises
+        ------
+        ModelError
+            If the array is not (k, 3) or holds NaN or infinity.
+        """
+        pts = np.asarray(xyz, dtype=float)
+        if pts.ndim == 1 and pts.shape == (3,):
+            pts = pts[None, :]
+        if pts.ndim != 2 or pts.shape[1] != 3:
+            raise ModelError(f"add_nodes: expected (k, 3) coordinates, got shape {pts.shape}")
+        bad = np.argwhere(~np.isfinite(pts))
+        if bad.size:
+            i, j = (int(v) for v in bad[0])
+            raise ModelError(
+                f"add_nodes: coordinate {_AXES[j]} of new node {i} (node id {self.n_nodes + i}) "
+                f"is {float(pts[i, j])}"
+            )
+        start = self.n_nodes
+        self.nodes = np.concatenate([self.nodes, pts])
+        k = pts.shape[0]
+        self.restraint = np.concatenate([self.restraint, np.zeros((k, 3), dtype=bool)])
+        self.springs = np.concatenate([self.springs, np.zeros((k, 3))])
+        self._invalidate()
+        return np.arange(start, start + k, dtype=np.int64)
+
+    # ---------------------------------------------------------------- members
+    def add_members(
+        self,
+        pairs: Any,
+        area: Any = None,
+        E: Any = None,
+        density: Any = 0.0,
+        alpha: Any = 0.0,
+        group: str | None = None,
+    ) -> np.ndarray:
+        """Add members between existing nodes.
+
+        Parameters
+        ----------
+        pairs : (k, 2) int
+            End node ids.  The member's direction runs from the first to the second.
+        area : float or (k,) float, optional
+            Cross-section area, m².  ``None`` leaves it unassigned (NaN), to be
+            set later with :meth:`set_member_properties`; solving a model with
+            unassigned members raises ModelError.
+        E : float or (k,) float, optional
+            Young's modulus, Pa; ``None`` as for ``area``.
+        density : float or (k,) float
+            Mass density, kg/m³ (for self-weight).
+        alpha : float or (k,) float
+            Coefficient of thermal expansion, 1/K.
+        group : str, optional
+            Name of a member group to add the new members to.
+
+        Returns
+        -------
+        ids : (k,) int
+            The new member ids.
+
+        Raises
+        ------
+        ModelError
+            On a missing node, a member from a node to itself, a zero-length
+            member, a duplicate (same node pair, either way round, also against
+            existing members), non-positive area or E, or a shape mismatch.
+        """
+        p = np.asarray(pairs)
+        if p.ndim == 1 and p.shape == (2,):
+            p = p[None, :]
+        if p.ndim != 2 or p.shape[1] != 2:
+            raise ModelError(f"add_members: expected (k, 2) node ids, got shape {p.shape}")
+        if p.size and not np.issubdtype(p.dtype, np.integer):
+            if not np.all(np.isfinite(p)) or np.any(p != np.round(p)):
+                raise ModelError("add_members: node ids must be integers")
+        p = p.astype(np.int64)
+        k = p.shape[0]
+        start = self.n_members
+        bad = np.argwhere((p < 0) | (p >= self.n_nodes))
+        if bad.size:
+            i, j = (int(v) for v in bad[0])
+            raise ModelError(
+                f"add_members: member {start + i} refers to node {int(p[i, j])}, which does not "
+                f"exist (the model has nodes 0..{self.n_nodes - 1})"
+            )
+        same = np.flatnonzero(p[:, 0] == p[:, 1])
+        if same.size:
+            i = int(same[0])
+            raise ModelError(
+                f"add_members: member {start + i} runs from node {int(p[i, 0])} to itself"
+            )
+        d = self.nodes[p[:, 1]] - self.nodes[p[:, 0]]
+        length = np.sqrt(np.einsum("ij,ij->i", d, d))
+        zero = np.flatnonzero(length <= 0.0)
+        if zero.size:
+            i = int(zero[0])
+            raise ModelError(
+                f"add_members: member {start + i} between nodes {int(p[i, 0])} and "
+                f"{int(p[i, 1])} has zero length (both at {self.nodes[p[i, 0]].tolist()})"
+            )
+        key_all = np.concatenate([_pair_keys(self.members), _pair_keys(p)])
+        order = np.argsort(key_all, kind="stable")
+        dup = np.flatnonzero(key_all[order][1:] == key_all[order][:-1])
+        if dup.size:
+            a, b = int(order[dup[0]]), int(order[dup[0] + 1])
+            pair = p[b - start] if b >= start else self.members[b]
+            raise ModelError(
+                f"add_members: member {b} duplicates member {a} (both join nodes "
+                f"{int(min(pair))} and {int(max(pair))})"
+            )
+        area_a = (
+            np.full(k, np.nan)
+            if area is None
+            else self._per_item(area, k, "add_members: area", positive=True)
+        )
+        e_a = (
+            np.full(k, np.nan)
+            if E is None
+            else self._per_item(E, k, "add_members: E", positive=True)
+        )
+        rho_a = self._per_item(density, k, "add_members: density")
+        alpha_a = self._per_item(alpha, k, "add_members: alpha")
+        if np.any(rho_a < 0):
+            j = int(np.flatnonzero(rho_a < 0)[0])
+            raise ModelError(f"add_members: density[{j}] = {float(rho_a[j])}: must not be negative")
+        self.members = np.concatenate([self.members, p])
+        self.area = np.concatenate([self.area, area_a])
+        self.E = np.concatenate([self.E, e_a])
+        self.density = np.concatenate([self.density, rho_a])
+        self.alpha = np.concatenate([self.alpha, alpha_a])
+        ids = np.arange(start, start + k, dtype=np.int64)
+        if group is not None:
+            self.add_group(group, ids)
+        self._invalidate()
+        return ids
+
+    def add_group(self, name: str, member_ids: Any) -> np.ndarray:
+        """Add members to the named group (created if new); returns the group's ids."""
+        ids = self._member_ids(member_ids, f"group {name!r}")
+        merged = np.union1d(self.groups.get(name, np.zeros(0, dtype=np.int64)), ids)
+        self.groups[name] = merged.astype(np.int64)
+        return self.groups[name]
+
+    def groups_of(self, member: int) -> list[str]:
+        """Names of the groups that contain ``member``."""
+        return [g for g, ids in self.groups.items() if np.any(ids == member)]
+
+    def _group_text(self, member: int) -> str:
+        names = self.groups_of(member)
+        return f" (group {', '.join(repr(g) for g in names)})" if names else ""
+
+    def add_node_set(self, name: str, node_ids: Any) -> np.ndarray:
+        """Add nodes to the named node set (created if new); returns the set's ids."""
+        ids = self._node_ids(node_ids, f"node set {name!r}")
+        merged = np.union1d(self.node_sets.get(name, np.zeros(0, dtype=np.int64)), ids)
+        self.node_sets[name] = merged.astype(np.int64)
+        return self.node_sets[name]
+
+    def set_member_properties(
+        self,
+        member_ids: Any,
+        *,
+        area: Any = None,
+        E: Any = None,
+        density: Any = None,
+        alpha: Any = None,
+    ) -> None:
+        """Overwrite section and material properties of existing members."""
+        ids = self._member_ids(member_ids, "set_member_properties")
+        k = ids.size
+        if area is not None:
+            self.area[ids] = self._per_item(area, k, "area", positive=True)
+        if E is not None:
+            self.E[ids] = self._per_item(E, k, "E", positive=True)
+        if density is not None:
+            rho = self._per_item(density, k, "density")
+            if np.any(rho < 0):
+                raise ModelError(f"density = {float(rho[rho < 0][0])}: must not be negative")
+            self.density[ids] = rho
+        if alpha is not None:
+            self.alpha[ids] = self._per_item(alpha, k, "alpha")
+
+    # --------------------------------------------------------------- panels
+    def add_panels(self, polygons: Iterable[Any], group: str | None = None) -> np.ndarray:
+        """Add load panels (polygons of at least three node ids).
+
+        Returns
+        -------
+        ids : (k,) int
+            The new panel ids.
+        """
+        polys = [np.asarray(p, dtype=np.int64).ravel() for p in polygons]
+        for i, poly in enumerate(polys):
+            if poly.size < 3:
+                raise ModelError(f"add_panels: panel {self.n_panels + i} has {poly.size} nodes")
+            self._node_ids(poly, f"add_panels: panel {self.n_panels + i}")
+        start = self.n_panels
+        if polys:
+            sizes = np.array([p.size for p in polys], dtype=np.int64)
+            self.panel_nodes = np.concatenate([self.panel_nodes, *polys])
+            self.panel_offsets = np.concatenate(
+                [self.panel_offsets, self.panel_offsets[-1] + np.cumsum(sizes)]
+            )
+        ids = np.arange(start, self.n_panels, dtype=np.int64)
+        if group is not None:
+            self.panel_groups[group] = np.union1d(
+                self.panel_groups.get(group, np.zeros(0, dtype=np.int64)), ids
+            ).astype(np.int64)
+        return ids
+
+    def panel(self, k: int) -> np.ndarray:
+        """Node ids of panel ``k``."""
+        return self.panel_nodes[self.panel_offsets[k] : self.panel_offsets[k + 1]]
+
+    def add_markers(self, xyz: Any, layers: Any) -> None:
+        """Add marker points (metres) with a layer name each."""
+        pts = np.asarray(xyz, dtype=float).reshape(-1, 3)
+        names = np.asarray(layers, dtype=object).ravel()
+        if names.size == 1 and pts.shape[0] != 1:
+            names = np.full(pts.shape[0], names[0], dtype=object)
+        if names.shape[0] != pts.shape[0]:
+            raise ModelError(
+                f"add_markers: {pts.shape[0]} positions but {names.shape[0]} layer names"
+            )
+        self.markers = np.concatenate([self.markers, pts])
+        self.marker_layers = np.concatenate([self.marker_layers, names])
+
+    # -------------------------------------------------------------- supports
+    def add_support(self, node_ids: Any, x: bool = True, y: bool = True, z: bool = True) -> None:
+        """Restrain translations of nodes (a roller restrains fewer directions)."""
+        ids = self._node_ids(node_ids, "add_support")
+        self.restraint[ids] |= np.array([x, y, z], dtype=bool)
+
+    def add_spring(
+        self, node_ids: Any, kx: float = 0.0, ky: float = 0.0, kz: float = 0.0
+    ) -> None:
+        """Add elastic supports, N/m, to nodes (adds to any spring already there)."""
+        ids = self._node_ids(node_ids, "add_spring")
+        k = self._vector([kx, ky, kz], "add_spring: stiffness")
+        if np.any(k < 0):
+            raise ModelError(f"add_spring: stiffness {k.tolist()} must not be negative")
+        np.add.at(self.springs, ids, k)
+
+    # ----------------------------------------------------------------- loads
+    def case(self, name: str) -> LoadCase:
+        """The load case ``name``, created empty if new."""
+        if not isinstance(name, str) or not name:
+            raise ModelError(f"load case name must be a non-empty string, got {name!r}")
+        if name in self.combinations:
+            raise ModelError(f"load case {name!r}: a combination already has that name")
+        if name not in self.cases:
+            self.cases[name] = LoadCase(name)
+        lc = self.cases[name]
+        lc.resize(self.n_nodes, self.n_members)
+        return lc
+
+    def add_load(self, case: str, node_ids: Any, force: Any) -> None:
+        """Add nodal forces, N, to a load case (adds to what is there).
+
+        ``force`` is one (fx, fy, fz) for all nodes or (k, 3), one per node.
+        """
+        ids = self._node_ids(node_ids, f"add_load({case!r})")
+        f = self._vector(force, f"add_load({case!r}): force")
+        if f.ndim == 2 and f.shape[0] != ids.size:
+            raise ModelError(
+                f"add_load({case!r}): {ids.size} nodes but {f.shape[0]} force vectors"
+            )
+        lc = self.case(case)
+        np.add.at(lc.forces, ids, np.broadcast_to(f, (ids.size, 3)))
+
+    def add_self_weight(
+        self, case: str, g: float = STANDARD_GRAVITY, factor: float = 1.0, members: Any = None
+    ) -> None:
+        """Add member self-weight along -z, half of each member's weight to each end.
+
+        Parameters
+        ----------
+        case : str
+            Load case.
+        g : float
+            Acceleration of gravity, m/s².
+        factor : float
+            Multiplier, e.g. 1.1 for joints and connections.
+        members : (k,) int, optional
+            Only these members (default all).
+        """
+        ids = (
+            np.arange(self.n_members)
+            if members is None
+            else self._member_ids(members, f"add_self_weight({case!r})")
+        )
+        lc = self.case(case)
+        w = 0.5 * factor * g * self.mass[ids]
+        fz = np.bincount(self.members[ids, 0], w, self.n_nodes) + np.bincount(
+            self.members[ids, 1], w, self.n_nodes
+        )
+        lc.forces[:, 2] -= fz
+
+    def add_temperature(self, case: str, member_ids: Any, dT: Any) -> None:
+        """Add a uniform temperature change, K, to members (free strain alpha*dT)."""
+        ids = self._member_ids(member_ids, f"add_temperature({case!r})")
+        t = self._per_item(dT, ids.size, f"add_temperature({case!r}): dT")
+        lc = self.case(case)
+        np.add.at(lc.temperature, ids, t)
+
+    def add_initial_strain(self, case: str, member_ids: Any, strain: Any) -> None:
+        """Add an imposed free strain (lack of fit; positive = member too long)."""
+        ids = self._member_ids(member_ids, f"add_initial_strain({case!r})")
+        s = self._per_item(strain, ids.size, f"add_initial_strain({case!r}): strain")
+        lc = self.case(case)
+        np.add.at(lc.initial_strain, ids, s)
+
+    def add_settlement(self, case: str, node_ids: Any, displacement: Any) -> None:
+        """Prescribe displacements, m, of restrained directions of support nodes.
+
+        Only directions that are restrained may be given a non-zero value; a
+        non-zero component in a free direction raises ModelError.
+        """
+        ids = self._node_ids(node_ids, f"add_settlement({case!r})")
+        u = np.broadcast_to(self._vector(displacement, f"add_settlement({case!r})"), (ids.size, 3))
+        given = u != 0.0
+        free = given & ~self.restraint[ids]
+        if np.any(free):
+            i, j = (int(v) for v in np.argwhere(free)[0])
+            raise ModelError(
+                f"add_settlement({case!r}): node {int(ids[i])} is not restrained along "
+                f"{_AXES[j]}, so it cannot be given a settlement of {float(u[i, j])} m there"
+            )
+        lc = self.case(case)
+        np.add.at(lc.settlement, ids, u)
+        lc.settlement_mask[ids] |= given
+
+    def add_combination(self, name: str, factors: Mapping[str, float]) -> None:
+        """Define a combination: name -> {case: factor}, results by superposition."""
+        if not isinstance(name, str) or not name:
+            raise ModelError(f"combination name must be a non-empty string, got {name!r}")
+        if name in self.cases:
+            raise ModelError(f"combination {name!r}: a load case already has that name")
+        if not factors:
+            raise ModelError(f"combination {name!r} has no cases")
+        clean: dict[str, float] = {}
+        for case, factor in factors.items():
+            if case not in self.cases:
+                known = ", ".join(sorted(self.cases)) or "none defined"
+                raise ModelError(
+                    f"combination {name!r} refers to unknown load case {case!r} (cases: {known})"
+                )
+            f = float(factor)
+            if not np.isfinite(f):
+                raise ModelError(f"combination {name!r}: factor for {case!r} is {factor!r}")
+            clean[case] = f
+        self.combinations[name] = clean
+
+    # ----------------------------------------------------------------- solve
+    def validate(self) -> None:
+        """Check the whole model once more before analysis (cheap, vectorised).
+
+        Raises
+        ------
+        ModelError
+            On any inconsistency of shapes, ids or values.
+        """
+        b = self.n_members
+        for name in ("area", "E", "density", "alpha"):
+            arr = getattr(self, name)
+            if arr.shape != (b,):
+                raise ModelError(f"{name} has shape {arr.shape}, expected ({b},)")
+        if self.restraint.shape != (self.n_nodes, 3) or self.springs.shape != (self.n_nodes, 3):
+            raise ModelError("restraint and springs must be (n, 3) arrays")
+        if b == 0:
+            raise ModelError("the model has no members")
+        for name in ("area", "E"):
+            missing = np.flatnonzero(~np.isfinite(getattr(self, name)))
+            if missing.size:
+                i = int(missing[0])
+                raise ModelError(
+                    f"member {i}{self._group_text(i)} has no {name} assigned "
+                    f"({missing.size} members without one)"
+                )
+        for name, ids in self.groups.items():
+            self._member_ids(ids, f"group {name!r}")
+        for cname, factors in self.combinations.items():
+            for case in factors:
+                if case not in self.cases:
+                    raise ModelError(f"combination {cname!r} refers to unknown load case {case!r}")
+
+    def solve(self, solver: str = "auto") -> Results:
+        """Linear static analysis of every load case and combination.
+
+        Parameters
+        ----------
+        solver : {"auto", "scipy", "pardiso"}
+            Sparse direct solver back-end; "auto" prefers PARDISO when installed.
+
+        Returns
+        -------
+        Results
+            Mapping from case or combination name to its result.
+
+        Raises
+        ------
+        MechanismError
+            If the frame cannot carry load (named nodes and directions).
+        ModelError
+            On inconsistent input.
+        """
+        from spaceframe.analysis.static import solve_static
+
+        return solve_static(self, solver=solver)
+
+
+def _pair_keys(pairs: np.ndarray) -> np.ndarray:
+    """Order-free int64 keys of node pairs (node ids below 2**31)."""
+    lo = np.minimum(pairs[:, 0], pairs[:, 1]).astype(np.int64)
+    hi = np.maximum(pairs[:, 0], pairs[:, 1]).astype(np.int64)
+    return (lo << 31) | hi

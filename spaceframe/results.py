@@ -1,0 +1,166 @@
+"""Results of an analysis: one :class:`CaseResult` per load case and combination."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from spaceframe.model import Model
+
+__all__ = ["CaseResult", "Envelope", "Results"]
+
+
+@dataclass
+class CaseResult:
+    """Result of one load case or combination (SI units, tension positive).
+
+    Attributes
+    ----------
+    name : str
+    kind : {"case", "combination"}
+    displacements : (n, 3) float
+        Nodal displacements, m.
+    axial_forces : (b,) float
+        Member axial forces, N, tension positive.
+    reactions : (n, 3) float
+        Forces that supports and springs exert on the nodes, N; zero elsewhere.
+    loads : (n, 3) float
+        Applied nodal forces, N.
+    elongations : (b,) float
+        Total member elongations (elastic plus free thermal/initial), m.
+    residual : float
+        Relative equilibrium residual ||A t - f - R|| / (|| |A| |t| || + ||f|| + ||R||).
+    factors : dict
+        For a combination, its case factors.
+    """
+
+    name: str
+    kind: str
+    displacements: np.ndarray
+    axial_forces: np.ndarray
+    reactions: np.ndarray
+    loads: np.ndarray
+    elongations: np.ndarray
+    residual: float
+    area: np.ndarray = field(repr=False)
+    factors: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def stress(self) -> np.ndarray:
+        """(b,) float: axial stress N/A, Pa."""
+        return self.axial_forces / self.area
+
+    @property
+    def applied_total(self) -> np.ndarray:
+        """(3,) float: sum of applied nodal forces, N."""
+        return self.loads.sum(axis=0)
+
+    @property
+    def reaction_total(self) -> np.ndarray:
+        """(3,) float: sum of reactions, N."""
+        return self.reactions.sum(axis=0)
+
+    def max_displacement(self) -> tuple[int, float]:
+        """Node id and value of the largest displacement magnitude, m."""
+        mag = np.linalg.norm(self.displacements, axis=1)
+        i = int(np.argmax(mag)) if mag.size else 0
+        return i, float(mag[i]) if mag.size else 0.0
+
+    def max_tension(self) -> tuple[int, float]:
+        """Member id and value of the largest axial force, N."""
+        i = int(np.argmax(self.axial_forces))
+        return i, float(self.axial_forces[i])
+
+    def max_compression(self) -> tuple[int, float]:
+        """Member id and value of the most negative axial force, N."""
+        i = int(np.argmin(self.axial_forces))
+        return i, float(self.axial_forces[i])
+
+
+@dataclass
+class Envelope:
+    """Max and min of each result over a set of combinations or cases."""
+
+    name: str
+    members: list[str]
+    axial_max: np.ndarray
+    axial_min: np.ndarray
+    displacement_max: np.ndarray
+    displacement_min: np.ndarray
+    reaction_max: np.ndarray
+    reaction_min: np.ndarray
+
+
+class Results(Mapping[str, CaseResult]):
+    """Mapping from case or combination name to :class:`CaseResult`.
+
+    Attributes
+    ----------
+    model : Model
+        The analysed model.
+    solver : str
+        Back-end that factorised the stiffness matrix.
+    timings : dict
+        Seconds spent per phase.
+    """
+
+    def __init__(
+        self,
+        model: Model,
+        items: dict[str, CaseResult],
+        solver: str = "",
+        timings: dict[str, float] | None = None,
+        info: dict[str, Any] | None = None,
+    ) -> None:
+        self.model = model
+        self._items = items
+        self.solver = solver
+        self.timings = dict(timings or {})
+        self.info = dict(info or {})
+
+    def __getitem__(self, name: str) -> CaseResult:
+        try:
+            return self._items[name]
+        except KeyError:
+            known = ", ".join(self._items) or "none"
+            raise KeyError(f"no result named {name!r} (have: {known})") from None
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._items)
+
+    def __len__(self) -> int:
+        return len(self._items)
+
+    def __repr__(self) -> str:
+        return f"Results({', '.join(self._items)}; solver={self.solver})"
+
+    @property
+    def cases(self) -> list[str]:
+        """Names of the load-case results."""
+        return [k for k, v in self._items.items() if v.kind == "case"]
+
+    @property
+    def combinations(self) -> list[str]:
+        """Names of the combination results."""
+        return [k for k, v in self._items.items() if v.kind == "combination"]
+
+    def envelope(self, name: str, members: list[str]) -> Envelope:
+        """Max and min over the named results, per member, node and axis."""
+        rs = [self[m] for m in members]
+        axial = np.stack([r.axial_forces for r in rs])
+        disp = np.stack([r.displacements for r in rs])
+        reac = np.stack([r.reactions for r in rs])
+        return Envelope(
+            name=name,
+            members=list(members),
+            axial_max=axial.max(axis=0),
+            axial_min=axial.min(axis=0),
+            displacement_max=disp.max(axis=0),
+            displacement_min=disp.min(axis=0),
+            reaction_max=reac.max(axis=0),
+            reaction_min=reac.min(axis=0),
+        )

@@ -1,0 +1,40 @@
+"""Tolerances, defined once, each with the reason for its value."""
+
+from __future__ import annotations
+
+#: Geometric tolerance for healing, in metres.  Drawn centrelines that are
+#: meant to meet but miss by less than this are merged.  1 mm is well below
+#: any joint size used in space frames (node balls and gusset plates are
+#: tens of millimetres) and well above CAD round-off at building scale
+#: (coordinates of 100 m printed to 6 significant figures err by ~0.1 mm).
+GEOMETRY_TOLERANCE = 1.0e-3
+
+#: Relative equilibrium residual above which a solve is rejected.  A sound
+#: direct factorisation of a well-conditioned stiffness matrix gives ~1e-14;
+#: 1e-8 leaves room for ill conditioning from members of very different
+#: stiffness but still catches near-singular (mechanism) solves, whose
+#: residuals are of order 1e-3 or worse.
+RESIDUAL_TOLERANCE = 1.0e-8
+
+#: Relative tolerance on the balance of reactions against applied loads per
+#: axis (as a fraction of the largest applied load component).  Same
+#: reasoning as RESIDUAL_TOLERANCE.
+BALANCE_TOLERANCE = 1.0e-8
+
+#: Relative tolerance for deciding that a member direction is parallel to a
+#: line or in a plane (sine of the angle).  1e-6 rad is far below any
+#: deliberately drawn angle and far above float64 round-off of unit vectors.
+ANGLE_TOLERANCE = 1.0e-6
+
+#: Relative singular-value threshold for the rank of the equilibrium matrix
+#: (times the largest singular value).  Common practice for numerical rank
+#: (cf. numpy.linalg.matrix_rank, which uses max(M, N) * eps).
+RANK_TOLERANCE = 1.0e-9
+
+#: Ratio of smallest to largest eigenvalue of a node's 3x3 stiffness below
+#: which the node is taken to have no stiffness in that direction.  A member
+#: at angle theta out of a plane contributes sin(theta)**2 of its stiffness
+#: across it: 1e-10 is theta ~ 1e-5 rad, far flatter than any frame is drawn
+#: on purpose, yet far above the ~1e-16 left by round-off in a rotated flat
+#: truss.
+NODE_STIFFNESS_RATIO = 1.0e-10
