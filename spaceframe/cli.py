@@ -1,19 +1,38 @@
-"""The command line: parses arguments, calls the library, prints."""
+"""The command line: parses arguments, calls the library, prints.
+
+Subcommands:
+
+- ``check MODEL``: read, heal, validate; report geometry and stability, no solve.
+- ``run MODEL``: solve every case and combination, write the results folder,
+  print a summary table (``--json`` for scripts).
+- ``new FOLDER``: write a starter project (model file and drawing) from a demo.
+- ``view MODEL``: open the 3D viewer, or ``--screenshot out.png`` off-screen.
+
+Bad input gives one line on stderr and exit code 2; an unstable frame found
+by ``check`` gives exit code 1.
+"""
 
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 from collections.abc import Sequence
+from contextlib import AbstractContextManager, nullcontext
+from pathlib import Path
+from typing import Any
 
 CAUTION = (
     "Results must be checked by a qualified engineer; local codes and licensed "
     "practice govern."
 )
 
+EXIT_UNSTABLE = 1
+EXIT_BAD_INPUT = 2
+
 
 def build_parser() -> argparse.ArgumentParser:
-    """The argument parser (subcommands are added as the tool grows)."""
+    """The argument parser."""
     from spaceframe import __version__
 
     parser = argparse.ArgumentParser(
@@ -21,12 +40,273 @@ def build_parser() -> argparse.ArgumentParser:
         description="Analyse three-dimensional pin-jointed frames. " + CAUTION,
     )
     parser.add_argument("--version", action="version", version=f"spaceframe {__version__}")
+    # -q/-v work before or after the subcommand; SUPPRESS keeps a subcommand's
+    # unset flag from overwriting one given before it.
+    common = argparse.ArgumentParser(add_help=False)
+    verbosity = common.add_mutually_exclusive_group()
+    verbosity.add_argument("-q", "--quiet", action="store_true", default=argparse.SUPPRESS,
+                           help="print only errors")
+    verbosity.add_argument("-v", "--verbose", action="store_true", default=argparse.SUPPRESS,
+                           help="print more detail (timings)")
+    for action in common._actions:
+        parser._add_action(action)
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser(
+        "check", parents=[common],
+        help="read, heal and check a model without solving",
+    )
+    p.add_argument("model", type=Path, help="model file (.toml) or a drawing/mesh")
+    p.add_argument("--json", action="store_true", help="print the report as JSON")
+
+    p = sub.add_parser(
+        "run", parents=[common],
+        help="solve a model file and write the results folder",
+    )
+    p.add_argument("model", type=Path, help="model file (.toml)")
+    p.add_argument("-o", "--output", type=Path, help="results folder (default from the file)")
+    p.add_argument("--solver", default="auto", choices=["auto", "scipy", "pardiso"])
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--no-pictures", action="store_true", help="skip pictures and report")
+
+    p = sub.add_parser("new", parents=[common], help="write a starter project from a demo scenario")
+    p.add_argument("folder", type=Path)
+    p.add_argument("--demo", default="canopy", help="demo scenario (default: canopy)")
+    p.add_argument("--force", action="store_true", help="write into a non-empty folder")
+
+    p = sub.add_parser(
+        "view", parents=[common],
+        help="show a model's results in 3D, or save a screenshot",
+    )
+    p.add_argument("model", type=Path, help="model file (.toml) or a results folder")
+    p.add_argument("--case", help="load case or combination to show first")
+    p.add_argument("--color-by", default="axial_force",
+                   choices=["axial_force", "displacement", "stress", "group"])
+    p.add_argument("--screenshot", type=Path, help="render off-screen to this PNG")
+    p.add_argument("--view", default="iso", choices=["iso", "top", "front", "side"])
+    p.add_argument("--size", default="1600x1000", help="picture size, WIDTHxHEIGHT")
     return parser
+
+
+class _Printer:
+    """Terminal output: rich tables on a terminal, plain text when piped."""
+
+    def __init__(self, quiet: bool, verbose: bool) -> None:
+        self.quiet = quiet
+        self.verbose = verbose
+        self.tty = sys.stdout.isatty()
+
+    def line(self, text: str = "") -> None:
+        if not self.quiet:
+            print(text)
+
+    def table(self, title: str, header: list[str], rows: list[list[str]]) -> None:
+        if self.quiet:
+            return
+        try:
+            from rich.console import Console
+            from rich.markup import escape
+            from rich.table import Table
+        except ImportError:  # rich is an optional extra: fall back to plain columns
+            self._plain(title, header, rows)
+            return
+        t = Table(title=title, title_justify="left")
+        # Units in square brackets would read as rich markup: escape all text.
+        for i, h in enumerate(header):
+            t.add_column(escape(h), justify="left" if i == 0 else "right", no_wrap=True)
+        for r in rows:
+            t.add_row(*(escape(c) for c in r))
+        # Piped output (logs, CI) is not cut to a terminal's width.
+        Console(soft_wrap=False, width=None if self.tty else 250).print(t)
+
+    @staticmethod
+    def _plain(title: str, header: list[str], rows: list[list[str]]) -> None:
+        widths = [max(len(str(c)) for c in col) for col in zip(header, *rows, strict=True)]
+        print(title)
+        for r in [header, *rows]:
+            print("  ".join(str(c).rjust(w) for c, w in zip(r, widths, strict=True)))
+
+    def progress(self) -> tuple[AbstractContextManager[Any], Any]:
+        """A progress reporter for phases: a rich status on a terminal, silent otherwise."""
+        if self.quiet or not sys.stderr.isatty():
+            return nullcontext(), lambda phase: None
+        try:
+            from rich.console import Console
+        except ImportError:
+            return nullcontext(), lambda phase: None
+        status = Console(stderr=True).status("starting")
+        return status, lambda phase: status.update(f"{phase} ...")
+
+
+def _fmt(v: float, unit: str, scale: float = 1.0, digits: int = 4) -> str:
+    return f"{v / scale:.{digits}g} {unit}"
+
+
+def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
+    if as_json:
+        print(json.dumps(rep.as_dict(), indent=2))
+        return
+    out.line(f"{rep.title}  ({rep.source})")
+    c = rep.counts
+    out.line(
+        f"{c['nodes']} nodes, {c['members']} members, {c['panels']} panels, "
+        f"{c['markers']} markers; {c['cases']} load cases, {c['combinations']} combinations"
+    )
+    lo, hi = rep.extents
+    out.line(
+        "extents: x {0:.4g} .. {3:.4g} m, y {1:.4g} .. {4:.4g} m, z {2:.4g} .. {5:.4g} m".format(
+            *lo, *hi
+        )
+    )
+    out.line(f"connected parts: {rep.components}")
+    if rep.groups:
+        out.table("groups", ["group", "members"], [[g, str(n)] for g, n in rep.groups.items()])
+    out.line("supports: " + ", ".join(f"{v} {k}" for k, v in rep.supports.items()))
+    if rep.healing:
+        out.line("healing:")
+        for h in rep.healing:
+            out.line("  " + h)
+    if rep.cases:
+        out.table(
+            "applied load totals",
+            ["case", "Fx [kN]", "Fy [kN]", "Fz [kN]"],
+            [[n, *(f"{v / 1e3:.4g}" for v in f.values())] for n, f in rep.cases.items()],
+        )
+    for w in rep.warnings:
+        out.line(f"warning: {w}")
+    out.line("stability: " + ("no mechanism found" if rep.stable else "UNSTABLE"))
+    if not rep.stable:
+        print(f"mechanism: {rep.mechanism}", file=sys.stderr)
+
+
+def _triple(v: list[float], scale: float) -> str:
+    """'0.0 / 0.0 / 254.2': one decimal, and never a '-0.0' from round-off."""
+    shown = [round(x / scale, 1) for x in v]
+    return " / ".join(f"{(x if x != 0 else 0.0):.1f}" for x in shown)
+
+
+def _print_summary(out: _Printer, summ: dict[str, Any]) -> None:
+    def member(e: dict[str, Any] | None) -> list[str]:
+        if not e:
+            return ["-", "-"]
+        groups = ",".join(e["groups"]) or "-"
+        return [f"{e['force'] / 1e3:.1f}", f"{e['member']} ({groups})"]
+
+    rows = []
+    for name, r in summ["results"].items():
+        md = r["max_displacement"]
+        pos = ", ".join(f"{x:.3g}" for x in md["position"])
+        rows.append([
+            name,
+            f"{md['value'] * 1e3:.2f}",
+            f"{md['node']} ({pos})",
+            *member(r["max_tension"]),
+            *member(r["max_compression"]),
+            _triple(r["reaction_total"], 1e3),
+            _triple(r["applied_total"], 1e3),
+            f"{r['residual']:.1e}",
+        ])
+    out.table(
+        "results per load case and combination (tension +)",
+        ["case", "max |u| [mm]", "at node (x, y, z m)", "max N+ [kN]", "member (group)",
+         "max N- [kN]", "member (group)", "reactions x/y/z [kN]", "loads x/y/z [kN]",
+         "residual"],
+        rows,
+    )
+
+
+def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
+    from spaceframe import batch
+
+    ctx, progress = out.progress()
+    with ctx:
+        rep = batch.check(args.model, progress=progress)
+    _print_check(out, rep, args.json)
+    return 0 if rep.stable else EXIT_UNSTABLE
+
+
+def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
+    from spaceframe import batch
+
+    ctx, progress = out.progress()
+    with ctx:
+        outcome = batch.run(args.model, args.output, solver=args.solver,
+                            pictures=not args.no_pictures, progress=progress)
+    if args.json:
+        print(json.dumps(outcome.summary, indent=2))
+        return 0
+    m = outcome.summary["model"]
+    out.line(f"{outcome.summary.get('title', '')}: {m['nodes']} nodes, {m['members']} members, "
+             f"solver {outcome.summary['solver']}")
+    _print_summary(out, outcome.summary)
+    for w in outcome.summary.get("warnings", []):
+        out.line(f"warning: {w}")
+    out.line(f"results written to {outcome.output} ({len(outcome.files)} files)")
+    if out.verbose:
+        out.line("timings: " + ", ".join(f"{k} {v:.2f} s" for k, v in outcome.timings.items()))
+    out.line(CAUTION)
+    return 0
+
+
+def _cmd_new(args: argparse.Namespace, out: _Printer) -> int:
+    from spaceframe import demos
+
+    files = demos.write_demo(args.folder, args.demo, force=args.force)
+    out.line(f"wrote the {args.demo} demo to {args.folder}:")
+    for f in files:
+        out.line(f"  {f}")
+    toml = next((f for f in files if f.suffix == ".toml"), None)
+    if toml is not None:
+        out.line(f"next: spaceframe check {toml}  then  spaceframe run {toml}")
+    return 0
+
+
+def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
+    from spaceframe import batch, viewer
+    from spaceframe.errors import ProjectError
+
+    path: Path = args.model
+    if path.is_dir():
+        summ = path / "summary.json"
+        if not summ.exists():
+            raise ProjectError(f"{path}: not a results folder (no summary.json)")
+        path = Path(json.loads(summ.read_text())["source"])
+    try:
+        w, h = (int(v) for v in args.size.lower().split("x"))
+    except ValueError:
+        raise ProjectError(f"--size {args.size!r}: expected WIDTHxHEIGHT, e.g. 1600x1000") from None
+    results = batch.load(path).solve()
+    case = args.case or next(iter(results))
+    if case not in results:
+        raise ProjectError(f"--case {case!r}: no such case (have: {', '.join(results)})")
+    if args.screenshot:
+        viewer.screenshot(results, case, args.screenshot, view=args.view, size=(w, h),
+                          color_by=args.color_by)
+        out.line(f"wrote {args.screenshot}")
+        return 0
+    viewer.show(results, case, color_by=args.color_by)
+    return 0
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the `spaceframe` command; returns the exit code."""
+    from spaceframe.errors import SpaceframeError
+
     parser = build_parser()
-    parser.parse_args(argv)
-    parser.print_help(sys.stdout)
-    return 0
+    args = parser.parse_args(argv)
+    out = _Printer(getattr(args, "quiet", False), getattr(args, "verbose", False))
+    commands = {"check": _cmd_check, "run": _cmd_run, "new": _cmd_new, "view": _cmd_view}
+    if args.command is None:
+        parser.print_help(sys.stdout)
+        return 0
+    try:
+        return commands[args.command](args, out)
+    except SpaceframeError as exc:
+        print(f"spaceframe {args.command}: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as exc:  # a file we could not open or write
+        print(f"spaceframe {args.command}: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print("spaceframe: interrupted", file=sys.stderr)
+        return 130

@@ -36,7 +36,23 @@ def test_roof_grid_example_runs_and_balances() -> None:
 def test_readme_commands_are_what_ci_runs() -> None:
     readme = (ROOT / "README.md").read_text()
     ci = (ROOT / ".ci" / "run").read_text()
-    commands = re.findall(r"^\s*(python -m pytest.*|python examples/\S+.*)$", readme, re.M)
+    commands = re.findall(r"^\s*(python -m pytest.*|spaceframe run \S+.*)$", readme, re.M)
     assert commands, "README shows no run/test command"
     test_cmd = next(c for c in commands if "pytest" in c)
     assert test_cmd.strip() in ci
+
+
+def test_readme_main_command_word_for_word(tmp_path: Path) -> None:
+    import shutil
+
+    readme = (ROOT / "README.md").read_text()
+    cmd = re.findall(r"^(spaceframe run \S+)$", readme, re.M)[0]
+    model = Path(cmd.split()[-1])
+    shutil.copytree(ROOT / model.parent, tmp_path / model.parent)
+    exe = Path(sys.executable).with_name("spaceframe")
+    proc = subprocess.run([str(exe), *cmd.split()[1:]], cwd=tmp_path,
+                          capture_output=True, text=True, check=False)
+    assert proc.returncode == 0, proc.stderr
+    assert "qualified engineer" in proc.stdout
+    out = tmp_path / model.parent / "canopy-results"
+    assert (out / "report.html").exists() or (out / "summary.json").exists()

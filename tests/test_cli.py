@@ -1,0 +1,138 @@
+"""The command line, run as a user would (subprocess), and in-process for speed."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from spaceframe import __version__
+from spaceframe.cli import main
+from spaceframe.demos import write_demo
+from spaceframe.project import load_project
+
+pytest.importorskip("ezdxf")
+
+
+@pytest.fixture
+def canopy(tmp_path: Path) -> Path:
+    return write_demo(tmp_path / "proj", "canopy")[1]
+
+
+def test_version_and_help() -> None:
+    out = subprocess.run([sys.executable, "-m", "spaceframe", "--version"],
+                         capture_output=True, text=True, check=True).stdout
+    assert out.strip() == f"spaceframe {__version__}"
+    out = subprocess.run([sys.executable, "-m", "spaceframe", "--help"],
+                         capture_output=True, text=True, check=True).stdout
+    for word in ("check", "run", "new", "view", "qualified engineer"):
+        assert word in out
+
+
+def test_check_reports_geometry_and_stability(canopy: Path,
+                                               capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["check", str(canopy), "--json"]) == 0
+    rep = json.loads(capsys.readouterr().out)
+    assert rep["stable"] is True
+    assert rep["counts"]["nodes"] == 94 and rep["components"] == 1
+    assert rep["supports"]["supported nodes"] == 6
+    assert any("split" in h for h in rep["healing"])
+    # Extents in metres from a drawing in millimetres: 24 m x 15 m, z 6..8 m.
+    assert rep["extents"] == [[0.0, 0.0, 6.0], [24.0, 15.0, 8.0]]
+
+
+def test_check_names_a_mechanism(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    toml = tmp_path / "flat.toml"
+    toml.write_text(
+        "[geometry]\nnodes = [[0,0,0],[1,0,0],[2,0,0],[0.5,1,0],[1.5,1,0]]\n"
+        "members = [[0,1],[1,2],[0,3],[1,3],[1,4],[2,4],[3,4]]\n"
+        "[sections]\ns = { shape = \"bar\", diameter = 0.02 }\n"
+        "[assign]\ndefault = { section = \"s\", material = \"steel\" }\n"
+        "[[supports]]\nnodes = [0, 2]\nrestrain = \"pinned\"\n"
+    )
+    assert main(["check", str(toml)]) == 1
+    err = capsys.readouterr().err
+    assert "node 1 has no stiffness along z" in err
+
+
+def test_run_json_matches_library(canopy: Path, tmp_path: Path,
+                                  capsys: pytest.CaptureFixture[str]) -> None:
+    out = tmp_path / "res"
+    assert main(["run", str(canopy), "-o", str(out), "--json", "--no-pictures"]) == 0
+    summ = json.loads(capsys.readouterr().out)
+    res = load_project(canopy).solve()
+    for name in ("snow", "ULS_snow"):
+        s = summ["results"][name]
+        node, umax = res[name].max_displacement()
+        assert s["max_displacement"]["node"] == node
+        assert s["max_displacement"]["value"] == pytest.approx(umax, rel=1e-12)
+        np.testing.assert_allclose(s["reaction_total"], res[name].reaction_total, atol=1e-6)
+    assert (out / "summary.json").exists() or any(out.iterdir())
+    assert not [p for p in tmp_path.iterdir() if ".tmp-" in p.name]
+
+
+def test_run_table_output(canopy: Path, tmp_path: Path,
+                          capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["run", str(canopy), "-o", str(tmp_path / "r"), "--no-pictures"]) == 0
+    text = capsys.readouterr().out
+    assert "max |u| [mm]" in text and "ULS_snow" in text and "qualified engineer" in text
+    # Hand calculation: 0.8 kN/m² of snow on 24 m x 15 m = 288 kN up at the columns.
+    assert "0.0 / 0.0 / 288.0" in text
+
+
+@pytest.mark.parametrize(
+    ("text", "needle"),
+    [
+        ("[geometry]\nnodez = []\n", "nodez"),
+        ("[geometry]\nnodes = [[0,0,0],[1,0,0],[0,1,0]]\nmembers = [[0,1],[1,2],[2,0]]\n"
+         "[geometry.panels]\nroof = [[0,1,2]]\n"
+         "[sections]\ns = { shape = 'bar', diameter = 0.02 }\n"
+         "[assign]\ndefault = { section = 's', material = 'steel' }\n"
+         "[loads.snow]\n[[loads.snow.area]]\nkind = 'plan'\npanels = 'all'\n"
+         "value = '0.8 kN'\n", "loads.snow.area[0].value"),
+    ],
+)
+def test_bad_model_file_one_line_exit_2(tmp_path: Path, text: str, needle: str) -> None:
+    toml = tmp_path / "bad.toml"
+    toml.write_text(text)
+    out = tmp_path / "res"
+    proc = subprocess.run([sys.executable, "-m", "spaceframe", "run", str(toml), "-o", str(out)],
+                          capture_output=True, text=True)
+    assert proc.returncode == 2
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and "bad.toml" in lines[0] and needle in lines[0]
+    assert "Traceback" not in proc.stderr
+    assert not out.exists()
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".res")]
+
+
+def test_failed_run_keeps_old_results(canopy: Path, tmp_path: Path) -> None:
+    out = tmp_path / "res"
+    assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 0
+    before = sorted(p.name for p in out.iterdir())
+    canopy.write_text(canopy.read_text().replace('restrain = "pinned"', 'restrain = "z"'))
+    assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 2
+    assert sorted(p.name for p in out.iterdir()) == before
+
+
+def test_new_writes_a_starter_project(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["new", str(tmp_path / "p"), "--demo", "dome"]) == 0
+    assert (tmp_path / "p" / "dome.toml").exists() and (tmp_path / "p" / "dome.vtu").exists()
+    assert main(["new", str(tmp_path / "p"), "--demo", "dome"]) == 2  # no silent overwrite
+    assert main(["new", str(tmp_path / "q"), "--demo", "opera-house"]) == 2
+    assert "unknown demo 'opera-house'" in capsys.readouterr().err
+
+
+def test_view_screenshot_off_screen(canopy: Path, tmp_path: Path) -> None:
+    pytest.importorskip("pyvista")
+    png = tmp_path / "shot.png"
+    assert main(["view", str(canopy), "--case", "snow", "--screenshot", str(png),
+                 "--size", "400x300", "-q"]) == 0
+    from PIL import Image
+
+    img = np.asarray(Image.open(png))
+    assert img.shape[:2] == (300, 400) and img.std() > 0
