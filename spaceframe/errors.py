@@ -40,6 +40,16 @@ class ReadError(SpaceframeError, OSError):
         return str(self.args[0]) if self.args else ""
 
 
+class WriteError(SpaceframeError, OSError):
+    """An output file could not be written: the message names the file."""
+
+    def __init__(self, message: str) -> None:
+        super().__init__(message)  # one argument: see ReadError
+
+    def __str__(self) -> str:
+        return str(self.args[0]) if self.args else ""
+
+
 class MechanismError(SpaceframeError, np.linalg.LinAlgError):
     """The frame cannot carry the load: a mechanism or rigid-body motion.
 

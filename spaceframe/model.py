@@ -466,17 +466,62 @@ class Model:
             The new panel ids.
         """
         polys = [np.asarray(p, dtype=np.int64).ravel() for p in polygons]
-        for i, poly in enumerate(polys):
-            if poly.size < 3:
-                raise ModelError(f"add_panels: panel {self.n_panels + i} has {poly.size} nodes")
-            self._node_ids(poly, f"add_panels: panel {self.n_panels + i}")
-        start = self.n_panels
-        if polys:
-            sizes = np.array([p.size for p in polys], dtype=np.int64)
-            self.panel_nodes = np.concatenate([self.panel_nodes, *polys])
-            self.panel_offsets = np.concatenate(
-                [self.panel_offsets, self.panel_offsets[-1] + np.cumsum(sizes)]
+        sizes = np.array([p.size for p in polys], dtype=np.int64)
+        flat = np.concatenate(polys) if polys else np.zeros(0, dtype=np.int64)
+        return self.add_panels_flat(flat, np.concatenate([[0], np.cumsum(sizes)]), group=group)
+
+    def add_panels_flat(
+        self, panel_nodes: Any, offsets: Any, group: str | None = None
+    ) -> np.ndarray:
+        """Add load panels given flat: panel k has ``panel_nodes[offsets[k]:offsets[k+1]]``.
+
+        The vectorised form of :meth:`add_panels`, for meshes of many faces.
+
+        Parameters
+        ----------
+        panel_nodes : (m,) int
+            Node ids of all panels, one after another.
+        offsets : (k + 1,) int
+            Start of each panel in ``panel_nodes``, then the total length.
+        group : str, optional
+            Panel group to add the new panels to.
+
+        Returns
+        -------
+        ids : (k,) int
+            The new panel ids.
+
+        Raises
+        ------
+        ModelError
+            On a panel of fewer than three nodes, a missing node, or offsets that
+            do not describe ``panel_nodes``.
+        """
+        flat = np.asarray(panel_nodes).ravel()
+        offs = np.asarray(offsets, dtype=np.int64).ravel()
+        if flat.size and not np.issubdtype(flat.dtype, np.integer):
+            raise ModelError(f"add_panels: node ids must be integers, got {flat.dtype}")
+        flat = flat.astype(np.int64)
+        if offs.size == 0 or offs[0] != 0 or offs[-1] != flat.size or np.any(np.diff(offs) < 0):
+            raise ModelError(
+                f"add_panels: offsets must rise from 0 to {flat.size} (the number of node ids)"
             )
+        start = self.n_panels
+        small = np.flatnonzero(np.diff(offs) < 3)
+        if small.size:
+            k = int(small[0])
+            raise ModelError(
+                f"add_panels: panel {start + k} has {int(offs[k + 1] - offs[k])} nodes (needs 3)"
+            )
+        bad = np.flatnonzero((flat < 0) | (flat >= self.n_nodes))
+        if bad.size:
+            k = int(np.searchsorted(offs, bad[0], side="right") - 1)
+            raise ModelError(
+                f"add_panels: panel {start + k} refers to node {int(flat[bad[0]])}, which does "
+                f"not exist (the model has nodes 0..{self.n_nodes - 1})"
+            )
+        self.panel_nodes = np.concatenate([self.panel_nodes, flat])
+        self.panel_offsets = np.concatenate([self.panel_offsets, self.panel_offsets[-1] + offs[1:]])
         ids = np.arange(start, self.n_panels, dtype=np.int64)
         if group is not None:
             self.panel_groups[group] = np.union1d(

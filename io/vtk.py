@@ -1,0 +1,300 @@
+"""Results as VTK XML files: one ``.vtu`` per load case and combination, and a ``.pvd`` series.
+
+Members are VTK line cells; load panels are polygon cells in a separate file
+per result, so that a viewer can hide them.  The ``.pvd`` collection lists the
+results as consecutive time steps (part 0 the members, part 1 the panels),
+so ParaView opens them as one series and steps through the cases.
+
+Arrays (SI units, tension positive):
+
+- point data: ``displacement`` (m), ``reaction`` (N), ``load`` (N),
+  ``restraint`` (0/1 per axis), ``node_id``
+- cell data (members): ``member_id``, ``axial_force`` (N), ``stress`` (Pa),
+  ``strain`` (elastic, N/(EA)), ``group`` (index into ``group_names``, -1 for
+  none), ``length`` (m)
+- cell data (panels): ``panel_id``, ``panel_group`` (index into ``panel_group_names``)
+- field data: ``case_name``, ``result_kind``, ``factors`` (combinations
+  only), ``units``, ``group_names`` (when there are groups) as text,
+  ``case_index`` and ``auto_scale`` (the factor that draws the largest
+  displacement at 5 % of the model size, for a warp filter).
+
+Text in field data is stored as UTF-8 bytes in a ``uint8`` array, lists
+joined by NUL; :func:`decode_text` turns it back into strings.  VTK's own
+string arrays would be nicer in ParaView, but meshio's VTU reader rejects
+them, and the files must open with every common reader.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import sys
+import uuid
+from collections.abc import Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from spaceframe.errors import ModelError
+from spaceframe.summary import auto_scale, member_group_index, panel_group_index
+
+if TYPE_CHECKING:
+    import pyvista
+
+    from spaceframe.results import Results
+
+__all__ = ["UNITS", "decode_text", "encode_text", "member_grid", "panel_grid", "write"]
+
+#: Units of the arrays written, also stored in each file's field data.
+UNITS: dict[str, str] = {
+    "displacement": "m",
+    "reaction": "N",
+    "load": "N",
+    "axial_force": "N",
+    "stress": "Pa",
+    "strain": "1",
+    "length": "m",
+}
+
+_UNSAFE = re.compile(r"[^A-Za-z0-9_.+-]+")
+
+
+def encode_text(items: str | Sequence[str]) -> np.ndarray:
+    """(k,) uint8: UTF-8 bytes of a string, or of a list of strings joined by NUL."""
+    text = items if isinstance(items, str) else "\0".join(items)
+    return np.frombuffer(text.encode("utf-8"), dtype=np.uint8).copy()
+
+
+def decode_text(array: Any) -> list[str]:
+    """The strings stored by :func:`encode_text` (an empty array gives ``[]``)."""
+    raw = bytes(np.asarray(array, dtype=np.uint8).ravel())
+    return raw.decode("utf-8").split("\0") if raw else []
+
+
+def _set_text(grid: pyvista.DataSet, key: str, items: str | Sequence[str]) -> None:
+    data = encode_text(items)
+    # An empty array is left out: meshio's reader fails on zero-length
+    # compressed arrays, and "absent" reads as "none" just as well.
+    if data.size:
+        grid.field_data[key] = data
+
+
+def _safe_name(name: str) -> str:
+    cleaned = _UNSAFE.sub("_", name).strip("._")
+    return cleaned or "result"
+
+
+def member_grid(results: Results, name: str) -> pyvista.UnstructuredGrid:
+    """The members of the model with the result ``name`` attached, as a VTK grid.
+
+    Parameters
+    ----------
+    results : Results
+    name : str
+        A load case or combination of ``results``.
+
+    Returns
+    -------
+    pyvista.UnstructuredGrid
+        One line cell per member (cell k is member k, point i is node i) with
+        the point, cell and field data listed in the module docstring.
+    """
+    import pyvista as pv
+
+    model = results.model
+    res = results[name]
+    b = model.n_members
+    cells = np.empty((b, 3), dtype=np.int64)
+    cells[:, 0] = 2
+    cells[:, 1:] = model.members
+    grid = pv.UnstructuredGrid(
+        cells.ravel(), np.full(b, pv.CellType.LINE, dtype=np.uint8), model.nodes.astype(float)
+    )
+    _add_point_data(grid, results, name)
+    group, group_names = member_group_index(model)
+    grid.cell_data["member_id"] = np.arange(b, dtype=np.int64)
+    grid.cell_data["axial_force"] = res.axial_forces
+    grid.cell_data["stress"] = res.stress
+    grid.cell_data["strain"] = res.axial_forces / (model.E * model.area)
+    grid.cell_data["group"] = group
+    grid.cell_data["length"] = model.lengths
+    _set_text(grid, "group_names", group_names)
+    return grid
+
+
+def panel_grid(results: Results, name: str) -> pyvista.UnstructuredGrid:
+    """The load panels as polygon cells, with the nodal results of ``name``.
+
+    Returns
+    -------
+    pyvista.UnstructuredGrid
+        One polygon cell per panel (cell k is panel k), all model nodes as
+        points, so the panels warp with the same ``displacement`` as the members.
+    """
+    import pyvista as pv
+
+    model = results.model
+    n_pan = model.n_panels
+    sizes = np.diff(model.panel_offsets)
+    # VTK's flat cell array: each polygon's node count, then its node ids.
+    cells = np.empty(model.panel_nodes.size + n_pan, dtype=np.int64)
+    count_at = model.panel_offsets[:-1] + np.arange(n_pan)
+    is_count = np.zeros(cells.size, dtype=bool)
+    is_count[count_at] = True
+    cells[is_count] = sizes
+    cells[~is_count] = model.panel_nodes
+    grid = pv.UnstructuredGrid(
+        cells, np.full(n_pan, pv.CellType.POLYGON, dtype=np.uint8), model.nodes.astype(float)
+    )
+    _add_point_data(grid, results, name)
+    group, group_names = panel_group_index(model)
+    grid.cell_data["panel_id"] = np.arange(n_pan, dtype=np.int64)
+    grid.cell_data["panel_group"] = group
+    _set_text(grid, "panel_group_names", group_names)
+    return grid
+
+
+def _add_point_data(grid: pyvista.UnstructuredGrid, results: Results, name: str) -> None:
+    model = results.model
+    res = results[name]
+    grid.point_data["displacement"] = res.displacements
+    grid.point_data["reaction"] = res.reactions
+    grid.point_data["load"] = res.loads
+    grid.point_data["restraint"] = model.restraint.astype(np.uint8)
+    grid.point_data["node_id"] = np.arange(model.n_nodes, dtype=np.int64)
+    _set_text(grid, "case_name", name)
+    _set_text(grid, "result_kind", res.kind)
+    _set_text(grid, "factors", [f"{k}={v!r}" for k, v in res.factors.items()])
+    _set_text(grid, "units", [f"{k}={v}" for k, v in UNITS.items()])
+    grid.field_data["case_index"] = np.array([list(results).index(name)], dtype=np.int64)
+    grid.field_data["auto_scale"] = np.array([auto_scale(model, res.displacements)])
+
+
+def _temp_beside(final: Path) -> Path:
+    # Same folder as the target so os.replace is a rename, never a copy; the
+    # real suffix last because VTK picks its writer from it.  Only a name: the
+    # writer creates the file, so it gets the usual permissions.
+    return final.with_name(f".{final.stem}.{os.getpid()}-{uuid.uuid4().hex[:12]}{final.suffix}")
+
+
+def _write_pvd(path: Path, entries: list[tuple[int, int, str, str]]) -> None:
+    import xml.etree.ElementTree as ET
+
+    # Neither VTK nor PyVista writes .pvd (it is read by ParaView's own
+    # reader); the format is a short XML list of datasets, written here with
+    # the standard library, which also escapes the case names.
+    root = ET.Element(
+        "VTKFile",
+        type="Collection",
+        version="0.1",
+        byte_order="LittleEndian" if sys.byteorder == "little" else "BigEndian",
+    )
+    collection = ET.SubElement(root, "Collection")
+    for step, part, file, name in entries:
+        ET.SubElement(
+            collection,
+            "DataSet",
+            timestep=str(step),
+            group="",
+            part=str(part),
+            name=name,
+            file=file,
+        )
+    tree = ET.ElementTree(root)
+    ET.indent(tree)
+    tree.write(path, encoding="utf-8", xml_declaration=True)
+
+
+def write(
+    path: str | os.PathLike[str],
+    results: Results,
+    *,
+    prefix: str | None = None,
+    panels: bool = True,
+    binary: bool = True,
+) -> Path:
+    """Write every load case and combination as VTK files plus a ``.pvd`` series.
+
+    Parameters
+    ----------
+    path : path-like
+        Either the ``.pvd`` file to write (the ``.vtu`` files go beside it) or
+        a folder (created if missing; the series is then ``<prefix>.pvd``).
+    results : Results
+        From :meth:`Model.solve`.
+    prefix : str, optional
+        Start of every file name; default the stem of the ``.pvd`` or "results".
+    panels : bool
+        Also write the load panels (when the model has any) as a second file per result.
+    binary : bool
+        Base64-encoded, zlib-compressed arrays (default) or ASCII.
+
+    Returns
+    -------
+    Path
+        The ``.pvd`` file.
+
+    Raises
+    ------
+    ModelError
+        If there are no results or ``prefix`` is not a plain file name.
+
+    Notes
+    -----
+    Each file is written under a temporary name in the target folder and
+    renamed when all are complete, the ``.pvd`` last; a failure removes the
+    temporary files and leaves any earlier series untouched.
+    """
+    target = Path(path)
+    if target.suffix.lower() == ".pvd":
+        folder, pvd = target.parent, target
+        stem = prefix if prefix is not None else target.stem
+    else:
+        stem = prefix if prefix is not None else "results"
+        folder, pvd = target, target / f"{stem}.pvd"
+    if not stem or Path(stem).name != stem or stem in (".", ".."):
+        raise ModelError(f"VTK output {target}: prefix {stem!r} must be a plain file name")
+    names = list(results)
+    if not names:
+        raise ModelError(f"VTK output {pvd}: there are no load cases or combinations to write")
+    folder.mkdir(parents=True, exist_ok=True)
+
+    used: set[str] = {pvd.name.lower()}
+
+    def unique(base: str) -> str:
+        candidate, k = f"{base}.vtu", 2
+        while candidate.lower() in used:
+            candidate, k = f"{base}_{k}.vtu", k + 1
+        used.add(candidate.lower())
+        return candidate
+
+    with_panels = panels and results.model.n_panels > 0
+    entries: list[tuple[int, int, str, str]] = []
+    done: list[tuple[Path, Path]] = []
+    try:
+        for step, name in enumerate(names):
+            base = f"{stem}_{_safe_name(name)}"
+            jobs = [(0, unique(base), member_grid)]
+            if with_panels:
+                jobs.append((1, unique(f"{base}_panels"), panel_grid))
+            for part, file, build in jobs:
+                final = folder / file
+                tmp = _temp_beside(final)
+                done.append((tmp, final))
+                build(results, name).save(tmp, binary=binary)
+                entries.append((step, part, file, name))
+        tmp_pvd = _temp_beside(pvd)
+        done.append((tmp_pvd, pvd))
+        _write_pvd(tmp_pvd, entries)
+    except BaseException:
+        for tmp, _ in done:
+            tmp.unlink(missing_ok=True)
+        raise
+    try:
+        for tmp, final in done:
+            os.replace(tmp, final)
+    finally:
+        for tmp, _ in done:
+            tmp.unlink(missing_ok=True)
+    return pvd
