@@ -243,7 +243,9 @@ def _write_outputs(
 
     from spaceframe.io import tables
 
-    files = [Path(p) for p in tables.write(folder, results)]
+    extra = {"source": str(loaded.path.resolve()), "title": loaded.title,
+             "warnings": loaded.warnings}
+    files = [Path(p) for p in tables.write(folder, results, extra=extra)]
     if importlib.util.find_spec("ezdxf") is not None:
         from spaceframe.io import dxf_results
 

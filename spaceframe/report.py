@@ -1,0 +1,481 @@
+"""Pictures, charts and a self-contained HTML report of a run.
+
+The report is one HTML file with inline styles and no scripts or network
+resources.  Pictures and charts are referenced by relative path (so write
+them into the report's folder or below it, e.g. with :func:`write_pictures`
+and :func:`write_charts`), or embedded as base64 data URIs with
+``embed_images=True`` when a single file is to be sent on.
+
+Display units in the report: mm for displacements, kN for forces, MPa for
+stresses, m for lengths, kg for masses; numbers with four significant
+figures (:func:`spaceframe.summary.format_number`).
+"""
+
+from __future__ import annotations
+
+import base64
+import datetime as _dt
+import html
+import os
+import re
+import uuid
+from collections.abc import Iterable, Mapping, Sequence
+from pathlib import Path
+from string import Template
+from typing import TYPE_CHECKING, Any
+from urllib.parse import quote
+
+import numpy as np
+
+from spaceframe.errors import ModelError, ReadError
+from spaceframe.summary import format_number, summary
+from spaceframe.tolerances import RESIDUAL_TOLERANCE
+
+if TYPE_CHECKING:
+    from spaceframe.results import Results
+
+__all__ = [
+    "CAUTION",
+    "format_number",
+    "summary",
+    "write_charts",
+    "write_pictures",
+    "write_report",
+]
+
+#: Printed at the top and the foot of every report.
+CAUTION = (
+    "Results must be checked by a qualified engineer; local codes and licensed "
+    "practice govern."
+)
+
+_SAFE = re.compile(r"[^A-Za-z0-9_.+-]+")
+
+
+def _safe(name: str) -> str:
+    return _SAFE.sub("_", name).strip("._") or "result"
+
+
+def _temp_name(path: Path) -> Path:
+    return path.with_name(f".{path.stem}.{os.getpid()}-{uuid.uuid4().hex[:12]}{path.suffix}")
+
+
+def _write_bytes(path: Path, data: bytes) -> Path:
+    tmp = _temp_name(path)
+    try:
+        tmp.write_bytes(data)
+        os.replace(tmp, path)
+    finally:
+        tmp.unlink(missing_ok=True)
+    return path
+
+
+def _save_figure(fig: Any, path: Path) -> Path:
+    tmp = _temp_name(path)
+    try:
+        fig.savefig(tmp, format="png")
+        os.replace(tmp, path)
+    finally:
+        tmp.unlink(missing_ok=True)
+    return path
+
+
+# ----------------------------------------------------------------- pictures
+def write_pictures(
+    folder: str | os.PathLike[str],
+    results: Results,
+    views: Sequence[str] = ("iso", "top", "front"),
+    *,
+    cases: Sequence[str] | None = None,
+    size: Sequence[int] = (1200, 800),
+    color_by: str = "axial_force",
+) -> list[Path]:
+    """One PNG per result and view, rendered off-screen: ``<result>_<view>.png``.
+
+    Parameters
+    ----------
+    folder : path-like
+        Created if missing.
+    results : Results
+    views : sequence of {"iso", "top", "front", "side"}
+    cases : sequence of str, optional
+        Results to draw (default all).
+    size : (2,) int
+        Picture width and height, pixels.
+    color_by : {"axial_force", "stress", "displacement", "group"}
+
+    Returns
+    -------
+    list of Path
+        By result, then by view.
+    """
+    from spaceframe import viewer
+
+    return viewer.screenshots(folder, results, cases=cases, views=views, size=size,
+                              color_by=color_by)
+
+
+# ------------------------------------------------------------------- charts
+def write_charts(
+    folder: str | os.PathLike[str],
+    results: Results,
+    *,
+    cases: Sequence[str] | None = None,
+    top: int = 15,
+) -> list[Path]:
+    """Two charts per result (matplotlib, PNG, no display needed).
+
+    - ``<result>_members.png``: bar chart of the ``top`` members with the
+      largest absolute axial force, red for tension, blue for compression.
+    - ``<result>_groups.png``: histogram of axial forces, stacked by group.
+
+    Returns
+    -------
+    list of Path
+        By result: the bar chart, then the histogram.
+    """
+    from matplotlib.figure import Figure
+    from matplotlib.ticker import MaxNLocator
+
+    out = Path(folder)
+    out.mkdir(parents=True, exist_ok=True)
+    model = results.model
+    names = list(results) if cases is None else list(cases)
+    unknown = [n for n in names if n not in results]
+    if unknown:
+        raise KeyError(f"no result named {unknown[0]!r} (have: {', '.join(results)})")
+    groups: list[tuple[str, np.ndarray]] = list(model.groups.items())
+    in_group = np.zeros(model.n_members, dtype=bool)
+    for _, ids in groups:
+        in_group[ids] = True
+    if not in_group.all():
+        label = "(no group)" if groups else "all members"
+        groups.append((label, np.flatnonzero(~in_group)))
+    paths: list[Path] = []
+    for name in names:
+        res = results[name]
+        kn = res.axial_forces / 1e3
+        k = min(int(top), kn.size)
+        order = np.argsort(-np.abs(kn), kind="stable")[:k]
+
+        # Figure() without pyplot: no global backend or window state (Agg canvas).
+        fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
+        ax = fig.add_subplot()
+        colors = np.where(kn[order] >= 0, "#c8281e", "#2a4fbf")
+        ax.bar(np.arange(k), kn[order], color=colors)
+        ax.set_xticks(np.arange(k), [str(int(i)) for i in order], rotation=90, fontsize=8)
+        ax.axhline(0.0, color="black", linewidth=0.8)
+        ax.set_xlabel("member")
+        ax.set_ylabel("axial force [kN] (tension +)")
+        ax.set_title(f"{name}: {k} most loaded members")
+        paths.append(_save_figure(fig, out / f"{_safe(name)}_members.png"))
+
+        fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
+        ax = fig.add_subplot()
+        lo, hi = float(kn.min(initial=0.0)), float(kn.max(initial=0.0))
+        if hi - lo <= 0:
+            lo, hi = lo - 1.0, hi + 1.0
+        bins = np.linspace(lo, hi, 31).tolist()
+        ax.hist([kn[ids] for _, ids in groups], bins=bins, stacked=True,
+                label=[g for g, _ in groups])
+        ax.axvline(0.0, color="black", linewidth=0.8)
+        ax.set_xlabel("axial force [kN] (tension +)")
+        ax.set_ylabel("members")
+        ax.yaxis.set_major_locator(MaxNLocator(integer=True))
+        ax.set_title(f"{name}: axial forces by group")
+        ax.legend(fontsize=8)
+        paths.append(_save_figure(fig, out / f"{_safe(name)}_groups.png"))
+    return paths
+
+
+# ------------------------------------------------------------------- report
+_PAGE = Template("""<!DOCTYPE html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<title>$title</title>
+<style>
+body { font-family: sans-serif; margin: 2em auto; max-width: 72em; color: #222; }
+h1 { font-size: 1.6em; } h2 { font-size: 1.25em; border-bottom: 1px solid #aaa; margin-top: 2em; }
+table { border-collapse: collapse; margin: 0.6em 0; }
+th, td { border: 1px solid #bbb; padding: 0.2em 0.6em; text-align: right; }
+th { background: #eee; } td.text, th.text { text-align: left; }
+.caution { border: 2px solid #b33; background: #fdf0f0; padding: 0.6em 1em; font-weight: bold; }
+figure { display: inline-block; margin: 0.5em; }
+figure img { max-width: 34em; border: 1px solid #ccc; }
+pre { background: #f6f6f6; padding: 0.6em; overflow-x: auto; }
+</style>
+</head>
+<body>
+<h1>$title</h1>
+<p class="caution">$caution</p>
+$body
+<p class="caution">$caution</p>
+</body>
+</html>
+""")
+
+
+def _e(value: Any) -> str:
+    return html.escape(str(value), quote=True)
+
+
+def _table(header: Sequence[str], rows: Iterable[Sequence[Any]], text_cols: int = 1) -> str:
+    def cell(tag: str, k: int, v: Any) -> str:
+        cls = ' class="text"' if k < text_cols else ""
+        return f"<{tag}{cls}>{_e(v)}</{tag}>"
+
+    head = "".join(cell("th", k, h) for k, h in enumerate(header))
+    body = "\n".join(
+        "<tr>" + "".join(cell("td", k, v) for k, v in enumerate(row)) + "</tr>" for row in rows
+    )
+    return f"<table>\n<tr>{head}</tr>\n{body}\n</table>"
+
+
+def _kn(v: float) -> str:
+    return format_number(v / 1e3)
+
+
+def _vec_kn(v: Sequence[float]) -> str:
+    return ", ".join(_kn(x) for x in v)
+
+
+def _member_cells(entry: Mapping[str, Any] | None) -> list[str]:
+    if entry is None:
+        return ["-", "-", "-"]
+    return [_kn(entry["force"]), str(entry["member"]), ", ".join(entry["groups"]) or "-"]
+
+
+def _image_src(path: Path, folder: Path, embed: bool, what: str) -> str:
+    if not path.is_file():
+        raise ReadError(f"report: {what} {path} does not exist")
+    if embed:
+        data = base64.b64encode(path.read_bytes()).decode("ascii")
+        return f"data:image/png;base64,{data}"
+    rel = Path(os.path.relpath(path.resolve(), folder.resolve())).as_posix()
+    return quote(rel)
+
+
+def _scalar(v: Any) -> bool:
+    return isinstance(v, (int, float, str, bool)) or v is None
+
+
+def _heal_section(heal: Any) -> str:
+    if heal is None:
+        return "<p>No healing report: the geometry was used as given.</p>"
+    parts = [f"<pre>{_e(heal)}</pre>"]
+    as_dict = getattr(heal, "as_dict", None)
+    if not callable(as_dict):
+        return parts[0]
+    data = dict(as_dict())
+    flat = [(k, "-" if v is None else v) for k, v in data.items() if _scalar(v)]
+    if flat:
+        parts.append(_table(["item", "value"], flat))
+    # Lists of records (e.g. the healing steps) as one table each, scalar fields only.
+    for key, value in data.items():
+        if not (isinstance(value, list) and value and all(isinstance(r, dict) for r in value)):
+            continue
+        columns = [c for c in value[0] if all(_scalar(r.get(c)) for r in value)]
+        parts.append(f"<h3>{_e(key)}</h3>")
+        parts.append(_table(columns, [[r.get(c, "") for c in columns] for r in value]))
+    return "\n".join(parts)
+
+
+def write_report(
+    path: str | os.PathLike[str],
+    results: Results,
+    *,
+    title: str = "Space frame analysis",
+    heal_report: Any = None,
+    warnings: Iterable[Any] = (),
+    pictures: Sequence[str | os.PathLike[str]] = (),
+    charts: Sequence[str | os.PathLike[str]] = (),
+    job: Mapping[str, Any] | None = None,
+    embed_images: bool = False,
+    n_critical: int = 10,
+) -> Path:
+    """Write a self-contained HTML report of the run.
+
+    Parameters
+    ----------
+    path : path-like
+        The ``.html`` file.
+    results : Results
+    title : str
+    heal_report : object, optional
+        What geometry healing did (its ``str()`` is shown, and its
+        ``as_dict()`` scalars as a table); default ``model.meta["heal:report"]``.
+    warnings : iterable
+        Warning texts or ``warnings.WarningMessage`` objects to list.
+    pictures, charts : sequence of path-like
+        PNG files to show, referenced by path relative to the report.
+    job : mapping, optional
+        Extra lines for the job table (e.g. project, engineer, revision).
+    embed_images : bool
+        Embed the images as data URIs instead of referencing them.
+    n_critical : int
+        How many governing members to list.
+
+    Returns
+    -------
+    Path
+        The report written.
+
+    Raises
+    ------
+    ReadError
+        If a picture or chart file does not exist.
+    ModelError
+        If there are no results.
+
+    Notes
+    -----
+    Sections: the job; the model in numbers (nodes, members, groups with
+    counts, supports, loads per case with totals, combinations); healing
+    actions; a summary table per load case and combination (max |u| with
+    node and position, max tension and max compression with member and
+    group, max stress); the equilibrium check (applied and reaction totals,
+    imbalance, residual); the critical members; warnings; pictures and
+    charts; and the engineering caution, at the top and the foot.
+    """
+    final = Path(path)
+    if len(results) == 0:
+        raise ModelError(f"report {final}: there are no load cases or combinations to report")
+    folder = final.parent
+    model = results.model
+    s = summary(results, n_critical=n_critical)
+    m = s["model"]
+    heal = heal_report if heal_report is not None else model.meta.get("heal:report")
+    sections: list[str] = []
+
+    from spaceframe import __version__
+
+    job_rows: list[tuple[str, Any]] = [
+        ("generated", _dt.datetime.now().astimezone().strftime("%Y-%m-%d %H:%M %Z")),
+        ("program", f"spaceframe {__version__}"),
+        ("linear solver", results.solver or "-"),
+    ]
+    source = model.meta.get("source")
+    if source:
+        job_rows.append(("model source", source))
+    job_rows += [(str(k), v) for k, v in (job or {}).items()]
+    sections.append("<h2>Job</h2>\n" + _table(["item", "value"], job_rows, text_cols=2))
+
+    rd = m["restrained_directions"]
+    numbers = [
+        ("nodes", m["nodes"]),
+        ("members", m["members"]),
+        ("supported nodes", m["supported_nodes"]),
+        ("restrained directions x / y / z", f"{rd['x']} / {rd['y']} / {rd['z']}"),
+        ("nodes on springs", m["sprung_nodes"]),
+        ("load panels", m["panels"]),
+        ("size (bounding-box diagonal) [m]", format_number(m["size"])),
+        ("total member length [m]", format_number(m["total_length"])),
+        ("total member mass [kg]", format_number(m["total_mass"])),
+    ]
+    parts = ["<h2>Model</h2>", _table(["quantity", "value"], numbers)]
+    if m["groups"]:
+        parts.append("<h3>Member groups</h3>")
+        parts.append(_table(
+            ["group", "members", "length [m]", "mass [kg]"],
+            [(g, v["members"], format_number(v["length"]), format_number(v["mass"]))
+             for g, v in m["groups"].items()],
+        ))
+    if m["node_sets"]:
+        parts.append("<h3>Node sets</h3>")
+        parts.append(_table(["node set", "nodes"], m["node_sets"].items()))
+    sections.append("\n".join(parts))
+
+    res_s = s["results"]
+    loads = [
+        (name, r["kind"], r["loaded_nodes"], *(_kn(v) for v in r["applied_total"]))
+        for name, r in res_s.items()
+    ]
+    parts = ["<h2>Loads</h2>",
+             _table(["load case / combination", "kind", "loaded nodes",
+                     "total Fx [kN]", "total Fy [kN]", "total Fz [kN]"], loads, text_cols=2)]
+    if m["combinations"]:
+        parts.append("<h3>Combinations</h3>")
+        parts.append(_table(
+            ["combination", "factors"],
+            [(c, " + ".join(f"{format_number(f)} x {k}" for k, f in fac.items()))
+             for c, fac in m["combinations"].items()],
+            text_cols=2,
+        ))
+    sections.append("\n".join(parts))
+
+    sections.append("<h2>Model healing</h2>\n" + _heal_section(heal))
+
+    rows = []
+    for name, r in res_s.items():
+        d = r["max_displacement"]
+        rows.append([
+            name,
+            r["kind"],
+            format_number(d["value"] * 1e3),
+            d["node"],
+            ", ".join(format_number(v) for v in d["position"]),
+            *_member_cells(r["max_tension"]),
+            *_member_cells(r["max_compression"]),
+            format_number(r["max_abs_stress"]["value"] / 1e6),
+        ])
+    sections.append("<h2>Results summary</h2>\n" + _table(
+        ["result", "kind", "max |u| [mm]", "node", "at (x, y, z) [m]",
+         "max tension [kN]", "member", "group", "max compression [kN]", "member", "group",
+         "max |stress| [MPa]"],
+        rows, text_cols=2,
+    ))
+
+    rows = []
+    for name, r in res_s.items():
+        ok = r["equilibrium_ok"]
+        rows.append([
+            name,
+            _vec_kn(r["applied_total"]),
+            _vec_kn(r["reaction_total"]),
+            ", ".join(format_number(v, 3) for v in r["imbalance"]),
+            f"{r['residual']:.2e}",
+            "OK" if ok else "FAILED",
+        ])
+    sections.append(
+        "<h2>Equilibrium check</h2>\n"
+        f"<p>Reactions must balance the applied loads along each axis, and the relative "
+        f"equilibrium residual must stay below {RESIDUAL_TOLERANCE:.0e}.</p>\n"
+        + _table(["result", "applied total x, y, z [kN]", "reaction total x, y, z [kN]",
+                  "imbalance x, y, z [N]", "residual", "check"], rows)
+    )
+
+    crit = [
+        (c["member"], f"{c['nodes'][0]}-{c['nodes'][1]}", ", ".join(c["groups"]) or "-",
+         format_number(c["length"]), c["result"], _kn(c["force"]),
+         format_number(c["stress"] / 1e6))
+        for c in s["critical_members"]
+    ]
+    sections.append(
+        "<h2>Critical members</h2>\n<p>Members with the largest absolute axial force over "
+        "all load cases and combinations.</p>\n"
+        + _table(["member", "nodes", "group", "length [m]", "governing result",
+                  "N [kN]", "stress [MPa]"], crit, text_cols=0)
+    )
+
+    texts = [str(getattr(w, "message", w)) for w in warnings]
+    sections.append(
+        "<h2>Warnings</h2>\n"
+        + ("<ul>\n" + "\n".join(f"<li>{_e(t)}</li>" for t in texts) + "\n</ul>"
+           if texts else "<p>None.</p>")
+    )
+
+    for heading, files, what in (("Pictures", pictures, "picture"), ("Charts", charts, "chart")):
+        if not files:
+            continue
+        figs = []
+        for f in files:
+            p = Path(f)
+            src = _image_src(p, folder, embed_images, what)
+            figs.append(f'<figure><img src="{_e(src)}" alt="{_e(p.stem)}">'
+                        f"<figcaption>{_e(p.stem)}</figcaption></figure>")
+        sections.append(f"<h2>{heading}</h2>\n" + "\n".join(figs))
+
+    page = _PAGE.substitute(title=_e(title), caution=_e(CAUTION), body="\n".join(sections))
+    folder.mkdir(parents=True, exist_ok=True)
+    return _write_bytes(final, page.encode("utf-8"))

@@ -1,0 +1,315 @@
+"""Figures drawn from a set of results, shared by the writers, the viewer and the report.
+
+Everything here is a pure function of a :class:`~spaceframe.results.Results`
+(or of a Model and arrays) and returns plain numbers, lists and dicts, so the
+same figures appear in the JSON summary, the HTML report, the CSV tables and
+on the command line.  Values are SI (m, N, Pa, kg); conversion to display
+units happens in the modules that print them.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from spaceframe.tolerances import BALANCE_TOLERANCE, RESIDUAL_TOLERANCE
+
+if TYPE_CHECKING:
+    from spaceframe.model import Model
+    from spaceframe.results import CaseResult, Results
+
+__all__ = [
+    "DEFORMED_FRACTION",
+    "SCHEMA",
+    "UNITS",
+    "auto_scale",
+    "case_summary",
+    "critical_members",
+    "format_number",
+    "member_group_index",
+    "member_group_labels",
+    "panel_group_index",
+    "summary",
+    "supported_nodes",
+]
+
+#: Version tag of the dictionary returned by :func:`summary`; bump it when a
+#: key is renamed or removed so that scripts reading the JSON can tell.
+SCHEMA = "spaceframe-summary/1"
+
+#: Units of every value in :func:`summary` (SI throughout).
+UNITS = {
+    "length": "m",
+    "displacement": "m",
+    "force": "N",
+    "stress": "Pa",
+    "mass": "kg",
+}
+
+#: Fraction of the model size at which the largest displacement is drawn by
+#: default.  Common practice: a few per cent makes the shape readable without
+#: members visibly crossing each other.
+DEFORMED_FRACTION = 0.05
+
+
+def auto_scale(
+    model: Model, displacements: np.ndarray, fraction: float = DEFORMED_FRACTION
+) -> float:
+    """Scale factor that draws the largest displacement at ``fraction`` of the model size.
+
+    Parameters
+    ----------
+    model : Model
+        Supplies the size (diagonal of the bounding box of the nodes).
+    displacements : (n, 3) float
+        Nodal displacements, m.
+    fraction : float
+        Target length of the largest drawn displacement, as a fraction of the size.
+
+    Returns
+    -------
+    scale : float
+        Multiplier for the displacements; 1.0 when nothing moves.
+    """
+    u = np.asarray(displacements, dtype=float).reshape(-1, 3)
+    biggest = float(np.sqrt(np.einsum("ij,ij->i", u, u)).max(initial=0.0))
+    if biggest <= 0.0 or not np.isfinite(biggest):
+        return 1.0
+    return fraction * model.size / biggest
+
+
+def format_number(value: float, sig: int = 4) -> str:
+    """Fixed-point text with about ``sig`` significant figures and no exponent.
+
+    Examples
+    --------
+    >>> format_number(12.3456), format_number(-0.0123456), format_number(123456.7)
+    ('12.35', '-0.01235', '123457')
+    """
+    v = float(value)
+    if not np.isfinite(v):
+        return str(v)
+    if v == 0.0:
+        return "0"
+    magnitude = int(np.floor(np.log10(abs(v))))
+    decimals = min(max(0, sig - 1 - magnitude), 9)
+    text = f"{v:.{decimals}f}"
+    # A value that rounds to zero prints as plain 0, never "-0.000000".
+    return "0" if float(text) == 0.0 else text
+
+
+def member_group_index(model: Model) -> tuple[np.ndarray, list[str]]:
+    """One integer group id per member, for colouring and cell data.
+
+    A member in several groups takes the first of them in the order of
+    ``model.groups``; a member in none gets -1.
+
+    Returns
+    -------
+    index : (b,) int32
+        Position in ``names`` of each member's group, or -1.
+    names : list of str
+        Group names in the order of ``model.groups``.
+    """
+    names = list(model.groups)
+    index = np.full(model.n_members, -1, dtype=np.int32)
+    # Assign in reverse so that the first listed group wins for shared members.
+    for k in range(len(names) - 1, -1, -1):
+        index[model.groups[names[k]]] = k
+    return index, names
+
+
+def panel_group_index(model: Model) -> tuple[np.ndarray, list[str]]:
+    """As :func:`member_group_index`, for load panels and ``model.panel_groups``."""
+    names = list(model.panel_groups)
+    index = np.full(model.n_panels, -1, dtype=np.int32)
+    for k in range(len(names) - 1, -1, -1):
+        index[model.panel_groups[names[k]]] = k
+    return index, names
+
+
+def member_group_labels(model: Model, sep: str = ";") -> np.ndarray:
+    """(b,) object: names of every group of each member, joined by ``sep`` ("" for none)."""
+    labels = np.full(model.n_members, "", dtype=object)
+    for name, ids in model.groups.items():
+        if ids.size == 0:
+            continue
+        current = labels[ids]
+        joined = np.where(current == "", name, current + sep + name)
+        labels[ids] = joined
+    return labels
+
+
+def supported_nodes(model: Model) -> np.ndarray:
+    """(k,) int: ids of nodes with a restrained direction or a spring."""
+    return np.flatnonzero(model.restraint.any(axis=1) | (model.springs > 0).any(axis=1))
+
+
+def _vec(a: np.ndarray) -> list[float]:
+    return [float(v) for v in np.asarray(a, dtype=float).ravel()]
+
+
+def _member_entry(model: Model, result: CaseResult, member: int) -> dict[str, Any]:
+    return {
+        "member": int(member),
+        "nodes": [int(v) for v in model.members[member]],
+        "groups": model.groups_of(int(member)),
+        "force": float(result.axial_forces[member]),
+        "stress": float(result.axial_forces[member] / model.area[member]),
+        "length": float(model.lengths[member]),
+    }
+
+
+def critical_members(model: Model, result: CaseResult, n: int = 5) -> list[dict[str, Any]]:
+    """The ``n`` members with the largest absolute axial force in one result.
+
+    Returns
+    -------
+    list of dict
+        Keys ``member``, ``nodes``, ``groups``, ``force`` (N, tension positive),
+        ``stress`` (Pa) and ``length`` (m), largest first.
+    """
+    a = np.abs(result.axial_forces)
+    k = min(int(n), a.size)
+    if k <= 0:
+        return []
+    top = np.argpartition(-a, k - 1)[:k]
+    # Stable order: by decreasing |N|, ties by member id.
+    top = top[np.lexsort((top, -a[top]))]
+    return [_member_entry(model, result, int(i)) for i in top]
+
+
+def case_summary(model: Model, result: CaseResult, n_critical: int = 5) -> dict[str, Any]:
+    """The figures of one load case or combination (see :func:`summary`)."""
+    u = result.displacements
+    mag = np.sqrt(np.einsum("ij,ij->i", u, u))
+    node = int(np.argmax(mag)) if mag.size else 0
+    t = result.axial_forces
+    i_t = int(np.argmax(t))
+    i_c = int(np.argmin(t))
+    stress = t / model.area
+    i_s = int(np.argmax(np.abs(stress)))
+    applied = result.loads.sum(axis=0)
+    reacted = result.reactions.sum(axis=0)
+    imbalance = applied + reacted
+    ref = max(float(np.abs(result.loads).sum(axis=0).max(initial=0.0)),
+              float(np.abs(result.reactions).sum(axis=0).max(initial=0.0)))
+    balance_ok = bool(ref == 0.0 or np.abs(imbalance).max() <= BALANCE_TOLERANCE * ref)
+    residual_ok = bool(result.residual <= RESIDUAL_TOLERANCE)
+    return {
+        "kind": result.kind,
+        "factors": {k: float(v) for k, v in result.factors.items()},
+        "loaded_nodes": int(np.count_nonzero(np.any(result.loads != 0.0, axis=1))),
+        "max_displacement": {
+            "value": float(mag[node]) if mag.size else 0.0,
+            "node": node,
+            "position": _vec(model.nodes[node]) if mag.size else [0.0, 0.0, 0.0],
+            "vector": _vec(u[node]) if mag.size else [0.0, 0.0, 0.0],
+        },
+        # None when no member is in tension (or in compression): a stable key
+        # with a null value rather than a misleading zero-force member.
+        "max_tension": _member_entry(model, result, i_t) if t[i_t] > 0 else None,
+        "max_compression": _member_entry(model, result, i_c) if t[i_c] < 0 else None,
+        "max_abs_stress": {"value": float(abs(stress[i_s])), "member": i_s},
+        "applied_total": _vec(applied),
+        "reaction_total": _vec(reacted),
+        "imbalance": _vec(imbalance),
+        "residual": float(result.residual),
+        "equilibrium_ok": balance_ok and residual_ok,
+        "critical_members": critical_members(model, result, n_critical),
+    }
+
+
+def _governing(results: Results, n: int) -> list[dict[str, Any]]:
+    model = results.model
+    best = np.full(model.n_members, -1.0)
+    which = np.full(model.n_members, -1, dtype=np.int64)
+    names = list(results)
+    # Running maximum over results, so memory stays at two arrays of b.
+    for j, name in enumerate(names):
+        a = np.abs(results[name].axial_forces)
+        better = a > best
+        best[better] = a[better]
+        which[better] = j
+    k = min(int(n), best.size)
+    if k <= 0 or not names:
+        return []
+    top = np.argpartition(-best, k - 1)[:k]
+    top = top[np.lexsort((top, -best[top]))]
+    out = []
+    for i in top:
+        name = names[int(which[i])]
+        entry = _member_entry(model, results[name], int(i))
+        entry["result"] = name
+        out.append(entry)
+    return out
+
+
+def summary(results: Results, n_critical: int = 5) -> dict[str, Any]:
+    """JSON-able summary of a run: the model in numbers and the figures of every result.
+
+    Parameters
+    ----------
+    results : Results
+    n_critical : int
+        How many of the most loaded members to list, per result and overall.
+
+    Returns
+    -------
+    dict
+        ``schema`` (:data:`SCHEMA`), ``units`` (:data:`UNITS`), ``solver``,
+        ``model`` (nodes, members, supported nodes, restrained directions per
+        axis, sprung nodes, panels, size, extents, total length and mass,
+        groups with member count, length and mass, node sets with counts,
+        case names, combinations with factors), ``results`` (name -> the
+        dict of :func:`case_summary`: kind, factors, loaded nodes,
+        max displacement with node, position and vector, max tension and max
+        compression with member, nodes, groups, force, stress and length (or
+        None), max absolute stress, applied and reaction totals, imbalance,
+        residual, equilibrium_ok, critical members) and ``critical_members``
+        (the members with the largest force over all results, each with the
+        governing ``result``).  All values SI, tension positive.
+    """
+    model = results.model
+    lo, hi = model.extents()
+    lengths = model.lengths
+    mass = model.mass
+    groups = {
+        name: {
+            "members": int(ids.size),
+            "length": float(lengths[ids].sum()),
+            "mass": float(mass[ids].sum()),
+        }
+        for name, ids in model.groups.items()
+    }
+    model_part = {
+        "nodes": model.n_nodes,
+        "members": model.n_members,
+        "supported_nodes": int(supported_nodes(model).size),
+        "restrained_directions": {
+            axis: int(model.restraint[:, j].sum()) for j, axis in enumerate("xyz")
+        },
+        "sprung_nodes": int(np.count_nonzero((model.springs > 0).any(axis=1))),
+        "panels": model.n_panels,
+        "size": float(model.size),
+        "extents": {"min": _vec(lo), "max": _vec(hi)},
+        "total_length": float(lengths.sum()),
+        "total_mass": float(mass.sum()),
+        "groups": groups,
+        "node_sets": {name: int(ids.size) for name, ids in model.node_sets.items()},
+        "cases": list(model.cases),
+        "combinations": {
+            name: {k: float(v) for k, v in f.items()} for name, f in model.combinations.items()
+        },
+    }
+    return {
+        "schema": SCHEMA,
+        "units": dict(UNITS),
+        "solver": results.solver,
+        "model": model_part,
+        "results": {
+            name: case_summary(model, results[name], n_critical) for name in results
+        },
+        "critical_members": _governing(results, n_critical),
+    }

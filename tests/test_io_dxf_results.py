@@ -1,0 +1,167 @@
+"""Coloured result drawings, read back with ezdxf (and its recover loader)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import ezdxf
+import numpy as np
+import pytest
+from ezdxf import recover
+
+import spaceframe as sf
+from spaceframe.io import dxf_results as dr
+
+H_APEX, A_FOOT = 3.0, 2.0
+E, AREA = 210e9, 4e-4
+W, H = 30e3, 6e3
+L_LEG = float(np.hypot(H_APEX, A_FOOT))
+
+
+def _tripod() -> sf.Model:
+    """A camera tripod for a fictional stadium mast: feet at 90°, 210°, 330°."""
+    m = sf.Model()
+    ang = np.deg2rad([90.0, 210.0, 330.0])
+    feet = m.add_nodes(np.c_[A_FOOT * np.cos(ang), A_FOOT * np.sin(ang), np.zeros(3)])
+    apex = m.add_nodes([[0.0, 0.0, H_APEX]])
+    m.add_members(np.c_[np.repeat(apex, 3), feet], area=AREA, E=E, group="legs")
+    m.add_support(feet)
+    m.add_load("snow", apex, (0.0, 0.0, -W))
+    m.add_load("wind:+x", apex, (H, 0.0, 0.0))
+    m.add_combination("snow+wind", {"snow": 1.0, "wind:+x": 1.5})
+    return m
+
+
+def _wind_forces() -> np.ndarray:
+    # Closed form, joint equilibrium at the apex under H along +x: the leg at
+    # 90° carries nothing, the leg at 210° +H L / (sqrt(3) a), the one at 330°
+    # the same in compression.
+    n = H * L_LEG / (np.sqrt(3.0) * A_FOOT)
+    return np.array([0.0, n, -n])
+
+
+@pytest.fixture
+def results() -> sf.Results:
+    return _tripod().solve()
+
+
+@pytest.fixture
+def drawing(tmp_path: Path, results: sf.Results) -> ezdxf.document.Drawing:
+    path = dr.write_results(tmp_path / "tripod.dxf", results, labels=True)
+    assert path == tmp_path / "tripod.dxf"
+    return ezdxf.readfile(path)
+
+
+def _lines(doc: ezdxf.document.Drawing, layer: str) -> list:
+    return list(doc.modelspace().query(f'LINE[layer=="{layer}"]'))
+
+
+def test_layers_per_result_and_first_on(drawing: ezdxf.document.Drawing) -> None:
+    names = {layer.dxf.name for layer in drawing.layers}
+    # ":" is not allowed in DXF layer names (DXF reference, LAYER table, common practice).
+    for tag in ("snow", "wind_+x", "snow+wind"):
+        for kind in ("N", "KEY", "L", "D"):
+            assert f"{kind}_{tag}" in names
+    assert {"FRAME", "SUPPORTS"} <= names
+    assert drawing.layers.get("N_snow").is_on()
+    assert not drawing.layers.get("N_wind_+x").is_on()
+    assert not drawing.layers.get("D_snow+wind").is_on()
+    assert drawing.header["$INSUNITS"] == 6
+
+
+def test_audit_passes_on_read_back(tmp_path: Path, results: sf.Results) -> None:
+    path = dr.write_results(tmp_path / "t.dxf", results, labels=True)
+    doc, auditor = recover.readfile(path)
+    assert not auditor.has_errors
+    assert not doc.audit().has_errors
+
+
+def test_member_colours_follow_force_sign(drawing: ezdxf.document.Drawing) -> None:
+    lines = _lines(drawing, "N_wind_+x")
+    assert len(lines) == 3
+    colours = [tuple(e.rgb) for e in lines]
+    # Leg 1 (210°) is in tension and carries the largest |N|: darkest tension band.
+    assert colours[1] == dr.TENSION_COLORS[-1]
+    # Leg 2 (330°) in compression with the same |N|: darkest compression band.
+    assert colours[2] == dr.COMPRESSION_COLORS[-1]
+    # Leg 0 carries nothing (closed form): the zero colour.
+    assert colours[0] == dr.ZERO_COLOR
+    snow = [tuple(e.rgb) for e in _lines(drawing, "N_snow")]
+    assert snow == [dr.COMPRESSION_COLORS[-1]] * 3  # all legs equally compressed
+    for e in lines:
+        assert 1 <= e.dxf.color <= 255 and e.dxf.color != 7  # an ACI fallback is set
+
+
+def test_band_colours_are_distinct_and_ordered() -> None:
+    allc = [*dr.TENSION_COLORS, *dr.COMPRESSION_COLORS, dr.ZERO_COLOR]
+    assert len(set(allc)) == 11
+    assert all(r > b for r, _, b in dr.TENSION_COLORS)  # reddish
+    assert all(b > r for r, _, b in dr.COMPRESSION_COLORS)  # bluish
+
+
+def test_force_bands() -> None:
+    # Five equal bands of |N| / max|N| on each side (hand-worked values).
+    bands, top = dr.force_bands(np.array([10.0, -10.0, 1.9, 2.1, -6.5, 0.0, 1e-12]))
+    assert top == 10.0
+    assert bands.tolist() == [5, -5, 1, 2, -4, 0, 0]
+    assert dr.force_bands(np.zeros(3))[0].tolist() == [0, 0, 0]
+
+
+def test_labels_are_forces_in_kn(drawing: ezdxf.document.Drawing,
+                                 results: sf.Results) -> None:
+    texts = list(drawing.modelspace().query('TEXT[layer=="L_snow+wind"]'))
+    assert len(texts) == 3
+    # Closed form by superposition: snow N = -W L / (3 h) in each leg, plus 1.5 x wind.
+    expected = -W * L_LEG / (3 * H_APEX) + 1.5 * _wind_forces()
+    assert [t.dxf.text for t in texts] == [f"{v / 1e3:.2f}" for v in expected]
+    nodes = results.model.nodes
+    for t, (a, b) in zip(texts, results.model.members, strict=True):
+        np.testing.assert_allclose(t.dxf.align_point, (nodes[a] + nodes[b]) / 2, atol=1e-12)
+    zero = next(t.dxf.text for t in drawing.modelspace().query('TEXT[layer=="L_wind_+x"]'))
+    assert zero == "0.00"  # no "-0.00" for the unloaded leg
+
+
+def test_deformed_layer_uses_auto_scale(drawing: ezdxf.document.Drawing,
+                                        results: sf.Results) -> None:
+    model = results.model
+    u = results["snow"].displacements
+    # Common practice: the largest displacement drawn at 5 % of the bounding-box diagonal.
+    scale = 0.05 * np.linalg.norm(np.ptp(model.nodes, axis=0)) / np.linalg.norm(u, axis=1).max()
+    moved = model.nodes + scale * u
+    for e, (a, b) in zip(_lines(drawing, "D_snow"), model.members, strict=True):
+        np.testing.assert_allclose(e.dxf.start, moved[a], atol=1e-9)
+        np.testing.assert_allclose(e.dxf.end, moved[b], atol=1e-9)
+    assert "displacements x" in drawing.layers.get("D_snow").description
+
+
+def test_options(tmp_path: Path, results: sf.Results) -> None:
+    path = dr.write_results(tmp_path / "one.dxf", results, cases=["snow"],
+                            deformed_scale=None)
+    doc = ezdxf.readfile(path)
+    names = {layer.dxf.name for layer in doc.layers}
+    assert "N_snow" in names and "N_wind_+x" not in names
+    assert not any(n.startswith(("D_", "L_")) for n in names)
+    path = dr.write_results(tmp_path / "fixed.dxf", results, cases=["snow"],
+                            deformed_scale=100.0)
+    doc = ezdxf.readfile(path)
+    top = _lines(doc, "D_snow")[0]
+    np.testing.assert_allclose(top.dxf.start,
+                               results.model.nodes[3] + 100.0 * results["snow"].displacements[3])
+
+
+def test_bad_input_names_the_problem(tmp_path: Path, results: sf.Results) -> None:
+    with pytest.raises(KeyError, match="'rain'"):
+        dr.write_results(tmp_path / "x.dxf", results, cases=["rain"])
+    with pytest.raises(sf.ModelError, match="deformed_scale=-1"):
+        dr.write_results(tmp_path / "x.dxf", results, deformed_scale=-1.0)
+    with pytest.raises(sf.ModelError, match="no load cases"):
+        dr.write_results(tmp_path / "x.dxf", results, cases=[])
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_layer_names_unique_without_case() -> None:
+    m = _tripod()
+    m.add_load("Snow", [3], (0.0, 0.0, -1.0))
+    tags = dr.layer_names(m.solve())
+    assert tags["snow"] == "snow" and tags["Snow"] == "Snow_2"
+    assert tags["wind:+x"] == "wind_+x"

@@ -1,0 +1,161 @@
+"""Charts, pictures and the HTML report: contents checked against a published example."""
+
+from __future__ import annotations
+
+import base64
+from html.parser import HTMLParser
+from pathlib import Path
+from urllib.parse import unquote
+
+import matplotlib.image as mpimg
+import numpy as np
+import pytest
+import pyvista as pv
+
+import spaceframe as sf
+from spaceframe import report
+from spaceframe.summary import format_number
+
+pv.OFF_SCREEN = True
+
+# Ferreira, MATLAB Codes for Finite Element Analysis (Springer 2010) §5.3,
+# four-bar space truss (the `ferreira` fixture): u1 = (-0.3024, -1.5177,
+# 0.2688) mm, reaction R4 = (0, 7968.1, 0) N at the foot reached only by the
+# member along y, which therefore carries N = -7968.1 N.
+PUBLISHED_U1_MM = np.array([-0.3024, -1.5177, 0.2688])
+PUBLISHED_N_MAX_COMPRESSION = -7968.1
+
+
+class _Heal:
+    """Stands in for a healing report: something with __str__ and as_dict."""
+
+    def __str__(self) -> str:
+        return "merged 2 nodes closer than 1 mm; split 1 member at a node"
+
+    def as_dict(self) -> dict[str, object]:
+        return {
+            "n_components": 1,
+            "steps": [
+                {"name": "merge_nodes", "count": 2, "locations": [[0.0, 0.0, 0.0]],
+                 "detail": "within 1 mm", "skipped": False},
+                {"name": "split_at_nodes", "count": 1, "locations": [],
+                 "detail": "", "skipped": False},
+            ],
+        }
+
+
+@pytest.fixture
+def results(ferreira: sf.Model) -> sf.Results:
+    ferreira.add_group("legs", [0, 1, 3])
+    ferreira.add_group("strut", [2])
+    ferreira.add_load("Q", [0], (2e3, 0.0, 1e3))
+    ferreira.add_combination("ULS", {"P": 1.35, "Q": 1.5})
+    ferreira.meta["heal:report"] = _Heal()
+    return ferreira.solve()
+
+
+class _Links(HTMLParser):
+    def __init__(self) -> None:
+        super().__init__()
+        self.refs: list[str] = []
+        self.tags: list[str] = []
+
+    def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        self.tags.append(tag)
+        self.refs += [v for k, v in attrs if k in ("src", "href") and v is not None]
+
+
+def _links(html: str) -> _Links:
+    parser = _Links()
+    parser.feed(html)
+    return parser
+
+
+def test_report_holds_the_figures_of_the_run(tmp_path: Path, results: sf.Results) -> None:
+    path = report.write_report(tmp_path / "report.html", results, title="Fictional footbridge",
+                               job={"project": "Riverside footbridge (demo)"})
+    text = path.read_text(encoding="utf-8")
+    u_mm = np.linalg.norm(PUBLISHED_U1_MM)
+    # Published to four figures, so the report's four figures must agree.
+    assert f"<td>{format_number(u_mm)}</td>" in text
+    assert f"<td>{format_number(PUBLISHED_N_MAX_COMPRESSION / 1e3)}</td>" in text
+    assert report.CAUTION in text and text.count(report.CAUTION) == 2
+    assert "Fictional footbridge" in text and "Riverside footbridge (demo)" in text
+    for heading in ("Model", "Loads", "Model healing", "Results summary", "Equilibrium check",
+                    "Critical members", "Warnings"):
+        assert f"<h2>{heading}</h2>" in text
+    # Applied load totals: P is -10 kN along y (published example), Q as defined above.
+    assert "<td>-10.00</td>" in text
+    assert "1.350 x P + 1.500 x Q" in text
+    assert "merged 2 nodes closer than 1 mm" in text and ">n_components</td>" in text
+    assert ">merge_nodes</td><td>2</td><td>within 1 mm</td>" in text
+    assert "<th>locations</th>" not in text  # lists of coordinates stay out of the table
+    assert ">strut</td>" in text and ">legs</td>" in text
+
+
+def test_summary_figures_in_report_match_summary(tmp_path: Path, results: sf.Results) -> None:
+    s = report.summary(results)
+    text = report.write_report(tmp_path / "r.html", results).read_text(encoding="utf-8")
+    for r in s["results"].values():
+        assert f"<td>{format_number(r['max_displacement']['value'] * 1e3)}</td>" in text
+        assert f"<td>{r['residual']:.2e}</td>" in text
+    assert text.count("<td>OK</td>") == 3
+
+
+def test_report_references_only_files_it_ships(tmp_path: Path, results: sf.Results) -> None:
+    charts = report.write_charts(tmp_path / "charts", results, cases=["P"], top=3)
+    assert [p.name for p in charts] == ["P_members.png", "P_groups.png"]
+    pictures = report.write_pictures(tmp_path / "pictures", results, views=("iso",),
+                                     cases=["ULS"], size=(400, 300))
+    assert [p.name for p in pictures] == ["ULS_iso.png"]
+    path = report.write_report(tmp_path / "report.html", results, pictures=pictures,
+                               charts=charts)
+    links = _links(path.read_text(encoding="utf-8"))
+    assert len(links.refs) == 3
+    for ref in links.refs:
+        assert "://" not in ref and not ref.startswith("//")
+        assert (tmp_path / unquote(ref)).is_file()
+    assert "script" not in links.tags and "link" not in links.tags
+    for png in [*charts, *pictures]:
+        img = mpimg.imread(png)  # a second reader of the PNG files
+        assert img.std() > 0
+
+
+def test_embedded_images_are_pngs(tmp_path: Path, results: sf.Results) -> None:
+    charts = report.write_charts(tmp_path / "charts", results, cases=["Q"])
+    path = report.write_report(tmp_path / "out" / "single.html", results, charts=charts,
+                               embed_images=True)
+    refs = _links(path.read_text(encoding="utf-8")).refs
+    assert len(refs) == 2
+    for ref in refs:
+        head, data = ref.split(",", 1)
+        assert head == "data:image/png;base64"
+        assert base64.b64decode(data)[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec)
+
+
+def test_warnings_listed_and_escaped(tmp_path: Path, results: sf.Results) -> None:
+    text = report.write_report(tmp_path / "w.html", results,
+                               warnings=["model in 2 parts", "<b>loose</b> node 7"]
+                               ).read_text(encoding="utf-8")
+    assert "<li>model in 2 parts</li>" in text
+    assert "&lt;b&gt;loose&lt;/b&gt; node 7" in text and "<b>loose</b>" not in text
+
+
+def test_missing_picture_writes_nothing(tmp_path: Path, results: sf.Results) -> None:
+    with pytest.raises(sf.ReadError, match=r"missing\.png"):
+        report.write_report(tmp_path / "r.html", results, pictures=[tmp_path / "missing.png"])
+    assert list(tmp_path.iterdir()) == []
+    with pytest.raises(sf.ModelError, match="no load cases"):
+        report.write_report(tmp_path / "r.html", sf.Results(results.model, {}))
+
+
+def test_charts_show_tension_and_compression_bars(tmp_path: Path, results: sf.Results) -> None:
+    bars = report.write_charts(tmp_path, results, cases=["ULS"])[0]
+    img = (mpimg.imread(bars)[..., :3] * 255).astype(int)
+    r, g, b = img[..., 0], img[..., 1], img[..., 2]
+    # The combination has both signs (closed form: superposition of P and Q,
+    # whose forces are those of the published example and of Q alone).
+    forces = results["ULS"].axial_forces
+    assert forces.max() > 0 > forces.min()
+    assert np.count_nonzero((r - g > 80) & (r - b > 80)) > 50  # tension bars, #c8281e
+    assert np.count_nonzero((b - r > 80) & (b - g > 60)) > 50  # compression bars, #2a4fbf
