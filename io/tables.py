@@ -31,7 +31,7 @@ from spaceframe.errors import ModelError
 from spaceframe.summary import member_group_labels, summary, supported_nodes
 
 if TYPE_CHECKING:
-    from spaceframe.results import Results
+    from spaceframe.results import Envelope, Results
 
 __all__ = ["FILES", "write"]
 
@@ -166,3 +166,63 @@ def write(
         for tmp, _ in pairs:
             tmp.unlink(missing_ok=True)
     return finals
+
+
+def write_envelopes(
+    folder: str | os.PathLike[str], results: Results, envelopes: Mapping[str, Envelope]
+) -> list[Path]:
+    """Write ``envelopes.csv``: per member and envelope the largest and smallest force.
+
+    Parameters
+    ----------
+    folder : path-like
+        Output folder (must exist).
+    results : Results
+        For the model (ids, groups, lengths).
+    envelopes : mapping
+        Name -> :class:`~spaceframe.results.Envelope` (max and min over its results).
+
+    Returns
+    -------
+    list of Path
+        ``[envelopes.csv]``, or ``[]`` when there are no envelopes.
+    """
+    if not envelopes:
+        return []
+    model = results.model
+    header = ["member", "node_i", "node_j", "group", "length [m]"]
+    cols: list[Any] = [np.arange(model.n_members), model.members[:, 0], model.members[:, 1],
+                       member_group_labels(model), model.lengths]
+    for name, env in envelopes.items():
+        header += [f"{name}: N max [N]", f"{name}: N min [N]",
+                   f"{name}: stress max [Pa]", f"{name}: stress min [Pa]"]
+        cols += [env.axial_max, env.axial_min, env.axial_max / model.area,
+                 env.axial_min / model.area]
+    final = Path(folder) / "envelopes.csv"
+    tmp = _temp_name(final)
+    try:
+        _write_csv(tmp, *_columns(header, cols))
+        _commit([(tmp, final)])
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return [final]
+
+
+def envelope_summary(results: Results, envelopes: Mapping[str, Envelope]) -> dict[str, Any]:
+    """JSON-able governing values of each envelope: max tension and max compression."""
+    model = results.model
+    out: dict[str, Any] = {}
+    for name, env in envelopes.items():
+        it, ic = int(np.argmax(env.axial_max)), int(np.argmin(env.axial_min))
+        disp = np.maximum(np.abs(env.displacement_max), np.abs(env.displacement_min))
+        node = int(np.argmax(np.linalg.norm(disp, axis=1)))
+        out[name] = {
+            "of": list(env.members),
+            "max_tension": {"member": it, "force": float(env.axial_max[it]),
+                            "groups": model.groups_of(it)},
+            "max_compression": {"member": ic, "force": float(env.axial_min[ic]),
+                                "groups": model.groups_of(ic)},
+            "max_displacement_component": {"node": node, "value": float(disp[node].max())},
+        }
+    return out

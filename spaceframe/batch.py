@@ -212,10 +212,15 @@ def run(
     t = time.perf_counter()
     results = loaded.solve(solver=solver)
     timings["solve"] = time.perf_counter() - t
+    from spaceframe.io import tables
     from spaceframe.summary import summary as make_summary
 
     summ = make_summary(results)
-    summ["source"] = str(loaded.path)
+    from spaceframe.io.tables import envelope_summary
+
+    envelopes = loaded.project.envelope_results(results) if loaded.project is not None else {}
+    summ["envelopes"] = envelope_summary(results, envelopes)
+    summ["source"] = str(loaded.path.resolve())
     summ["title"] = loaded.title
     summ["warnings"] = loaded.warnings
     final = Path(output) if output is not None else loaded.output
@@ -225,7 +230,9 @@ def run(
     try:
         progress("write tables")
         t = time.perf_counter()
-        files += _write_outputs(tmp, results, loaded, pictures, progress)
+        extra = {k: summ[k] for k in ("source", "title", "warnings", "envelopes")}
+        files += _write_outputs(tmp, results, loaded, pictures, progress, extra)
+        files += tables.write_envelopes(tmp, results, envelopes)
         timings["write"] = time.perf_counter() - t
         _replace_folder(tmp, final)
     except BaseException:
@@ -236,15 +243,18 @@ def run(
 
 
 def _write_outputs(
-    folder: Path, results: Results, loaded: Loaded, pictures: bool, progress: Progress
+    folder: Path,
+    results: Results,
+    loaded: Loaded,
+    pictures: bool,
+    progress: Progress,
+    extra: dict[str, Any],
 ) -> list[Path]:
     """Every writer that is installed; tables always."""
     import importlib.util
 
     from spaceframe.io import tables
 
-    extra = {"source": str(loaded.path.resolve()), "title": loaded.title,
-             "warnings": loaded.warnings}
     files = [Path(p) for p in tables.write(folder, results, extra=extra)]
     if importlib.util.find_spec("ezdxf") is not None:
         from spaceframe.io import dxf_results

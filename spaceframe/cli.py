@@ -239,6 +239,13 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
     out.line(f"{outcome.summary.get('title', '')}: {m['nodes']} nodes, {m['members']} members, "
              f"solver {outcome.summary['solver']}")
     _print_summary(out, outcome.summary)
+    for name, env in outcome.summary.get("envelopes", {}).items():
+        t, c = env["max_tension"], env["max_compression"]
+        out.line(
+            f"envelope {name} ({', '.join(env['of'])}): max tension {t['force'] / 1e3:.1f} kN "
+            f"(member {t['member']}), max compression {c['force'] / 1e3:.1f} kN "
+            f"(member {c['member']})"
+        )
     for w in outcome.summary.get("warnings", []):
         out.line(f"warning: {w}")
     out.line(f"results written to {outcome.output} ({len(outcome.files)} files)")
