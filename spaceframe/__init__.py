@@ -9,6 +9,12 @@ practice govern any design.
 
 from __future__ import annotations
 
+import importlib.abc
+import importlib.machinery
+import sys
+from pathlib import Path as _Path
+from types import ModuleType as _ModuleType
+
 from spaceframe.analysis.stability import (
     Determinacy,
     check_stability,
@@ -27,6 +33,32 @@ from spaceframe.errors import (
 )
 from spaceframe.model import STANDARD_GRAVITY, LoadCase, Model
 from spaceframe.results import CaseResult, Envelope, Results
+
+
+class _SourceTreeIO(importlib.abc.MetaPathFinder):
+    """Find ``spaceframe.io`` in the repository's top-level io/ folder.
+
+    Installed, io/ is inside the package (pyproject's package-dir).  Run from a
+    source checkout without installing it (``python -m pytest`` or ``python -m
+    spaceframe`` from the repository root puts the root first on sys.path), the
+    package is this folder and io/ sits beside it; this finder, consulted after
+    every other, maps the one name there.
+    """
+
+    def __init__(self, root: _Path) -> None:
+        self.root = str(root)
+
+    def find_spec(
+        self, fullname: str, path: object = None, target: _ModuleType | None = None
+    ) -> importlib.machinery.ModuleSpec | None:
+        if fullname != "spaceframe.io":
+            return None
+        return importlib.machinery.PathFinder.find_spec(fullname, [self.root])
+
+
+_here = _Path(__file__).resolve().parent
+if not (_here / "io").is_dir() and (_here.parent / "io" / "__init__.py").is_file():
+    sys.meta_path.append(_SourceTreeIO(_here.parent))
 
 __version__ = "0.1.0"
 

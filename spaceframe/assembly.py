@@ -59,6 +59,33 @@ def equilibrium_matrix(model: Model) -> sp.csc_matrix:
     return sp.csc_matrix((data, rows.astype(idx), indptr), shape=(3 * model.n_nodes, b))
 
 
+#: Upper-triangle positions (row, column) of a symmetric 3x3 block.
+_UPPER3 = np.triu_indices(3)
+
+
+def nodal_blocks(model: Model) -> tuple[np.ndarray, np.ndarray]:
+    """Upper triangles of the member blocks k c c^T and of their sum at each node.
+
+    Returns
+    -------
+    member : (b, 6) float
+        ``k c_a c_b`` for (a, b) in xx, xy, xz, yy, yz, zz, N/m.
+    node : (n, 6) float
+        The same summed over the members at each node: the 3x3 diagonal
+        block of K at that node, without springs.
+    """
+    c = model.directions
+    member = model.axial_stiffness[:, None] * c[:, _UPPER3[0]] * c[:, _UPPER3[1]]
+    n = model.n_nodes
+    i, j = model.members[:, 0], model.members[:, 1]
+    node = np.empty((n, 6))
+    # bincount with weights is a single pass in C; np.add.at on (b, 3, 3) is
+    # several times slower.
+    for a in range(6):
+        node[:, a] = np.bincount(i, member[:, a], n) + np.bincount(j, member[:, a], n)
+    return member, node
+
+
 def stiffness_matrix(
     model: Model,
     dof_map: np.ndarray | None = None,
@@ -83,28 +110,50 @@ def stiffness_matrix(
     K : scipy.sparse.csr_matrix
         Duplicates summed, indices sorted.
     """
-    c = model.directions
-    k = model.axial_stiffness
-    # Member matrix k [[C, -C], [-C, C]] with C = c c^T, for all members at once.
-    cc = k[:, None, None] * (c[:, :, None] * c[:, None, :])
-    local = np.empty((model.n_members, 6, 6))
-    local[:, :3, :3] = cc
-    local[:, 3:, 3:] = cc
-    local[:, :3, 3:] = -cc
-    local[:, 3:, :3] = -cc
-    dofs = member_dofs(model.members)
-    if dof_map is not None:
-        dofs = dof_map[dofs]
-        size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else n_dof
-    else:
-        size = 3 * model.n_nodes
-    idx = index_dtype(size)
-    dofs = dofs.astype(idx, copy=False)
-    rows = np.broadcast_to(dofs[:, :, None], local.shape)
-    cols = np.broadcast_to(dofs[:, None, :], local.shape)
-    keep = (rows >= 0) & (cols >= 0)
+    n, b = model.n_nodes, model.n_members
+    member, node = nodal_blocks(model)
+    # Each node's diagonal block is summed before the sparse build and each
+    # member adds only its off-diagonal block -k c c^T: no duplicate entries
+    # reach the sparse constructor, and a third of the entries of 6x6 member
+    # matrices are never formed.
+    C = np.empty((b, 3, 3))
+    C[:, _UPPER3[0], _UPPER3[1]] = member
+    C[:, _UPPER3[1], _UPPER3[0]] = member
+    axes = np.arange(3)
     if triangle == "upper":
-        keep &= rows <= cols
-    K = sp.coo_matrix((local[keep], (rows[keep], cols[keep])), shape=(size, size)).tocsr()
+        da, db = _UPPER3
+        diag = node
+    else:
+        da, db = np.divmod(np.arange(9), 3)
+        full = np.empty((n, 3, 3))
+        full[:, _UPPER3[0], _UPPER3[1]] = node
+        full[:, _UPPER3[1], _UPPER3[0]] = node
+        diag = full.reshape(n, 9)
+    base_n = 3 * np.arange(n)[:, None]
+    base_i = 3 * model.members[:, :1, None]
+    base_j = 3 * model.members[:, 1:, None]
+    rows = [(base_n + da).ravel(), np.broadcast_to(base_i + axes[:, None], (b, 3, 3)).ravel()]
+    cols = [(base_n + db).ravel(), np.broadcast_to(base_j + axes[None, :], (b, 3, 3)).ravel()]
+    vals = [diag.ravel(), -C.ravel()]
+    if triangle == "full":
+        rows.append(cols[1])
+        cols.append(rows[1])
+        vals.append(vals[1])
+    r = np.concatenate(rows)
+    c = np.concatenate(cols)
+    v = np.concatenate(vals)
+    if dof_map is not None:
+        r, c = dof_map[r], dof_map[c]
+        size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else n_dof
+        keep = (r >= 0) & (c >= 0)
+        r, c, v = r[keep], c[keep], v[keep]
+    else:
+        size = 3 * n
+    if triangle == "upper":
+        # Blocks are symmetric, so an entry below the diagonal is the same
+        # value as its mirror: fold it over (any renumbering stays valid).
+        r, c = np.minimum(r, c), np.maximum(r, c)
+    idx = index_dtype(size)
+    K = sp.csr_matrix((v, (r.astype(idx), c.astype(idx))), shape=(size, size))
     K.sum_duplicates()
     return K

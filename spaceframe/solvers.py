@@ -19,8 +19,9 @@ A factor never vouches for its answer: the caller checks residuals.
 from __future__ import annotations
 
 import importlib.util
+import os
 import platform
-from typing import Literal, Protocol
+from typing import Any, Literal, Protocol
 
 import numpy as np
 import scipy.sparse as sp
@@ -125,6 +126,11 @@ class _PardisoFactor:
         self._A = sp.csr_matrix(K_upper)
         self._A.sort_indices()
         solver = pypardiso.PyPardisoSolver(mtype=2)
+        # pypardiso searches for the MKL runtime (a linker query and a
+        # recursive glob of sys.prefix, 0.1-0.2 s) on every new solver unless
+        # PYPARDISO_MKL_RT names it; the library is loaded now, so name it for
+        # the solvers that follow.
+        os.environ.setdefault("PYPARDISO_MKL_RT", solver.libmkl._name)
         iparm = {
             1: 1,  # use the values below, not MKL's defaults
             2: 2,  # nested-dissection ordering (METIS)
@@ -138,6 +144,7 @@ class _PardisoFactor:
             25: 0,  # sequential forward/backward solve is fine for few columns
             27: 0,  # no matrix checker (we build sorted CSR ourselves)
             35: 0,  # one-based indices (pypardiso shifts them)
+            56: 1,  # keep the pivots for pardiso_getdiag (checked below)
         }
         for i, v in iparm.items():
             solver.set_iparm(i, v)
@@ -149,6 +156,36 @@ class _PardisoFactor:
             # -4: zero pivot; for SPD matrices this is how PARDISO reports a
             # singular or indefinite matrix.
             raise SingularFactor(f"PARDISO: {exc}") from exc
+        self._check_pivots(solver)
+
+    def _check_pivots(self, solver: Any) -> None:
+        # A Cholesky factorisation of a singular matrix need not fail: round-off
+        # leaves a tiny positive pivot.  Read the pivots back and judge them as
+        # the SuperLU back-end does.
+        import ctypes
+
+        n = self._A.shape[0]
+        pivots = np.zeros(n)
+        diag = np.zeros(n)
+        error = ctypes.c_int32(0)
+        getdiag = solver.libmkl.pardiso_getdiag
+        getdiag.restype = None
+        getdiag(
+            solver.pt.ctypes.data_as(ctypes.c_void_p),
+            pivots.ctypes.data_as(ctypes.c_void_p),
+            diag.ctypes.data_as(ctypes.c_void_p),
+            ctypes.byref(ctypes.c_int32(1)),
+            ctypes.byref(error),
+        )
+        if error.value != 0:
+            return  # pivots unavailable: the caller's residual checks remain
+        scale = float(np.abs(diag).max(initial=0.0))
+        small = np.flatnonzero(pivots <= PIVOT_TOLERANCE * scale)
+        if small.size:
+            solver.free_memory(everything=True)
+            # Pivots come in PARDISO's fill-reducing order, so their dofs are
+            # not known here; the caller names the mechanism from its modes.
+            raise SingularFactor(f"PARDISO: {small.size} zero pivots")
 
     def solve(self, rhs: np.ndarray) -> np.ndarray:
         import pypardiso

@@ -27,7 +27,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from spaceframe.assembly import equilibrium_matrix
+from spaceframe.assembly import equilibrium_matrix, nodal_blocks
 from spaceframe.errors import MechanismError, ModelError
 from spaceframe.tolerances import NODE_STIFFNESS_RATIO, RANK_TOLERANCE
 
@@ -84,11 +84,11 @@ def _plane_text(model: Model, node: int, normal: np.ndarray) -> str:
 
 def _nodal_stiffness(model: Model) -> np.ndarray:
     """(n, 3, 3): sum over each node's members of (EA/L) c c^T, plus springs."""
-    c = model.directions
-    kcc = model.axial_stiffness[:, None, None] * (c[:, :, None] * c[:, None, :])
-    S = np.zeros((model.n_nodes, 3, 3))
-    np.add.at(S, model.members[:, 0], kcc)
-    np.add.at(S, model.members[:, 1], kcc)
+    _, node = nodal_blocks(model)
+    iu, ju = np.triu_indices(3)
+    S = np.empty((model.n_nodes, 3, 3))
+    S[:, iu, ju] = node
+    S[:, ju, iu] = node
     S[:, [0, 1, 2], [0, 1, 2]] += model.springs
     return S
 
@@ -173,10 +173,12 @@ def _check_rigid_body(model: Model, label: np.ndarray, n_parts: int, held: np.nd
     names = ("translation along x", "translation along y", "translation along z",
              "rotation about x", "rotation about y", "rotation about z")
     held_nodes = np.flatnonzero(held.any(axis=1))
+    used = np.bincount(model.members.ravel(), minlength=model.n_nodes) > 0
     for part in np.unique(label[held_nodes]):
         nodes_p = held_nodes[label[held_nodes] == part]
-        members_p = np.flatnonzero(label[model.members[:, 0]] == part)
-        all_nodes = np.unique(model.members[members_p])
+        # The nodes of this part that have members (a node mask, not a sort
+        # of the part's member ends).
+        all_nodes = np.flatnonzero((label == part) & used)
         if all_nodes.size < 2:
             continue
         centre = model.nodes[all_nodes].mean(axis=0)
@@ -197,8 +199,12 @@ def _check_rigid_body(model: Model, label: np.ndarray, n_parts: int, held: np.nd
         R[:, :, 4] = np.cross([0, 1.0, 0], span)
         R[:, :, 5] = np.cross([0, 0, 1.0], span)
         Rf = R.reshape(-1, 6)
-        _, s, vt = np.linalg.svd(Rf, full_matrices=False)
-        genuine = vt[s > RANK_TOLERANCE * s[0] * 1e3]
+        # Right singular vectors of Rf from its 6x6 Gram matrix: the same
+        # subspace at a cost linear in the nodes (a thin SVD of a 3N x 6
+        # matrix is not).  Squared singular values, so the threshold is squared.
+        lam, vec = np.linalg.eigh(Rf.T @ Rf)
+        lam, vec = lam[::-1], vec[:, ::-1]
+        genuine = vec[:, lam > (RANK_TOLERANCE * 1e3) ** 2 * lam[0]].T
         Gm = G @ genuine.T if G.size else np.zeros((0, genuine.shape[0]))
         sg = np.linalg.svd(Gm, compute_uv=False) if Gm.size else np.zeros(0)
         scale = max(float(np.linalg.norm(span, axis=1).max()), 1.0)
