@@ -48,7 +48,16 @@ def test_install_gives_spaceframe_io(tmp_path: Path, editable: bool) -> None:
         [str(py), "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
         capture_output=True, text=True, check=True,
     ).stdout.strip()
-    Path(site, "outer.pth").write_text(sysconfig.get_paths()["purelib"] + "\n")
+    # Lend everything but spaceframe itself (links in a folder of their own), so the
+    # copy under test is the one this install makes, not one installed outside.
+    lent = tmp_path / "lent"
+    lent.mkdir()
+    for entry in Path(sysconfig.get_paths()["purelib"]).iterdir():
+        name = entry.name.lower()
+        if not (name.startswith(("spaceframe", "__editable__", "_spaceframe"))
+                or name.endswith(".pth")):
+            (lent / entry.name).symlink_to(entry)
+    Path(site, "outer.pth").write_text(f"{lent}\n")
     cmd = [str(py), "-m", "pip", "install", "-q", "--no-deps", "--no-build-isolation"]
     cmd += ["-e", str(ROOT)] if editable else [str(ROOT)]
     env = {**os.environ, "PIP_DISABLE_PIP_VERSION_CHECK": "1"}
