@@ -194,6 +194,23 @@ def panel_normal_loads(
                    np.asarray(panel_nodes, dtype=np.int64))
 
 
+def _vertical_load(
+    nodes: Any, panel_nodes: Any, panel_offsets: Any, load: Any, *, plan: bool
+) -> np.ndarray:
+    """Load along -z per plan area (``plan``) or per true surface area, to the corners."""
+    nodes = np.asarray(nodes, dtype=float)
+    _check_panels(nodes, panel_nodes, panel_offsets)
+    owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
+    q = _per_panel(load, sizes.size, "load")
+    # Each fan triangle's vector area: its z component is its plan area, its
+    # length its true area.
+    area = np.abs(vec[:, 2]) if plan else np.linalg.norm(vec, axis=1)
+    force = np.zeros_like(vec)
+    force[:, 2] = -q[owner] * area
+    return _spread(nodes.shape[0], owner, a, b, sizes, force,
+                   np.asarray(panel_nodes, dtype=np.int64))
+
+
 def panel_plan_loads(
     nodes: np.ndarray, panel_nodes: np.ndarray, panel_offsets: np.ndarray, load: Any
 ) -> np.ndarray:
@@ -215,14 +232,7 @@ def panel_plan_loads(
     forces : (n, 3) float
         N; only the z components are non-zero.
     """
-    nodes = np.asarray(nodes, dtype=float)
-    _check_panels(nodes, panel_nodes, panel_offsets)
-    owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
-    q = _per_panel(load, sizes.size, "load")
-    force = np.zeros_like(vec)
-    force[:, 2] = -q[owner] * np.abs(vec[:, 2])
-    return _spread(nodes.shape[0], owner, a, b, sizes, force,
-                   np.asarray(panel_nodes, dtype=np.int64))
+    return _vertical_load(nodes, panel_nodes, panel_offsets, load, plan=True)
 
 
 def panel_surface_loads(
@@ -243,14 +253,7 @@ def panel_surface_loads(
     forces : (n, 3) float
         N; only the z components are non-zero.
     """
-    nodes = np.asarray(nodes, dtype=float)
-    _check_panels(nodes, panel_nodes, panel_offsets)
-    owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
-    q = _per_panel(load, sizes.size, "load")
-    force = np.zeros_like(vec)
-    force[:, 2] = -q[owner] * np.linalg.norm(vec, axis=1)
-    return _spread(nodes.shape[0], owner, a, b, sizes, force,
-                   np.asarray(panel_nodes, dtype=np.int64))
+    return _vertical_load(nodes, panel_nodes, panel_offsets, load, plan=False)
 
 
 # ------------------------------------------------------ plan tributary areas

@@ -63,3 +63,34 @@ def backend(request: pytest.FixtureRequest) -> str:
     if request.param not in available_backends():
         pytest.skip(f"{request.param} not installed")
     return str(request.param)
+
+
+# A loaded tripod shared by the output tests (tables, summary, viewer, DXF):
+# feet on a circle at 90°, 210° and 330°, members from the apex to each foot.
+H_APEX, A_FOOT = 3.0, 2.0  # tripod height and foot radius, m
+E, AREA = 210e9, 4e-4  # Pa, m²
+W, H = 30e3, 6e3  # vertical and horizontal apex loads, N
+L_LEG = float(np.hypot(H_APEX, A_FOOT))
+
+
+def loaded_tripod(wind_case: str = "wind", density: float = 0.0) -> sf.Model:
+    """The tripod with cases "snow" (W down at the apex), ``wind_case`` (H along +x)
+    and the combination "snow+wind" = snow + 1.5 wind; no groups."""
+    m = sf.Model()
+    ang = np.deg2rad([90.0, 210.0, 330.0])
+    feet = m.add_nodes(np.c_[A_FOOT * np.cos(ang), A_FOOT * np.sin(ang), np.zeros(3)])
+    apex = m.add_nodes([[0.0, 0.0, H_APEX]])
+    m.add_members(np.c_[np.repeat(apex, 3), feet], area=AREA, E=E, density=density)
+    m.add_support(feet)
+    m.add_load("snow", apex, (0.0, 0.0, -W))
+    m.add_load(wind_case, apex, (H, 0.0, 0.0))
+    m.add_combination("snow+wind", {"snow": 1.0, wind_case: 1.5})
+    return m
+
+
+def tripod_wind_forces() -> np.ndarray:
+    """Leg forces under H along +x (closed form, joint equilibrium at the apex): the leg
+    at 90° carries nothing, the leg at 210° +H L / (sqrt(3) a), the one at 330° the same
+    in compression."""
+    n = H * L_LEG / (np.sqrt(3.0) * A_FOOT)
+    return np.array([0.0, n, -n])

@@ -7,37 +7,22 @@ from pathlib import Path
 import ezdxf
 import numpy as np
 import pytest
+from conftest import H_APEX, L_LEG, W, loaded_tripod, tripod_wind_forces
 from ezdxf import recover
 
 import spaceframe as sf
 from spaceframe.io import dxf_results as dr
 
-H_APEX, A_FOOT = 3.0, 2.0
-E, AREA = 210e9, 4e-4
-W, H = 30e3, 6e3
-L_LEG = float(np.hypot(H_APEX, A_FOOT))
-
 
 def _tripod() -> sf.Model:
-    """A camera tripod for a fictional stadium mast: feet at 90°, 210°, 330°."""
-    m = sf.Model()
-    ang = np.deg2rad([90.0, 210.0, 330.0])
-    feet = m.add_nodes(np.c_[A_FOOT * np.cos(ang), A_FOOT * np.sin(ang), np.zeros(3)])
-    apex = m.add_nodes([[0.0, 0.0, H_APEX]])
-    m.add_members(np.c_[np.repeat(apex, 3), feet], area=AREA, E=E, group="legs")
-    m.add_support(feet)
-    m.add_load("snow", apex, (0.0, 0.0, -W))
-    m.add_load("wind:+x", apex, (H, 0.0, 0.0))
-    m.add_combination("snow+wind", {"snow": 1.0, "wind:+x": 1.5})
+    """A camera tripod for a fictional stadium mast (the shared loaded tripod)."""
+    m = loaded_tripod(wind_case="wind:+x")
+    m.add_group("legs", [0, 1, 2])
     return m
 
 
 def _wind_forces() -> np.ndarray:
-    # Closed form, joint equilibrium at the apex under H along +x: the leg at
-    # 90° carries nothing, the leg at 210° +H L / (sqrt(3) a), the one at 330°
-    # the same in compression.
-    n = H * L_LEG / (np.sqrt(3.0) * A_FOOT)
-    return np.array([0.0, n, -n])
+    return tripod_wind_forces()
 
 
 @pytest.fixture

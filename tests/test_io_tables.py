@@ -8,29 +8,18 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import AREA, H_APEX, L_LEG, E, W, loaded_tripod
 
 import spaceframe as sf
 from spaceframe.io import tables
 from spaceframe.summary import summary
 
-H_APEX, A_FOOT = 3.0, 2.0
-E, AREA = 210e9, 4e-4
-W, H = 30e3, 6e3
-L_LEG = float(np.hypot(H_APEX, A_FOOT))
-
 
 def _mast_base() -> sf.Model:
-    """The tripod foot of a fictional telecom mast: three pinned legs meeting at an apex."""
-    m = sf.Model()
-    ang = np.deg2rad([90.0, 210.0, 330.0])
-    feet = m.add_nodes(np.c_[A_FOOT * np.cos(ang), A_FOOT * np.sin(ang), np.zeros(3)])
-    apex = m.add_nodes([[0.0, 0.0, H_APEX]])
-    m.add_members(np.c_[np.repeat(apex, 3), feet], area=AREA, E=E, group="legs, main")
+    """The tripod foot of a fictional telecom mast (the shared loaded tripod)."""
+    m = loaded_tripod()
+    m.add_group("legs, main", [0, 1, 2])
     m.add_group("north", [0])
-    m.add_support(feet)
-    m.add_load("snow", apex, (0.0, 0.0, -W))
-    m.add_load("wind", apex, (H, 0.0, 0.0))
-    m.add_combination("snow+wind", {"snow": 1.0, "wind": 1.5})
     return m
 
 

@@ -6,6 +6,7 @@ import json
 
 import numpy as np
 import pytest
+from conftest import A_FOOT, AREA, H_APEX, L_LEG, E, W, loaded_tripod, tripod_wind_forces
 
 import spaceframe as sf
 from spaceframe.summary import (
@@ -20,27 +21,14 @@ from spaceframe.summary import (
     supported_nodes,
 )
 
-H_APEX, A_FOOT = 3.0, 2.0  # tripod height and foot radius, m
-E, AREA = 210e9, 4e-4  # Pa, m²
-W, H = 30e3, 6e3  # vertical and horizontal apex loads, N
-L_LEG = float(np.hypot(H_APEX, A_FOOT))
-
 
 def _tripod() -> sf.Model:
-    """Symmetric tripod, feet at 90°, 210° and 330°, members apex -> foot."""
-    m = sf.Model()
-    ang = np.deg2rad([90.0, 210.0, 330.0])
-    feet = m.add_nodes(np.c_[A_FOOT * np.cos(ang), A_FOOT * np.sin(ang), np.zeros(3)])
-    apex = m.add_nodes([[0.0, 0.0, H_APEX]])
-    m.add_members(np.c_[np.repeat(apex, 3), feet], area=AREA, E=E, density=7850.0)
+    """The shared loaded tripod with overlapping groups and a node set."""
+    m = loaded_tripod(density=7850.0)
     m.add_group("back leg", [0])
     m.add_group("front legs", [1, 2])
     m.add_group("marked", [0, 2])  # overlaps both groups above
-    m.add_node_set("feet", feet)
-    m.add_support(feet)
-    m.add_load("snow", apex, (0.0, 0.0, -W))
-    m.add_load("wind", apex, (H, 0.0, 0.0))
-    m.add_combination("snow+wind", {"snow": 1.0, "wind": 1.5})
+    m.add_node_set("feet", [0, 1, 2])
     return m
 
 
@@ -66,11 +54,7 @@ def _snow_drop() -> float:
 
 
 def _wind_forces() -> np.ndarray:
-    # Closed form, joint equilibrium at the apex under H along +x (derived by
-    # hand): the leg at 90° carries nothing, the leg at 210° (on the -x side)
-    # +H L / (sqrt(3) a), the leg at 330° the same in compression.
-    n = H * L_LEG / (np.sqrt(3.0) * A_FOOT)
-    return np.array([0.0, n, -n])
+    return tripod_wind_forces()
 
 
 def test_format_number_examples() -> None:

@@ -8,6 +8,7 @@ import matplotlib.image as mpimg
 import numpy as np
 import pytest
 import pyvista as pv
+from conftest import A_FOOT, AREA, H_APEX, L_LEG, E, H, W, loaded_tripod
 
 import spaceframe as sf
 from spaceframe import viewer
@@ -16,25 +17,13 @@ from spaceframe.summary import format_number
 pv.OFF_SCREEN = True
 
 SIZE = (400, 300)
-H_APEX, A_FOOT = 3.0, 2.0
-E, AREA = 210e9, 4e-4
-W, H = 30e3, 6e3
-L_LEG = float(np.hypot(H_APEX, A_FOOT))
 
 
 def _tripod() -> sf.Model:
-    """A fictional lighting-mast tripod: feet at 90°, 210° and 330°, members apex -> foot."""
-    m = sf.Model()
-    ang = np.deg2rad([90.0, 210.0, 330.0])
-    feet = m.add_nodes(np.c_[A_FOOT * np.cos(ang), A_FOOT * np.sin(ang), np.zeros(3)])
-    apex = m.add_nodes([[0.0, 0.0, H_APEX]])
-    m.add_members(np.c_[np.repeat(apex, 3), feet], area=AREA, E=E)
+    """A fictional lighting-mast tripod (the shared loaded tripod) with two groups."""
+    m = loaded_tripod()
     m.add_group("rear", [0])
     m.add_group("front", [1, 2])
-    m.add_support(feet)
-    m.add_load("snow", apex, (0.0, 0.0, -W))
-    m.add_load("wind", apex, (H, 0.0, 0.0))
-    m.add_combination("snow+wind", {"snow": 1.0, "wind": 1.5})
     return m
 
 

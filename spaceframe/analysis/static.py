@@ -167,16 +167,18 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     spring = model.springs.ravel()
     held = restrained | (spring > 0)
     R = np.where(held[:, None], P - F, 0.0)
+    absA = abs(A)  # once: the residual's scale for every result
     items: dict[str, CaseResult] = {}
     for j, name in enumerate(names):
         items[name] = _make_result(model, name, "case", U[:, j], T[:, j], R[:, j], F[:, j],
-                                   elong[:, j], E0[:, j], A, spring, restrained)
+                                   elong[:, j], E0[:, j], A, absA, spring, restrained)
     for cname, factors in model.combinations.items():
         w = np.zeros(m)
         for case, f in factors.items():
             w[names.index(case)] += f
         items[cname] = _make_result(model, cname, "combination", U @ w, T @ w, R @ w, F @ w,
-                                    elong @ w, E0 @ w, A, spring, restrained, factors=factors)
+                                    elong @ w, E0 @ w, A, absA, spring, restrained,
+                                    factors=factors)
     timings["recover"] = time.perf_counter() - t
     timings["total"] = time.perf_counter() - t0
     return Results(model, items, solver=solver_name, timings=timings,
@@ -194,6 +196,7 @@ def _make_result(
     elong: np.ndarray,
     e0: np.ndarray,
     A: sp.spmatrix,
+    absA: sp.spmatrix,
     spring: np.ndarray,
     restrained: np.ndarray,
     factors: dict[str, float] | None = None,
@@ -204,11 +207,10 @@ def _make_result(
             raise SolverError(f"{kind} {name!r}: the solver returned non-finite {label}")
     # Residual: supports take what equilibrium asks at restrained dofs, springs
     # must supply -k u at free ones, and free dofs must balance exactly.
-    absA = abs(A)
-    res = A @ t - f - r
-    res_free = np.where(restrained, 0.0, res)
+    out_of_balance = A @ t - f
+    res_free = np.where(restrained, 0.0, out_of_balance - r)
     sprung = ~restrained & (spring > 0)
-    res_free[sprung] = (A @ t - f)[sprung] + spring[sprung] * u[sprung]
+    res_free[sprung] = out_of_balance[sprung] + spring[sprung] * u[sprung]
     # Scale: the member forces from total and from free elongation separately,
     # so a case of free thermal expansion (t ~ 0) is judged against the forces
     # its strain would cause if restrained, not against round-off.
