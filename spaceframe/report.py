@@ -256,29 +256,21 @@ def _image_src(path: Path, folder: Path, embed: bool, what: str) -> str:
     return quote(rel)
 
 
-def _scalar(v: Any) -> bool:
-    return isinstance(v, (int, float, str, bool)) or v is None
-
-
-def _heal_section(heal: Any) -> str:
+def _heal_section(heal: Any, units: dict[str, Any] | None) -> str:
+    """The healing steps as a table, locations in the drawing's own units."""
     if heal is None:
         return "<p>No healing report: the geometry was used as given.</p>"
-    parts = [f"<pre>{_e(heal)}</pre>"]
-    as_dict = getattr(heal, "as_dict", None)
-    if not callable(as_dict):
-        return parts[0]
-    data = dict(as_dict())
-    flat = [(k, "-" if v is None else v) for k, v in data.items() if _scalar(v)]
-    if flat:
-        parts.append(_table(["item", "value"], flat))
-    # Lists of records (e.g. the healing steps) as one table each, scalar fields only.
-    for key, value in data.items():
-        if not (isinstance(value, list) and value and all(isinstance(r, dict) for r in value)):
-            continue
-        columns = [c for c in value[0] if all(_scalar(r.get(c)) for r in value)]
-        parts.append(f"<h3>{_e(key)}</h3>")
-        parts.append(_table(columns, [[r.get(c, "") for c in columns] for r in value]))
-    return "\n".join(parts)
+    steps = getattr(heal, "steps", None)
+    if not steps:
+        return f"<pre>{_e(heal)}</pre>"
+    scale = float(units["scale"]) if units else 1.0
+    unit = str(units["name"]) if units else "m"
+    rows = [
+        [st.name, "skipped" if getattr(st, "skipped", False) else st.count,
+         st.format(scale=scale, unit=unit).split(": ", 1)[-1]]
+        for st in steps
+    ]
+    return _table(["step", "count", f"what was done (locations in {unit})"], rows)
 
 
 def write_report(
@@ -303,8 +295,9 @@ def write_report(
     results : Results
     title : str
     heal_report : object, optional
-        What geometry healing did (its ``str()`` is shown, and its
-        ``as_dict()`` scalars as a table); default ``model.meta["heal:report"]``.
+        What geometry healing did, shown as a table of its steps with locations
+        in the drawing's units (``model.meta["units"]``); default
+        ``model.meta["heal:report"]``.
     warnings : iterable
         Warning texts or ``warnings.WarningMessage`` objects to list.
     pictures, charts : sequence of path-like
@@ -404,7 +397,9 @@ def write_report(
         ))
     sections.append("\n".join(parts))
 
-    sections.append("<h2>Model healing</h2>\n" + _heal_section(heal))
+    sections.append(
+        "<h2>Model healing</h2>\n" + _heal_section(heal, model.meta.get("units"))
+    )
 
     rows = []
     for name, r in res_s.items():

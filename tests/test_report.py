@@ -26,22 +26,12 @@ PUBLISHED_U1_MM = np.array([-0.3024, -1.5177, 0.2688])
 PUBLISHED_N_MAX_COMPRESSION = -7968.1
 
 
-class _Heal:
-    """Stands in for a healing report: something with __str__ and as_dict."""
+def _heal_report() -> object:
+    """A real healing report: two line ends 0.4 mm apart are merged (tolerance 1 mm)."""
+    from spaceframe.geometry import heal
 
-    def __str__(self) -> str:
-        return "merged 2 nodes closer than 1 mm; split 1 member at a node"
-
-    def as_dict(self) -> dict[str, object]:
-        return {
-            "n_components": 1,
-            "steps": [
-                {"name": "merge_nodes", "count": 2, "locations": [[0.0, 0.0, 0.0]],
-                 "detail": "within 1 mm", "skipped": False},
-                {"name": "split_at_nodes", "count": 1, "locations": [],
-                 "detail": "", "skipped": False},
-            ],
-        }
+    nodes = np.array([[0.0, 0, 0], [1, 0, 0], [1.0004, 0, 0], [2, 0, 0]])
+    return heal(nodes, np.array([[0, 1], [2, 3]])).report
 
 
 @pytest.fixture
@@ -50,7 +40,8 @@ def results(ferreira: sf.Model) -> sf.Results:
     ferreira.add_group("strut", [2])
     ferreira.add_load("Q", [0], (2e3, 0.0, 1e3))
     ferreira.add_combination("ULS", {"P": 1.35, "Q": 1.5})
-    ferreira.meta["heal:report"] = _Heal()
+    ferreira.meta["heal:report"] = _heal_report()
+    ferreira.meta["units"] = {"name": "mm", "scale": 1e-3}
     return ferreira.solve()
 
 
@@ -87,9 +78,10 @@ def test_report_holds_the_figures_of_the_run(tmp_path: Path, results: sf.Results
     # Applied load totals: P is -10 kN along y (published example), Q as defined above.
     assert "<td>-10.00</td>" in text
     assert "1.350 x P + 1.500 x Q" in text
-    assert "merged 2 nodes closer than 1 mm" in text and ">n_components</td>" in text
-    assert ">merge_nodes</td><td>2</td><td>within 1 mm</td>" in text
-    assert "<th>locations</th>" not in text  # lists of coordinates stay out of the table
+    # One node merged away, located in the drawing's units (mm): x = 1000 mm.
+    assert 'merge_nodes</td><td>1</td>' in text and "(1000, 0, 0)" in text
+    assert "split_crossings</td><td>skipped</td>" in text
+    assert "locations in mm" in text
     assert ">strut</td>" in text and ">legs</td>" in text
 
 
