@@ -52,8 +52,11 @@ class Loaded:
         return self.model.solve(solver=solver)
 
 
-def load(path: str | os.PathLike[str]) -> Loaded:
+def load(path: str | os.PathLike[str], units: str | None = None) -> Loaded:
     """Load a model file (.toml) or, for checking, a bare drawing or mesh.
+
+    ``units`` is the length unit of a bare drawing that declares none (a model
+    file says it under ``geometry.file_units``).
 
     Raises
     ------
@@ -73,7 +76,7 @@ def load(path: str | os.PathLike[str]) -> Loaded:
         else:
             import spaceframe.io as sio
 
-            model = sio.read(p)
+            model = sio.read(p, units=units)
             loaded = Loaded(model, p, p.stem, p.with_name(p.stem + "-results"))
     caught = [str(x.message) for x in w if issubclass(x.category, SpaceframeWarning)]
     loaded.warnings.extend(m for m in caught if m not in loaded.warnings)
@@ -93,7 +96,8 @@ class CheckReport:
     supports: dict[str, int]
     cases: dict[str, dict[str, float]]
     healing: list[str]
-    stable: bool
+    units: str
+    stable: bool | None
     mechanism: str
     mechanism_nodes: list[int]
     warnings: list[str]
@@ -116,30 +120,52 @@ def _components(model: Model) -> int:
     return int(np.unique(labels[used]).size)
 
 
-def check(path: str | os.PathLike[str], progress: Progress = _noop) -> CheckReport:
-    """Read, heal, validate and diagnose stability without solving."""
+def check(
+    path: str | os.PathLike[str], progress: Progress = _noop, units: str | None = None
+) -> CheckReport:
+    """Read, heal, validate and diagnose stability without solving.
+
+    A bare drawing or mesh has no supports and no sections: its stability is
+    reported as not checked, and sections missing from a model are replaced by
+    EA = 1 for the (purely geometric) mechanism search, never for a solve.
+    """
+    import copy
+
     from spaceframe.analysis.stability import check_stability
 
     progress("read")
-    loaded = load(path)
+    loaded = load(path, units=units)
     m = loaded.model
     progress("check")
     lo, hi = m.extents()
     heal = m.meta.get("heal:report")
     # Locations in the drawing's own units, so the drafter can find them.
-    units = m.meta.get("units") or {"name": "m", "scale": 1.0}
+    drawn: dict[str, Any] = m.meta.get("units") or {"name": "m", "scale": 1.0}
     healing = (
-        [s.format(scale=units["scale"], unit=units["name"]) for s in heal.steps]
+        [s.format(scale=drawn["scale"], unit=drawn["name"]) for s in heal.steps]
         if heal is not None
         else []
     )
     restrained = m.restraint
-    mechanism, nodes, stable = "", [], True
-    try:
-        m.validate()
-        check_stability(m)
-    except MechanismError as exc:
-        stable, mechanism, nodes = False, str(exc), [int(i) for i in exc.nodes[:50]]
+    mechanism, nodes = "", []
+    stable: bool | None = True
+    unassigned = int(np.count_nonzero(~np.isfinite(m.area) | ~np.isfinite(m.E)))
+    if not restrained.any() and not (m.springs > 0).any() and loaded.project is None:
+        stable = None
+        mechanism = "not checked: a bare drawing or mesh has no supports (use a model file)"
+    else:
+        probe = m
+        if unassigned:
+            # Mechanisms depend on geometry and supports only: any positive EA shows them.
+            probe = copy.copy(m)
+            probe.area = np.where(np.isfinite(m.area), m.area, 1.0)
+            probe.E = np.where(np.isfinite(m.E), m.E, 1.0)
+            probe._cache = {}
+        try:
+            probe.validate()
+            check_stability(probe)
+        except MechanismError as exc:
+            stable, mechanism, nodes = False, str(exc), [int(i) for i in exc.nodes[:50]]
     cases = {
         name: {"Fx": float(lc.forces[:, 0].sum()), "Fy": float(lc.forces[:, 1].sum()),
                "Fz": float(lc.forces[:, 2].sum())}
@@ -150,7 +176,8 @@ def check(path: str | os.PathLike[str], progress: Progress = _noop) -> CheckRepo
         source=str(loaded.path),
         counts={"nodes": m.n_nodes, "members": m.n_members, "panels": m.n_panels,
                 "markers": int(m.markers.shape[0]), "cases": len(m.cases),
-                "combinations": len(m.combinations)},
+                "combinations": len(m.combinations),
+                "members without a section": unassigned},
         extents=(lo.tolist(), hi.tolist()),
         groups={g: int(ids.size) for g, ids in m.groups.items()},
         components=_components(m) if m.n_members else 0,
@@ -161,6 +188,8 @@ def check(path: str | os.PathLike[str], progress: Progress = _noop) -> CheckRepo
         },
         cases=cases,
         healing=healing,
+        units=(f"{drawn['name']} ({drawn.get('source', 'given')})"
+               if m.meta.get("units") else "m (model file)"),
         stable=stable,
         mechanism=mechanism,
         mechanism_nodes=nodes,

@@ -57,6 +57,7 @@ def build_parser() -> argparse.ArgumentParser:
         help="read, heal and check a model without solving",
     )
     p.add_argument("model", type=Path, help="model file (.toml) or a drawing/mesh")
+    p.add_argument("--units", help="length unit of a bare drawing that declares none, e.g. mm")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
 
     p = sub.add_parser(
@@ -158,6 +159,9 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
             *lo, *hi
         )
     )
+    out.line(f"drawing units: {rep.units}")
+    if c["members without a section"]:
+        out.line(f"members without a section: {c['members without a section']}")
     out.line(f"connected parts: {rep.components}")
     if rep.groups:
         out.table("groups", ["group", "members"], [[g, str(n)] for g, n in rep.groups.items()])
@@ -174,8 +178,12 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
         )
     for w in rep.warnings:
         out.line(f"warning: {w}")
-    out.line("stability: " + ("no mechanism found" if rep.stable else "UNSTABLE"))
-    if not rep.stable:
+    if rep.stable is None:
+        out.line(f"stability: {rep.mechanism}")
+    elif rep.stable:
+        out.line("stability: no mechanism found")
+    else:
+        out.line("stability: UNSTABLE")
         print(f"mechanism: {rep.mechanism}", file=sys.stderr)
 
 
@@ -220,9 +228,9 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
 
     ctx, progress = out.progress()
     with ctx:
-        rep = batch.check(args.model, progress=progress)
+        rep = batch.check(args.model, progress=progress, units=args.units)
     _print_check(out, rep, args.json)
-    return 0 if rep.stable else EXIT_UNSTABLE
+    return EXIT_UNSTABLE if rep.stable is False else 0
 
 
 def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:

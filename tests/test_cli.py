@@ -144,3 +144,24 @@ def test_view_screenshot_off_screen(canopy: Path, tmp_path: Path) -> None:
 
     img = np.asarray(Image.open(png))
     assert img.shape[:2] == (300, 400) and img.std() > 0
+
+
+def test_check_a_bare_drawing(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    import ezdxf
+
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 0  # unitless: the user must say
+    msp = doc.modelspace()
+    msp.add_line((0, 0, 0), (1000, 0, 0))
+    msp.add_line((0, 0, 0), (0, 1000, 500))
+    path = tmp_path / "sketch.dxf"
+    doc.saveas(path)
+    assert main(["check", str(path)]) == 2
+    assert "units=" in capsys.readouterr().err
+    assert main(["check", str(path), "--units", "mm", "--json"]) == 0
+    rep = json.loads(capsys.readouterr().out)
+    assert rep["stable"] is None and "no supports" in rep["mechanism"]
+    assert rep["counts"]["members without a section"] == 2
+    # 1000 drawing units of mm are 1 m.
+    assert rep["extents"] == [[0.0, 0.0, 0.0], [1.0, 1.0, 0.5]]
+    assert rep["units"].startswith("mm")
