@@ -6,6 +6,10 @@ import re
 import subprocess
 import sys
 from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -56,3 +60,16 @@ def test_readme_main_command_word_for_word(tmp_path: Path) -> None:
     assert "qualified engineer" in proc.stdout
     out = tmp_path / model.parent / "canopy-results"
     assert (out / "report.html").exists() or (out / "summary.json").exists()
+
+
+def test_readme_python_example_runs(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    readme = (ROOT / "README.md").read_text()
+    block = re.findall(r"```python\n(.*?)```", readme, re.S)[0]
+    monkeypatch.chdir(tmp_path)
+    scope: dict[str, Any] = {}
+    exec(compile(block, "README.md", "exec"), scope)
+    r = scope["r"]
+    # Ferreira (2010) §5.3 published u1 = (-0.3024, -1.5177, 0.2688) mm under
+    # 10 kN; the README's combination factors it by 1.5 (linear).
+    assert np.allclose(r.displacements[0] * 1e3 / 1.5, [-0.3024, -1.5177, 0.2688], atol=6e-5)
+    assert scope["model"].n_members == 4
