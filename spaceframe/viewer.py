@@ -44,9 +44,12 @@ __all__ = [
     "show",
 ]
 
-#: Above this many members the frame is drawn as lines rendered as tubes by
-#: the GPU: building real tube geometry for more costs seconds and gigabytes.
+#: Above this many members the frame is drawn as plain lines: building real
+#: tube geometry for more costs seconds and gigabytes.
 TUBE_LIMIT = 50_000
+
+#: Most load arrows drawn; beyond it every k-th loaded node gets one.
+MAX_ARROWS = 2000
 
 #: Camera presets: name -> (camera direction from the model, view-up vector).
 VIEWS: dict[str, tuple[tuple[float, float, float], tuple[float, float, float]]] = {
@@ -272,18 +275,24 @@ class FrameScene:
             legend = [[g, colors[k]] for k, g in enumerate(self.group_names)]
             if np.any(self.group_index < 0):
                 legend.append(["(no group)", _NO_GROUP_COLOR])
-        if model.n_members <= self.tube_limit:
+        large = model.n_members > self.tube_limit
+        if not large:
             p.add_mesh(deformed.tube(radius=self.radius, n_sides=10), **mesh_kw)
         else:
-            p.add_mesh(deformed, render_lines_as_tubes=True, line_width=3, **mesh_kw)
+            # Plain lines: tube geometry or tube shading of 10^5 lines costs
+            # seconds per picture in software rendering, for no gain at that density.
+            p.add_mesh(deformed, line_width=2, **mesh_kw)
         if legend:
             p.add_legend(legend, bcolor="white", face="rectangle", loc="lower right",
                          size=(0.3, 0.06 * len(legend)))
 
         if self.scale > 0 and np.any(res.displacements):
             undeformed = pv.PolyData(model.nodes.astype(float), lines=lines.ravel())
-            p.add_mesh(undeformed, color=_UNDEFORMED_COLOR, opacity=0.35, line_width=1,
-                       name="undeformed", pickable=False)
+            # Translucency needs depth sorting; for large models an opaque pale
+            # grey reads the same and renders far faster.
+            p.add_mesh(undeformed, color="gainsboro" if large else _UNDEFORMED_COLOR,
+                       opacity=1.0 if large else 0.35,
+                       line_width=1, name="undeformed", pickable=False)
         else:
             p.remove_actor("undeformed")
         self._draw_supports()
@@ -325,9 +334,13 @@ class FrameScene:
             self.plotter.remove_actor("loads")
             return
         factor = 0.1 * model.size / float(mag.max())
-        vec = forces[loaded]
+        idx = np.flatnonzero(loaded)
+        if idx.size > MAX_ARROWS:
+            # Every k-th loaded node: thousands of arrows are unreadable and slow.
+            idx = idx[:: -(-idx.size // MAX_ARROWS)]
+        vec = forces[idx]
         # Arrows end at the node they load: start one arrow length before it.
-        starts = self.deformed_nodes()[loaded] - factor * vec
+        starts = self.deformed_nodes()[idx] - factor * vec
         cloud = pv.PolyData(starts)
         cloud.point_data["force"] = vec
         arrows = cloud.glyph(orient="force", scale="force", factor=factor,

@@ -137,8 +137,10 @@ def test_picking_describes_members_and_nodes(results: sf.Results) -> None:
 def test_large_models_use_lines(results: sf.Results) -> None:
     scene = viewer.FrameScene(results, "wind", off_screen=True, window_size=SIZE, tube_limit=2)
     try:
-        prop = scene.plotter.actors["members"].prop
-        assert prop.render_lines_as_tubes
+        members = scene.plotter.actors["members"]
+        # Plain line cells (no tube polygons) beyond the tube limit: 3 lines here.
+        mesh = members.mapper.dataset
+        assert mesh.GetNumberOfLines() == 3 and mesh.GetNumberOfPolys() == 0
         assert scene.plotter.screenshot(return_img=True).std() > 0
     finally:
         scene.close()
@@ -182,3 +184,27 @@ def test_keys_and_slider_switch_cases(results: sf.Results) -> None:
         assert scene.case == "snow+wind"
     finally:
         scene.close()
+
+
+def test_load_arrows_thinned_on_large_models(monkeypatch: pytest.MonkeyPatch) -> None:
+    import sys
+
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "examples"))
+    import roof_grid
+
+    res = roof_grid.build().solve()
+    loaded = int(np.count_nonzero(np.linalg.norm(res["snow"].loads, axis=1)))
+
+    def arrow_points() -> int:
+        scene = viewer.FrameScene(res, "snow", off_screen=True, window_size=SIZE)
+        try:
+            return int(scene.plotter.actors["loads"].mapper.dataset.n_points)
+        finally:
+            scene.close()
+
+    every = arrow_points()
+    monkeypatch.setattr(viewer, "MAX_ARROWS", 10)
+    thinned = arrow_points()
+    # Every k-th loaded node with k = ceil(loaded / 10): ceil(loaded / k) arrows.
+    k = -(-loaded // 10)
+    assert thinned * loaded == every * (-(-loaded // k))
