@@ -325,6 +325,9 @@ def atomic_write(path: str | os.PathLike[str], save: Callable[[Path], None]) -> 
     tmp = Path(tmp_name)
     try:
         save(tmp)
+        # mkstemp makes the file private (0600); give it the mode any new file
+        # gets under the user's umask, as a plain open() would.
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, target)
     except OSError as exc:
         tmp.unlink(missing_ok=True)
@@ -333,6 +336,13 @@ def atomic_write(path: str | os.PathLike[str], save: Callable[[Path], None]) -> 
         tmp.unlink(missing_ok=True)
         raise
     return target
+
+
+def _umask() -> int:
+    """The process's umask (reading it means setting it: set it straight back)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 # ---------------------------------------------------------------------------

@@ -210,6 +210,11 @@ class RunOutcome:
 
 def _replace_folder(tmp: Path, final: Path) -> None:
     """Move a finished folder into place; an old one is removed only afterwards."""
+    # mkdtemp makes the folder private (0700); give it the mode a new folder
+    # gets under the user's umask, as a plain mkdir would.
+    mask = os.umask(0)
+    os.umask(mask)
+    os.chmod(tmp, 0o777 & ~mask)
     old = None
     if final.exists():
         old = final.with_name(f".{final.name}.old-{os.getpid()}")

@@ -165,3 +165,17 @@ def test_check_a_bare_drawing(tmp_path: Path, capsys: pytest.CaptureFixture[str]
     # 1000 drawing units of mm are 1 m.
     assert rep["extents"] == [[0.0, 0.0, 0.0], [1.0, 1.0, 0.5]]
     assert rep["units"].startswith("mm")
+
+
+def test_results_folder_gets_ordinary_permissions(canopy: Path, tmp_path: Path) -> None:
+    import os
+
+    mask = os.umask(0o022)
+    try:
+        out = tmp_path / "res"
+        assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 0
+        # As a plain mkdir and open() make them under umask 022 (common practice).
+        assert out.stat().st_mode & 0o777 == 0o755
+        assert (out / "results.dxf").stat().st_mode & 0o777 == 0o644
+    finally:
+        os.umask(mask)
