@@ -67,6 +67,11 @@ STEP_NAMES = (
 # problem in the drawing without flooding the log for a million-line file.
 _MAX_LOCATIONS = 10
 
+# A node moved by less than this fraction of the tolerance moved by
+# round-off (exactly coincident points in the drawing's own units that do
+# not coincide in metres), not by a drawing error.
+_ROUND_OFF = 1e-6
+
 # Queries go to the k-d tree in chunks of this many points so the (chunk, k)
 # result arrays stay a few tens of megabytes whatever the model size.
 _QUERY_CHUNK = 1 << 20
@@ -115,6 +120,10 @@ class StepReport:
     detail: str = ""
     skipped: bool = False
     seconds: float = 0.0
+    #: Lengths (m) quoted in the detail, and the detail with ``{0}``, ``{1}``
+    #: ... where they go, so that :meth:`format` prints them in drawing units.
+    lengths: tuple[float, ...] = ()
+    template: str = ""
 
     def format(self, scale: float = 1.0, unit: str = "m") -> str:
         """Describe the step with its locations in drawing units.
@@ -138,7 +147,10 @@ class StepReport:
             raise ModelError(f"scale must be a finite positive number; got {scale!r}") from None
         if not (math.isfinite(factor) and factor > 0):
             raise ModelError(f"scale must be a finite positive number; got {scale!r}")
-        text = f"{self.name}: {self.detail}"
+        detail = self.detail
+        if self.template:
+            detail = self.template.format(*(_unit_length(x, factor, unit) for x in self.lengths))
+        text = f"{self.name}: {detail}"
         locs = np.asarray(self.locations, dtype=np.float64).reshape(-1, 3) / factor
         if len(locs):
             points = "; ".join(f"({x:.6g}, {y:.6g}, {z:.6g})" for x, y, z in locs.tolist())
@@ -223,6 +235,12 @@ class HealResult:
         What each step did.
     n_raw_members : int
         Number of raw members given to :func:`heal` (for checking ids).
+    largest_move : float
+        Largest distance, m, a raw node moved by merging (never more than
+        the tolerance).
+    short_removed : (s,) int64
+        Raw members drawn with a length that merging made zero-length and
+        healing removed (shorter than the tolerance); they are warned about.
     """
 
     nodes: FloatArray
@@ -233,6 +251,8 @@ class HealResult:
     components: IntArray
     report: HealReport
     n_raw_members: int = -1
+    largest_move: float = 0.0
+    short_removed: IntArray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
 
 
 # ---------------------------------------------------------------------------
@@ -335,6 +355,18 @@ def _fmt_length(x: float) -> str:
     return f"{x:.4g} m"
 
 
+def _unit_length(x: float, scale: float, unit: str) -> str:
+    """Length in metres as short text in a drawing unit (``scale`` metres per unit)."""
+    return f"{x / scale:.4g} {unit}"
+
+
+def _step(name: str, count: int, locations: FloatArray, template: str,
+          lengths: tuple[float, ...] = ()) -> StepReport:
+    """A step report whose detail quotes ``lengths`` (m) through ``template``."""
+    detail = template.format(*(_fmt_length(x) for x in lengths))
+    return StepReport(name, count, locations, detail, lengths=lengths, template=template)
+
+
 def _rows(array: NDArray[Any], index: IntArray) -> NDArray[Any]:
     """``array[index]`` for row gathers on hot paths.
 
@@ -434,12 +466,71 @@ def _close_pairs(points: FloatArray, tol: float) -> tuple[IntArray, IntArray]:
     return rows[keep], cols[keep]
 
 
+#: Rounds of the vectorised centre clustering before the remaining
+#: (chained) points are settled one by one; see :func:`_merge_labels`.
+_CLUSTER_ROUNDS = 32
+
+
 def _merge_labels(points: FloatArray, tol: float) -> tuple[int, IntArray, IntArray]:
-    """Cluster points closer than ``tol``, transitively: (count, labels, first index)."""
+    """Cluster points around centres closer than ``tol``: (count, labels, centre index).
+
+    Greedy centre clustering in id order: a point not within ``tol`` of an
+    earlier centre becomes a centre, and every other point joins the
+    lowest-id centre within ``tol``.  So no point is ever more than ``tol``
+    from its cluster's kept position (single linkage would let a chain of
+    close points collapse to one however long it is), and two centres are
+    never closer than ``tol``.
+
+    The order is resolved in vectorised rounds over the close pairs: a point
+    is a member as soon as a lower neighbour is a centre, and a centre once
+    all its lower neighbours are members.  Joints settle in a few rounds; a
+    long chain of close points settles one point per round, so after
+    :data:`_CLUSTER_ROUNDS` rounds the rest (chains only, a handful of
+    points in real drawings) are settled by a plain loop in id order.
+    """
+    n = len(points)
     rows, cols = _close_pairs(points, tol)
-    count, labels = _ordered_labels(len(points), rows, cols)
-    first = _first_of_each_label(labels, count)
-    return count, labels, first
+    lo = np.minimum(rows, cols)
+    hi = np.maximum(rows, cols)
+    # 0 undecided, 1 centre, 2 member of an earlier centre
+    state = np.zeros(n, dtype=np.int8)
+    plo, phi = lo, hi
+    for _ in range(_CLUSTER_ROUNDS):
+        if plo.size == 0:
+            break
+        s_lo = state[plo]
+        joined = np.zeros(n, dtype=bool)
+        joined[phi[s_lo == 1]] = True
+        waiting = np.zeros(n, dtype=bool)
+        waiting[phi[s_lo == 0]] = True
+        undecided = state == 0
+        state[undecided & joined] = 2
+        state[undecided & ~joined & ~waiting] = 1
+        keep = state[phi] == 0
+        plo, phi = plo[keep], phi[keep]
+    if plo.size:
+        # Chains left after the rounds: settle them in id order (see above).
+        order = np.argsort(phi, kind="stable")
+        plo, phi = plo[order], phi[order]
+        starts = np.searchsorted(phi, np.unique(phi))
+        bounds = np.append(starts, phi.size)
+        for a, b in zip(bounds[:-1].tolist(), bounds[1:].tolist(), strict=True):
+            j = int(phi[a])
+            if state[j] == 0:
+                state[j] = 2 if bool(np.any(state[plo[a:b]] == 1)) else 1
+    state[state == 0] = 1
+    centres = np.flatnonzero(state == 1)
+    centre_rank = np.full(n, -1, dtype=np.int64)
+    centre_rank[centres] = np.arange(centres.size, dtype=np.int64)
+    labels = centre_rank.copy()
+    # Each member joins its lowest-id centre within tol (always a lower id).
+    link = state[lo] == 1
+    link &= state[hi] == 2
+    best = np.full(n, n, dtype=np.int64)
+    np.minimum.at(best, hi[link], lo[link])
+    members = np.flatnonzero(state == 2)
+    labels[members] = centre_rank[best[members]]
+    return int(centres.size), labels, centres
 
 
 # ---------------------------------------------------------------------------
@@ -448,13 +539,15 @@ def _merge_labels(points: FloatArray, tol: float) -> tuple[int, IntArray, IntArr
 
 
 def merge_close_nodes(nodes: ArrayLike, tolerance: float) -> tuple[FloatArray, IntArray]:
-    """Merge nodes closer than ``tolerance``, transitively.
+    """Merge nodes closer than ``tolerance`` to a kept node.
 
-    Nodes are linked when closer than ``tolerance`` and clusters are the
-    connected components of these links, so a chain of nodes each within
-    the tolerance of the next becomes one node even if its ends are further
-    apart.  The representative of a cluster is its first (lowest-id) node,
-    not the mean: its coordinates are exactly as drawn, merging does not move
+    Greedy centre clustering in id order: a node farther than ``tolerance``
+    from every earlier kept node is kept, and every other node merges into
+    the lowest-id kept node within ``tolerance``.  No node moves more than
+    the tolerance, however many close nodes are chained (a tie drawn as
+    short pieces keeps a node every tolerance along it), and no two kept
+    nodes are closer than the tolerance.  The kept node is a drawn node, not
+    the mean: its coordinates are exactly as drawn, merging does not move
     any node of a clean frame, and members drawn to that node keep their
     exact direction.
 
@@ -915,8 +1008,9 @@ def heal(
 
     Steps, in order (each can be switched off and is reported either way):
 
-    1. ``merge_nodes``: nodes closer than ``tolerance`` merge, transitively,
-       into the first node of each cluster.
+    1. ``merge_nodes``: nodes within ``tolerance`` of an earlier kept node
+       merge into it (see :func:`merge_close_nodes`); no node moves more
+       than ``tolerance``.
     2. ``remove_zero_length``: members whose two ends are now the same node
        are removed.
     3. ``split_at_nodes``: a member is split at every node closer than
@@ -968,6 +1062,7 @@ remove_duplicates, drop_unused_nodes : bool
     )
     tol_text = _fmt_length(tol)
     steps: list[StepReport] = []
+    largest_move = 0.0
 
     # 1. merge close nodes
     clock = time.perf_counter()
@@ -978,14 +1073,17 @@ remove_duplicates, drop_unused_nodes : bool
         multi = np.flatnonzero(sizes > 1)
         merged_nodes = int(sizes[multi].sum())
         spread = np.linalg.norm(raw_nodes - cur_nodes[node_map], axis=1)
-        if multi.size:
-            detail = (
-                f"merged {merged_nodes} nodes into {multi.size} (closer than {tol_text}); "
-                f"farthest merged node moved {_fmt_length(float(spread.max()))}"
-            )
+        largest_move = float(spread.max())
+        if multi.size and largest_move <= _ROUND_OFF * tol:
+            rep = _step("merge_nodes", n_raw - count, _first_locations(cur_nodes[multi]),
+                        f"merged {merged_nodes} nodes into {multi.size} (each within {{0}} "
+                        "of the node kept); they moved by round-off only", (tol,))
+        elif multi.size:
+            rep = _step("merge_nodes", n_raw - count, _first_locations(cur_nodes[multi]),
+                        f"merged {merged_nodes} nodes into {multi.size} (each within {{0}} "
+                        "of the node kept); largest move {1}", (tol, largest_move))
         else:
-            detail = f"no nodes closer than {tol_text}"
-        rep = StepReport("merge_nodes", n_raw - count, _first_locations(cur_nodes[multi]), detail)
+            rep = _step("merge_nodes", 0, _no_locations(), "no nodes closer than {0}", (tol,))
     elif merge_nodes:
         cur_nodes = raw_nodes.copy()
         node_map = np.zeros(0, dtype=np.int64)
@@ -1001,15 +1099,38 @@ remove_duplicates, drop_unused_nodes : bool
 
     # 2. zero-length members
     clock = time.perf_counter()
+    short_removed = np.zeros(0, dtype=np.int64)
     if remove_zero_length:
         zero = cur_members[:, 0] == cur_members[:, 1]
         n_zero = int(zero.sum())
-        rep = StepReport(
-            "remove_zero_length",
-            n_zero,
-            _first_locations(cur_nodes[cur_members[zero, 0]]),
-            f"removed {n_zero} zero-length members (both ends on the same node)",
-        )
+        # Members drawn with a length (not both ends on one point) that
+        # merging made zero-length were shorter than twice the tolerance.
+        drawn = raw_nodes[raw_members[zero, 1]] - raw_nodes[raw_members[zero, 0]]
+        drawn_len = np.linalg.norm(drawn, axis=1)
+        short_removed = origin[zero][drawn_len > 0]
+        if short_removed.size:
+            longest = float(drawn_len.max())
+            rep = _step(
+                "remove_zero_length", n_zero, _first_locations(cur_nodes[cur_members[zero, 0]]),
+                f"removed {n_zero} zero-length members (both ends on the same node), "
+                f"{short_removed.size} of them drawn with a length (up to {{0}}) and "
+                "shorter than the tolerance {1} apart after merging", (longest, tol))
+            warnings.warn(
+                f"healing removed {short_removed.size} drawn member(s) shorter than the "
+                f"merge tolerance {tol_text} (raw member ids "
+                + ", ".join(str(int(i)) for i in short_removed[:_MAX_LOCATIONS])
+                + (", ..." if short_removed.size > _MAX_LOCATIONS else "")
+                + "); if they are real members, lower the tolerance",
+                SpaceframeWarning,
+                stacklevel=2,
+            )
+        else:
+            rep = StepReport(
+                "remove_zero_length",
+                n_zero,
+                _first_locations(cur_nodes[cur_members[zero, 0]]),
+                f"removed {n_zero} zero-length members (both ends on the same node)",
+            )
         cur_members, origin = cur_members[~zero], origin[~zero]
     else:
         rep = _skipped("remove_zero_length")
@@ -1029,6 +1150,9 @@ remove_duplicates, drop_unused_nodes : bool
             _first_locations(cur_nodes[hn]),
             f"split {n_split} members at {hm.size} points where nodes lie on them "
             f"(within {tol_text}) into {n_split + hm.size} pieces",
+            lengths=(tol,),
+            template=f"split {n_split} members at {hm.size} points where nodes lie on them "
+            f"(within {{0}}) into {n_split + hm.size} pieces",
         )
     else:
         rep = _skipped("split_at_nodes")
@@ -1057,6 +1181,9 @@ remove_duplicates, drop_unused_nodes : bool
             n_new,
             _first_locations(new_pts),
             f"added {n_new} nodes where members cross (closer than {tol_text}) and split "
+            f"{n_split} members into {n_split + hm.size} pieces",
+            lengths=(tol,),
+            template=f"added {n_new} nodes where members cross (closer than {{0}}) and split "
             f"{n_split} members into {n_split + hm.size} pieces",
         )
     else:
@@ -1154,6 +1281,8 @@ remove_duplicates, drop_unused_nodes : bool
         components=labels,
         report=HealReport(steps, n_comp),
         n_raw_members=len(raw_members),
+        largest_move=largest_move,
+        short_removed=short_removed,
     )
 
 

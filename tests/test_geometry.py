@@ -136,14 +136,91 @@ def test_near_coincident_endpoints_outside_tolerance_stay_apart() -> None:
     np.testing.assert_array_equal(res.components, [0, 0, 1, 1])
 
 
-def test_transitive_chain_merges_into_first_node() -> None:
-    # Steps of 0.6 tol: each neighbour closer than tol, ends 1.8 tol apart.
+def test_chain_of_close_nodes_does_not_collapse() -> None:
+    # Steps of 0.6 tol, ends 1.8 tol apart.  Greedy centres in id order:
+    # 0 is kept, 0.6 joins it; 1.2 is 1.2 tol from 0 so it is kept, 1.8
+    # joins it.  Single linkage would collapse all four into one node and
+    # move the last one 1.8 tol.
     x = np.array([0.0, 0.6, 1.2, 1.8]) * TOL
     nodes = np.stack([x, np.zeros(4), np.zeros(4)], axis=1)
     unique, node_map = merge_close_nodes(nodes, TOL)
-    assert unique.shape == (1, 3)
-    np.testing.assert_array_equal(node_map, [0, 0, 0, 0])
-    np.testing.assert_array_equal(unique[0], nodes[0])
+    np.testing.assert_array_equal(node_map, [0, 0, 1, 1])
+    np.testing.assert_array_equal(unique, nodes[[0, 2]])
+
+
+def _greedy_reference(points: np.ndarray, tol: float) -> np.ndarray:
+    """Labels by the plain definition: O(n^2) loop, for checking only."""
+    centres: list[int] = []
+    labels = np.empty(len(points), dtype=np.int64)
+    for i, p in enumerate(points):
+        d = [np.linalg.norm(p - points[c]) for c in centres]
+        near = [k for k, v in enumerate(d) if v < tol]
+        if near:
+            labels[i] = near[0]
+        else:
+            labels[i] = len(centres)
+            centres.append(i)
+    return labels
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_merge_matches_the_greedy_definition_and_moves_no_node_beyond_tol(seed: int) -> None:
+    # 300 points in a 10 tol cube: dense clusters and chains of every kind.
+    pts = np.random.default_rng(seed).uniform(0, 10 * TOL, (300, 3))
+    unique, node_map = merge_close_nodes(pts, TOL)
+    np.testing.assert_array_equal(node_map, _greedy_reference(pts, TOL))
+    assert np.linalg.norm(pts - unique[node_map], axis=1).max() < TOL
+    # Kept nodes are at least tol apart (otherwise the later one would have joined).
+    gaps = np.linalg.norm(unique[:, None] - unique[None], axis=2)
+    assert gaps[np.triu_indices(len(unique), 1)].min() >= TOL
+
+
+def _tie_in_pieces(origin: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    # A 100 mm tie drawn as 200 pieces of 0.5 mm, then a 3 m post down from its end.
+    x = np.linspace(0.0, 0.1, 201)
+    tie = np.stack([x, np.zeros_like(x), np.full_like(x, 3.0)], axis=1)
+    nodes = np.vstack([tie, [[0.1, 0.0, 0.0]]]) + origin
+    members = np.array([[i, i + 1] for i in range(200)] + [[200, 201]])
+    return nodes, members
+
+
+@pytest.mark.parametrize("origin", [(0.0, 0.0, 0.0), (451234.0, 5712345.0, 0.0)])
+def test_tie_of_short_pieces_keeps_its_length_and_warns(origin: tuple[float, ...]) -> None:
+    nodes, members = _tie_in_pieces(np.array(origin))
+    with pytest.warns(SpaceframeWarning, match=r"removed \d+ drawn member\(s\) shorter than"):
+        res = heal(nodes, members)
+    # No node moves more than tol, so the tie keeps its 100 mm (to within
+    # tol), a kept node at least every 2 tol along it, and the post foot
+    # (a clean joint) does not move.
+    assert 0 < res.largest_move < TOL
+    assert np.ptp(res.nodes[:, 0]) > 0.1 - TOL
+    assert 0.1 / (2 * TOL) <= len(res.nodes) - 1 <= 0.1 / TOL + 1
+    foot = res.node_map[201]
+    np.testing.assert_array_equal(res.nodes[foot], nodes[201])
+    assert res.short_removed.size == 200 - (len(res.members) - 1)
+    assert res.short_removed.size > 50
+    text = res.report.step("merge_nodes").format(scale=0.001, unit="mm")
+    move = float(text.split("largest move ")[1].split(" mm")[0])
+    assert 0 < move <= 1.0  # printed to 4 digits; the exact value is < tol above
+
+
+def test_largest_move_is_shown_in_the_drawing_unit() -> None:
+    nodes = np.array([[0, 0, 0], [2, 0, 0], [2 + 0.4 * TOL, 0, 0], [2, 2, 0]])
+    res = heal(nodes, [[0, 1], [2, 3]])
+    step = res.report.step("merge_nodes")
+    assert "largest move 0.0004 m" in step.format(scale=1.0, unit="m")
+    assert "largest move 0.4 mm" in step.format(scale=0.001, unit="mm")
+    assert "within 1 mm" in step.format(scale=0.001, unit="mm")
+    np.testing.assert_allclose(res.largest_move, 0.4 * TOL, rtol=1e-12)
+
+
+def test_round_off_merge_is_not_printed_as_a_tiny_number() -> None:
+    # Points equal in millimetres that differ in metres by round-off.
+    a = np.array([1234.567, 0.0, 0.0]) * 0.001
+    b = a + np.array([2.36e-13, 0.0, 0.0])
+    res = heal(np.array([[0, 0, 0], a, b, [1.2, 1.0, 0.0]]), [[0, 1], [2, 3]])
+    text = res.report.step("merge_nodes").format(scale=1.0, unit="m")
+    assert "round-off only" in text and "e-" not in text
 
 
 def test_merge_is_not_transitive_through_gaps() -> None:
