@@ -705,6 +705,8 @@ def build_model(
         except ModelError as exc:
             raise ReadError(f"{where}: healing failed: {exc}") from exc
         nodes, members, node_map = result.nodes, result.members, result.node_map
+        if members.shape[0] == 0 and members0.shape[0]:
+            _no_members_left(nodes0, members0, tol, units, where)
         groups = remap_groups(raw_groups, result)
         node_sets = remap_node_sets(raw_node_sets, result)
         report = result.report
@@ -822,6 +824,23 @@ def build_model(
             stacklevel=3,
         )
     return model
+
+
+def _no_members_left(
+    nodes: np.ndarray, members: np.ndarray, tol: float, units: Units, where: str
+) -> None:
+    """ReadError for a heal that left no member: say why, in the file's unit."""
+    length = np.linalg.norm(nodes[members[:, 1]] - nodes[members[:, 0]], axis=1)
+    n = int(members.shape[0])
+    tol_text = f"{tol / units.scale:.4g} {units.name}"
+    longest = f"{float(length.max()) / units.scale:.4g} {units.name}"
+    if bool(np.all(length < tol)):
+        why = f"all {n} members are shorter than the tolerance {tol_text}"
+    else:
+        why = (f"all {n} members collapsed when nodes closer than the tolerance {tol_text} "
+               f"were merged (longest member {longest})")
+    raise ReadError(f"{where}: healing left no member: {why}: are the units right "
+                    f"(read as {units.name}, {units.source})?")
 
 
 def require_members(raw: RawGeometry, where: str, edges_as_members: bool, hint: str) -> None:
