@@ -146,6 +146,39 @@ def _check_panels(nodes: np.ndarray, panel_nodes: np.ndarray, panel_offsets: np.
                          f"which does not exist (nodes 0..{len(nodes) - 1})")
 
 
+#: A panel whose true area is below this fraction of the square of its size
+#: (largest corner distance from its centroid) has zero area: its corners
+#: coincide or lie on one line.  1e-8 is a sliver with an aspect ratio of
+#: about 1e8, far thinner than any panel drawn on purpose, and well above
+#: the round-off of corner coordinates at site coordinates (~1e-9 relative
+#: for a 1 m panel 6000 km from the origin).
+_ZERO_AREA = 1e-8
+
+
+def _refuse_zero_area(nodes: np.ndarray, panel_nodes: np.ndarray, owner: np.ndarray,
+                      vec: np.ndarray, sizes: np.ndarray, loaded: np.ndarray) -> None:
+    """ModelError naming the first loaded panel of zero area."""
+    k = sizes.size
+    area = np.linalg.norm(
+        np.stack([np.bincount(owner, vec[:, j], minlength=k) for j in range(3)], 1), axis=1
+    )
+    pts = nodes[np.asarray(panel_nodes, dtype=np.int64)]
+    centre = np.stack(
+        [np.bincount(owner, pts[:, j], minlength=k) for j in range(3)], axis=1
+    ) / np.maximum(sizes, np.ones_like(sizes))[:, None]
+    r2 = np.zeros(k)
+    np.maximum.at(r2, owner, np.einsum("ij,ij->i", pts - centre[owner], pts - centre[owner]))
+    flat = loaded & (area <= _ZERO_AREA * r2)
+    bad = np.flatnonzero(flat)
+    if bad.size:
+        i = int(bad[0])
+        raise ModelError(
+            f"load panel {i} has zero area (its corners coincide or lie on one line) and "
+            f"cannot carry an area load ({bad.size} such panel(s); first corners "
+            f"{pts[owner == i][:4].round(6).tolist()} m)"
+        )
+
+
 def panel_vector_areas(
     nodes: np.ndarray, panel_nodes: np.ndarray, panel_offsets: np.ndarray
 ) -> np.ndarray:
@@ -190,6 +223,7 @@ def panel_normal_loads(
     _check_panels(nodes, panel_nodes, panel_offsets)
     owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
     p = _per_panel(pressure, sizes.size, "pressure")
+    _refuse_zero_area(nodes, panel_nodes, owner, vec, sizes, p != 0)
     return _spread(nodes.shape[0], owner, a, b, sizes, -p[owner, None] * vec,
                    np.asarray(panel_nodes, dtype=np.int64))
 
@@ -202,6 +236,7 @@ def _vertical_load(
     _check_panels(nodes, panel_nodes, panel_offsets)
     owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
     q = _per_panel(load, sizes.size, "load")
+    _refuse_zero_area(nodes, panel_nodes, owner, vec, sizes, q != 0)
     # Each fan triangle's vector area: its z component is its plan area, its
     # length its true area.
     area = np.abs(vec[:, 2]) if plan else np.linalg.norm(vec, axis=1)
@@ -261,6 +296,11 @@ def panel_surface_loads(
 #: positions count as the same point, or the points as lying on one line:
 #: far below any node spacing, far above round-off.
 _PLAN_COINCIDENT = 1e-9
+
+#: Relative mismatch allowed between the sum of the tributary areas and the
+#: outline's area: round-off of the clipping is ~1e-15 per cell; 1e-9 still
+#: catches any lost or doubled cell.
+_AREA_SUM = 1e-9
 
 
 def _coincident_pair(pts: np.ndarray) -> tuple[int, int] | None:
@@ -374,6 +414,11 @@ def tributary_plan_areas(xy: Any, outline: Any = None) -> np.ndarray:
     if not np.all(np.isfinite(pts)):
         i = int(np.argwhere(~np.isfinite(pts))[0, 0])
         raise ModelError(f"tributary areas: point {i} is {pts[i].tolist()}")
+    # Work relative to a local origin: at site coordinates (~1e6 m) the
+    # bisector offsets and area cross products of absolute coordinates lose
+    # all their digits to cancellation.
+    local = 0.5 * (pts.min(axis=0) + pts.max(axis=0))
+    pts = pts - local
     same = _coincident_pair(pts)
     if same is not None:
         i, j = same
@@ -402,6 +447,7 @@ def tributary_plan_areas(xy: Any, outline: Any = None) -> np.ndarray:
             )
         if not np.all(np.isfinite(ring)):
             raise ModelError("tributary areas: outline has a non-finite coordinate")
+        ring = ring - local
         if np.allclose(ring[0], ring[-1]):
             ring = ring[:-1]
         ring_area = _padded_area(ring[None], np.array([ring.shape[0]]))[0]
@@ -431,7 +477,17 @@ def tributary_plan_areas(xy: Any, outline: Any = None) -> np.ndarray:
     count = np.full(k, ring.shape[0])
     for col in range(width):  # one pass per neighbour slot, all points at once
         poly, count = _clip(poly, count, W[:, col], C[:, col])
-    return _padded_area(poly, count)
+    areas = _padded_area(poly, count)
+    # The cells tile the plane, so the areas must add up to the outline's.
+    total = float(_padded_area(ring[None], np.array([ring.shape[0]]))[0])
+    got = float(areas.sum())
+    if not (math.isfinite(got) and abs(got - total) <= _AREA_SUM * total):
+        raise ModelError(
+            f"tributary areas: the {k} cells add up to {got:.6g} m^2 but the outline is "
+            f"{total:.6g} m^2; the plan positions may be too far from each other's scale "
+            "to resolve"
+        )
+    return areas
 
 
 def tributary_plan_loads(

@@ -204,3 +204,61 @@ def test_tributary_errors() -> None:
         tributary_plan_areas([[0, 0], [1, 1]])
     with pytest.raises(ModelError, match=r"shape \(3,\)"):
         tributary_plan_areas([1.0, 2.0, 3.0])
+
+
+# ------------------------------------------------------------ site coordinates
+#: A plan position of the kind a survey grid gives (UTM-like, metres).
+SITE = np.array([451234.0, 5712345.0])
+
+
+def test_random_roof_nodes_at_site_coordinates_share_the_outline_area() -> None:
+    # 30 random nodes on a 10 m x 10 m roof: the cells tile the outline, so
+    # they add up to its 100 m² wherever the roof is (closed form).
+    xy = np.random.default_rng(30).random((30, 2)) * 10.0
+    outline = np.array([[0, 0], [10, 0], [10, 10], [0, 10]], dtype=float)
+    here = tributary_plan_areas(xy, outline)
+    there = tributary_plan_areas(xy + SITE, outline + SITE)
+    assert there.sum() == pytest.approx(100.0, rel=1e-9)
+    np.testing.assert_allclose(there, here, rtol=1e-6, atol=1e-6)
+    # Default outline (the convex hull) too.
+    np.testing.assert_allclose(tributary_plan_areas(xy + SITE), tributary_plan_areas(xy),
+                               rtol=1e-6, atol=1e-6)
+
+
+def test_tributary_loads_at_site_coordinates() -> None:
+    # 3 x 3 nodes at 2 m on a 4 m x 4 m roof under 800 Pa: 12.8 kN in all,
+    # 3.2 kN on the middle node (a 2 m x 2 m cell), closed form.
+    xy = _grid(3, 3, 2.0, 2.0) + SITE
+    nodes = np.c_[xy, np.full(9, 5.0)]
+    f = tributary_plan_loads(nodes, np.arange(9), 800.0)
+    assert f[:, 2].sum() == pytest.approx(-12800.0, rel=1e-9)
+    assert f[4, 2] == pytest.approx(-3200.0, rel=1e-9)
+
+
+def test_panel_areas_and_normals_at_site_coordinates() -> None:
+    # A 3 m x 2 m panel sloping at 30 degrees about x: area 6 m², normal
+    # (0, -sin 30, cos 30) (right-hand rule), closed form.
+    c, s = math.cos(math.radians(30)), math.sin(math.radians(30))
+    local = np.array([[0, 0, 0], [3, 0, 0], [3, 2 * c, 2 * s], [0, 2 * c, 2 * s]])
+    for shift in (np.zeros(3), np.array([*SITE, 120.0])):
+        nodes, pn, po = _one((local + shift).tolist())
+        a = panel_vector_areas(nodes, pn, po)[0]
+        np.testing.assert_allclose(np.linalg.norm(a), 6.0, rtol=1e-9)
+        np.testing.assert_allclose(a / np.linalg.norm(a), [0, -s, c], atol=1e-9)
+        f = panel_plan_loads(nodes, pn, po, 1000.0)
+        # Plan area 3 m x 2 cos 30 m.
+        assert f[:, 2].sum() == pytest.approx(-1000.0 * 6 * c, rel=1e-9)
+
+
+def test_zero_area_panel_is_refused_by_id() -> None:
+    nodes = np.array([[0, 0, 0], [1, 0, 0], [1, 1, 0], [0, 1, 0], [2, 0, 0], [3, 0, 0.0]])
+    # Panel 1 has its three corners on one line (the x axis).
+    pn = np.array([0, 1, 2, 3, 1, 4, 5])
+    po = np.array([0, 4, 7])
+    with pytest.raises(ModelError, match="load panel 1 has zero area"):
+        panel_plan_loads(nodes, pn, po, 1000.0)
+    with pytest.raises(ModelError, match="load panel 1 has zero area"):
+        panel_normal_loads(nodes, pn, po, [0.0, 500.0])
+    # Not loaded: no complaint, and the other panel carries its 1 m² load.
+    f = panel_surface_loads(nodes, pn, po, [1000.0, 0.0])
+    assert f[:, 2].sum() == pytest.approx(-1000.0, rel=1e-12)
