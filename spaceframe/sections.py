@@ -93,12 +93,28 @@ class Section:
         return math.sqrt(self.second_moment / self.area)
 
 
-def _positive(section: str, **values: float) -> None:
+#: Largest section dimension accepted, m.  No member of a frame is a
+#: kilometre thick, so a larger value is a slip of units or a typing error;
+#: the bound also keeps D⁴ (and the area and second moment from it) far
+#: inside the floating-point range.  Areas and second moments are bounded
+#: by its square and fourth power.
+MAX_DIMENSION = 1.0e3
+
+
+def _positive(section: str, power: int = 1, **values: float) -> None:
+    """Finite, positive values; of length to ``power`` below MAX_DIMENSION**power (0: no bound)."""
+    limit = MAX_DIMENSION**power
+    unit = "m" if power == 1 else f"m^{power}"
     for key, value in values.items():
         if isinstance(value, bool) or not isinstance(value, int | float):
             raise ModelError(f"section {section!r}: {key} = {value!r} must be a number")
         if not (math.isfinite(value) and value > 0):
             raise ModelError(f"section {section!r}: {key} = {value!r} must be positive")
+        if power and value > limit:
+            raise ModelError(
+                f"section {section!r}: {key} = {value:.6g} {unit} is larger than "
+                f"{limit:.6g} {unit}: check the units"
+            )
 
 
 def circular_hollow(name: str, diameter: float, thickness: float) -> Section:
@@ -172,7 +188,8 @@ def cable(name: str, diameter: float, fill: float = SPIRAL_STRAND_FILL) -> Secti
     ModelError
         On a non-positive diameter or a fill factor outside (0, 1].
     """
-    _positive(name, diameter=diameter, fill=fill)
+    _positive(name, diameter=diameter)
+    _positive(name, power=0, fill=fill)
     if fill > 1:
         raise ModelError(f"section {name!r}: fill = {fill!r} must not exceed 1")
     return Section(
@@ -328,7 +345,7 @@ def user_section(name: str, area: float, second_moment: float | None = None) -> 
     ModelError
         On a non-positive area or a negative second moment.
     """
-    _positive(name, area=area)
+    _positive(name, power=2, area=area)
     if second_moment is not None:
         if isinstance(second_moment, bool) or not isinstance(second_moment, int | float):
             raise ModelError(
@@ -338,6 +355,8 @@ def user_section(name: str, area: float, second_moment: float | None = None) -> 
             raise ModelError(
                 f"section {name!r}: second_moment = {second_moment!r} must not be negative"
             )
+        if second_moment > 0:
+            _positive(name, power=4, second_moment=second_moment)
     return Section(
         name=name,
         shape="user",

@@ -172,3 +172,20 @@ def test_bad_dimensions_are_refused(build: object, fragment: str) -> None:
     with pytest.raises(ModelError) as info:
         build()  # type: ignore[operator]
     assert "'c'" in str(info.value) and fragment in str(info.value)
+
+
+@pytest.mark.parametrize(
+    ("build", "fragment"),
+    [
+        (lambda: round_bar("huge", 1e200), r"diameter = 1e\+200 m is larger than 1000 m"),
+        (lambda: circular_hollow("huge", 1e200, 1.0), "diameter = 1e\\+200 m"),
+        (lambda: cable("huge", 1e155), "diameter = 1e\\+155 m"),
+        (lambda: square_hollow("huge", 1e120, 0.01), "width = 1e\\+120 m"),
+        (lambda: user_section("huge", 1e300), r"area = 1e\+300 m\^2 is larger than 1e\+06 m\^2"),
+        (lambda: user_section("huge", 1.0, 1e300), r"second_moment = 1e\+300 m\^4"),
+    ],
+)
+def test_overflowing_dimensions_are_refused_not_raised(build: object, fragment: str) -> None:
+    # 1e200**2 overflows a double (max ~1.8e308): the dimension is refused by name.
+    with pytest.raises(ModelError, match=fragment):
+        build()  # type: ignore[operator]
