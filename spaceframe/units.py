@@ -174,6 +174,8 @@ def _check_unit_text(unit: str, original: str) -> str:
         top = inner
     if "(" in top or ")" in top:
         raise ModelError(f"{original!r}: unbalanced parentheses")
+    if re.search(r"\(\s*\)", text):
+        raise ModelError(f"{original!r}: empty parentheses in the unit")
     # pint reads 'a/b*c' as (a/b)*c while engineers often mean a/(b*c): refuse to guess.
     _, slash, tail = top.partition("/")
     if slash and ("/" in tail or " " in tail or "*" in tail.replace("**", "")):
@@ -217,8 +219,12 @@ def _pint_si(unit: str, kind: Kind, original: str) -> float:
         parsed = ureg.parse_units(unit)
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError) as exc:
         raise ModelError(f"{original!r}: unknown unit {unit!r} ({exc})") from None
-    except (ValueError, TypeError, AttributeError, SyntaxError) as exc:
-        raise ModelError(f"{original!r}: cannot read the unit {unit!r} ({exc})") from None
+    except (ValueError, TypeError, AttributeError, SyntaxError, AssertionError,
+            RecursionError, ZeroDivisionError, OverflowError) as exc:
+        # pint's expression parser fails on some malformed input ("m()")
+        # with an internal assertion rather than its own error.
+        why = str(exc) or type(exc).__name__
+        raise ModelError(f"{original!r}: cannot read the unit {unit!r} ({why})") from None
     one = ureg.Quantity(1.0, parsed).to_base_units().magnitude
     two = ureg.Quantity(2.0, parsed).to_base_units().magnitude
     if not math.isclose(two, 2.0 * one, rel_tol=1e-12):

@@ -146,3 +146,16 @@ def test_pint_is_imported_only_for_strings_outside_the_table() -> None:
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.split()
     assert out == ["False", "True"]
+
+
+@pytest.mark.parametrize(
+    ("text", "fragment"),
+    [
+        ("2 m()", "empty parentheses"),
+        ("2 m*()", "empty parentheses"),
+        ("2 m(*)", "cannot read the unit"),  # pint's parser asserts internally here
+    ],
+)
+def test_malformed_unit_expressions_are_model_errors(text: str, fragment: str) -> None:
+    with pytest.raises(ModelError, match=fragment):
+        parse_quantity(text, "length")
