@@ -66,6 +66,12 @@ RESTRAINT_ALIASES: Mapping[str, str] = {"pinned": "xyz", "fixed": "xyz", "roller
 #: section and most likely a millimetre value read as metres.
 _IMPLAUSIBLE_SECTION_SIZE = 2.0
 
+#: Largest geometric tolerance accepted, as a fraction of the shortest
+#: member.  Below half, a point selection within the tolerance of a node
+#: cannot reach the node at the other end of any member, and a box widened
+#: by it cannot take in a neighbour that lies outside by a member length.
+_TOLERANCE_FRACTION = 0.5
+
 _MISSING: Any = object()
 _BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
 
@@ -151,8 +157,16 @@ def parse_project(text: str, path: Path) -> Project:
         As :func:`load_project`.
     """
     path = Path(path)
-    spec = _parse(text, path)
-    return _build(spec)
+    # A byte-order mark, written by some Windows editors, is not part of TOML.
+    text = text.removeprefix("\ufeff")
+    try:
+        spec = _parse(text, path)
+        return _build(spec)
+    except RecursionError:
+        raise ProjectError(
+            f"{path.name}: arrays or tables are nested too deeply to read "
+            "(hundreds of levels; a model file needs a few)"
+        ) from None
 
 
 # ============================================================ parsed objects
@@ -169,6 +183,8 @@ class _Geometry:
     groups: dict[str, np.ndarray]
     node_sets: dict[str, np.ndarray]
     panels: dict[str, list[np.ndarray]]
+    #: The tolerance as written (None: the default), for messages.
+    tolerance_raw: Any = None
 
 
 @dataclass
@@ -682,7 +698,7 @@ def _parse_geometry(ctx: _Ctx, t: _Table | None) -> _Geometry:
             panels[name] = group
     t.done()
     return _Geometry(file_path, t.path("file"), file_units, heal, float(tolerance), options,
-                     nodes, members, groups, node_sets, panels)
+                     nodes, members, groups, node_sets, panels, t.data.get("tolerance"))
 
 
 def _inline_sets(ctx: _Ctx, t: _Table | None, size: int, what: str) -> dict[str, np.ndarray]:
@@ -951,6 +967,9 @@ def _parse_loads(ctx: _Ctx, t: _Table | None) -> dict[str, _Case]:
                 if factor <= 0:
                     ctx.fail(s.path("factor"), sw["factor"], "must be positive")
                 g = s.quantity("g", "acceleration", STANDARD_GRAVITY)
+                if not g > 0:
+                    ctx.fail(s.path("g"), sw["g"], "must be positive: self-weight acts along -z "
+                             "by definition (use nodal loads for another direction)")
                 members = (_selector(ctx, s.path("members"), s.raw("members"))
                            if s.has("members") else None)
                 s.done()
@@ -1157,6 +1176,7 @@ def _build(spec: _Spec) -> Project:
     reader_notes = [str(w.message) for w in captured if issubclass(w.category, SpaceframeWarning)]
 
     tol = geo.tolerance
+    _check_tolerance_scale(spec, model)
 
     def pick(selector: sel.Selector, target: sel.Target, where: str) -> np.ndarray:
         try:
@@ -1203,6 +1223,29 @@ def _build(spec: _Spec) -> Project:
         heal_report=model.meta.get("heal:report"),
         sections=spec.sections,
         materials={**PRESETS, **spec.materials},
+    )
+
+
+def _check_tolerance_scale(spec: _Spec, model: Model) -> None:
+    """Refuse a tolerance that is not small against the shortest member."""
+    if model.n_members == 0:
+        return
+    ends = model.members
+    length = np.linalg.norm(model.nodes[ends[:, 1]] - model.nodes[ends[:, 0]], axis=1)
+    i = int(np.argmin(length))
+    shortest = float(length[i])
+    tol = spec.geometry.tolerance
+    if tol < _TOLERANCE_FRACTION * shortest:
+        return
+    unit = spec.units.names.get("length", "m")
+    scale = spec.units.factors.get("length", 1.0)
+    raw = spec.geometry.tolerance_raw
+    hint = (f": a plain number is in [units] length ({unit}); give the unit, "
+            "e.g. tolerance = \"2 mm\"" if not isinstance(raw, str) else "")
+    raise ProjectError(
+        f"{spec.path.name}: geometry.tolerance = {tol / scale:.6g} {unit} is not less than "
+        f"{_TOLERANCE_FRACTION:g} x the shortest member (member {i}, {shortest / scale:.6g} "
+        f"{unit} long){hint}"
     )
 
 

@@ -464,6 +464,21 @@ ERRORS: list[tuple[str, Edit, str, str]] = [
     ("output not a string", sub('output = "out"', "output = 3"), "output", "3"),
     ("factor not a number", sub("SLS = { dead = 1.0", 'SLS = { dead = "1.0"'),
      "combinations.SLS.dead", "'1.0'"),
+    # The shortest canopy member is a diagonal of sqrt(3) = 1.732 m: a plain 2 is
+    # 2 m ([units] length), more than half of it.
+    ("tolerance as long as a member", sub("[geometry]\n", "[geometry]\ntolerance = 2\n"),
+     "geometry.tolerance = 2 m", "shortest member (member 16, 1.73205 m long): a plain number"),
+    ("tolerance with a malformed unit", sub("[geometry]\n", '[geometry]\ntolerance = "2 m()"\n'),
+     "geometry.tolerance", "empty parentheses"),
+    ("upward gravity", sub("self_weight = { factor = 1.1 }",
+                           'self_weight = { factor = 1.1, g = "-9.81 m/s^2" }'),
+     "loads.dead.self_weight.g", "must be positive"),
+    ("zero gravity", sub("self_weight = { factor = 1.1 }", "self_weight = { g = 0 }"),
+     "loads.dead.self_weight.g", "must be positive"),
+    ("overflowing section", sub("diameter = 88.9", "diameter = 1e200"), "sections.chord",
+     "larger than 1000 m"),
+    ("zero-area panel", sub("[4, 5, 8, 7]]", "[4, 5, 8, 7], [0, 1, 2]]"), "loads.dead.area[0]",
+     "load panel 4 has zero area"),
 ]
 
 
@@ -516,3 +531,55 @@ def test_the_documented_example_runs(tmp_path: Path) -> None:
     # Suction of 0.6 kN/m² on the upward-facing roof lifts it: reactions pull down.
     assert r["wind_up"].reaction_total[2] == pytest.approx(-0.6e3 * 16, rel=1e-9)
     assert set(p.envelope_results(r)) == {"ULS"}
+
+
+# -------------------------------------------------- odd files and site coordinates
+def test_byte_order_mark_is_accepted(tmp_path: Path) -> None:
+    path = tmp_path / "canopy.toml"
+    path.write_bytes(b"\xef\xbb\xbf" + CANOPY.encode("utf-8"))
+    assert load_project(path).model.n_members == 32
+
+
+@pytest.mark.parametrize(
+    "extra",
+    ["\ndeep = " + "[" * 1000 + "]" * 1000 + "\n",
+     "\n[" + ".".join(["a"] * 2000) + "]\n"],
+    ids=["nested arrays", "nested table header"],
+)
+def test_deep_nesting_is_one_line(tmp_path: Path, extra: str) -> None:
+    with pytest.raises(ProjectError, match=r"^canopy\.toml: arrays or tables are nested too "
+                                           r"deeply to read") as info:
+        load_project(write(tmp_path, CANOPY + extra))
+    assert "\n" not in str(info.value)
+
+
+def _at_site(text: str, dx: float, dy: float) -> str:
+    """The canopy moved in plan: every coordinate triple before the supports."""
+    head, tail = text.split("[[supports]]", 1)
+
+    def shift(m: re.Match[str]) -> str:
+        x, y, z = (float(v) for v in m.groups())
+        return f"[{x + dx!r}, {y + dy!r}, {z!r}]"
+
+    head = re.sub(r"\[(-?[\d.]+), (-?[\d.]+), (-?[\d.]+)\]", shift, head)
+    return head + "[[supports]]" + tail
+
+
+def test_loads_and_selections_at_site_coordinates(tmp_path: Path) -> None:
+    # The canopy moved to a survey grid position (UTM-like, m).  Plan snow of
+    # 0.8 kN/m^2 on the 4 m x 4 m roof is 12.8 kN whether it goes through the
+    # panels or through the tributary areas of the top nodes (closed form).
+    here = load_project(write(tmp_path, CANOPY))
+    there = load_project(write(tmp_path, _at_site(CANOPY, 451234.3, 5712345.7), "site.toml"))
+    np.testing.assert_allclose(there.model.nodes[:, :2] - [451234.3, 5712345.7],
+                               here.model.nodes[:, :2], atol=1e-9)
+    r = there.solve()
+    for case in ("snow", "snow_lines"):
+        assert r[case].applied_total[2] == pytest.approx(-12.8e3, rel=1e-9), case
+    # Selections pick the same nodes: the corner supports and the centre box node.
+    r0 = here.solve()
+    np.testing.assert_allclose(r["service"].loads, r0["service"].loads, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(r["snow_lines"].loads, r0["snow_lines"].loads, rtol=1e-9,
+                               atol=1e-9)
+    np.testing.assert_allclose(r["ULS"].axial_forces, r0["ULS"].axial_forces, rtol=1e-6,
+                               atol=1e-3)
