@@ -343,6 +343,29 @@ def _check_tolerance(tolerance: float, what: str = "tolerance") -> float:
     return tol
 
 
+#: Float64 coordinates carry a round-off of about ``eps * |x|``; healing
+#: needs it to be this many times smaller than the tolerance, or distances
+#: compared with the tolerance are round-off (and squared distances in the
+#: k-d tree overflow long before the coordinates do).
+_RESOLUTION = 1.0e3
+
+
+def _check_resolution(nodes: FloatArray, tol: float) -> None:
+    """ModelError when coordinates are too large to resolve the tolerance."""
+    if len(nodes) == 0:
+        return
+    big = float(np.abs(nodes).max())
+    with np.errstate(over="ignore", invalid="ignore"):
+        span = float(np.max(nodes.max(axis=0) - nodes.min(axis=0)))
+    limit = tol / (_RESOLUTION * float(np.finfo(np.float64).eps))
+    if not (math.isfinite(span) and big <= limit):
+        raise ModelError(
+            f"coordinates reach {big:.3g} m (the frame is {span:.3g} m across): at that size "
+            f"a tolerance of {_fmt_length(tol)} cannot be resolved (coordinates must stay "
+            f"within {limit:.3g} m of the origin): are the units right?"
+        )
+
+
 # ---------------------------------------------------------------------------
 # Small array helpers
 # ---------------------------------------------------------------------------
@@ -1061,6 +1084,7 @@ remove_duplicates, drop_unused_nodes : bool
         else _as_ids(keep_nodes, n_raw, "keep_nodes")
     )
     tol_text = _fmt_length(tol)
+    _check_resolution(raw_nodes, tol)
     steps: list[StepReport] = []
     largest_move = 0.0
 

@@ -660,3 +660,15 @@ def test_healing_invariant_under_rigid_motion(
     assert (len(base.nodes), len(base.members)) == grid_counts(nx, ny)
     assert [s.count for s in moved.report.steps] == [s.count for s in base.report.steps]
     np.testing.assert_array_equal(moved.origin, base.origin)
+
+
+def test_coordinates_too_large_for_the_tolerance_are_refused() -> None:
+    # float64 spacing near 1e10 m is ~2e-6 m; the bound is eps * |x| * 1000 <= tol.
+    nodes = np.array([[0.0, 0, 0], [1e10, 0, 0], [0, 1, 0], [4e307, 0, 0]])
+    with pytest.raises(ModelError, match=r"coordinates reach 4e\+307 m"):
+        heal(nodes, [[0, 1], [2, 3]])
+    with pytest.raises(ModelError, match=r"coordinates reach 1e\+10 m.*within 4\.5e\+09 m"):
+        heal(nodes[:3], [[0, 1], [0, 2]])
+    # Site coordinates (a survey grid in metres) are far inside the bound.
+    site = nodes[:3] * [1e-5, 1, 1] + [451234.0, 5712345.0, 0.0]
+    assert len(heal(site, [[0, 1], [0, 2]]).members) == 2

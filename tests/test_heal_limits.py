@@ -43,3 +43,12 @@ def test_the_same_drawing_in_millimetres_reads(tmp_path: Path) -> None:
     feet = [(0.0, 0.0, 0.0), (300.0, 0.0, 0.0), (0.0, 300.0, 0.0)]
     model = sfio.read(_dxf(tmp_path / "mm.dxf", [(f, top) for f in feet], insunits=4))
     assert (model.n_nodes, model.n_members) == (4, 3)
+
+
+def test_drawing_too_wide_to_resolve_the_tolerance_is_refused(tmp_path: Path) -> None:
+    # 4e307 m wide: squared distances overflow float64 (max ~1.8e308) and
+    # round-off (eps * 4e307 ~ 1e292 m) dwarfs the 1 mm tolerance.
+    lines = [((0.0, 0.0, 0.0), (4e307, 0.0, 0.0)), ((0.0, 0.0, 0.0), (0.0, 1.0, 0.0))]
+    path = _dxf(tmp_path / "wide.dxf", lines, insunits=6)
+    with pytest.raises(ReadError, match=r"coordinates reach 4e\+307 m .* cannot be resolved"):
+        sfio.read(path)
