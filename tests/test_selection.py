@@ -164,3 +164,21 @@ def test_conversions_are_vectorised_masks(model: sf.Model) -> None:
     assert np.flatnonzero(
         s.nodes_of_panels(model.panel_nodes, model.panel_offsets, panels, 13)
     ).tolist() == [4, 5, 7, 8]
+
+
+def test_selections_at_site_coordinates() -> None:
+    # The same grid on a survey grid position (UTM-like, m): every geometric
+    # selection picks the same ids as at the origin.
+    shift = np.array([451234.3, 5712345.7, 87.0])
+    m = grid()
+    m.nodes = m.nodes + shift
+    m.markers = m.markers + shift
+    ox, oy, oz = shift.tolist()
+    box = s.Box((ox, oy, oz), (ox + 1.9995, oy + 1.9995, oz + 1))
+    assert ids(m, box) == [0, 1, 3, 4, 9]
+    assert ids(m, box, tolerance=1e-4) == [0, 9]
+    assert ids(m, s.Plane((0, 0, 1), "min")) == BOTTOM
+    assert ids(m, s.Plane((1, 0, 0), ox + 4.0)) == [2, 5, 8]
+    assert ids(m, s.Plane((1, 1, 0), (ox + oy + 4) / np.sqrt(2))) == [2, 4, 6, 10, 11]
+    assert ids(m, s.Markers(("SUPPORTS",))) == [0, 2, 6, 8]
+    assert ids(m, s.Points(((ox + 2, oy + 2, oz + 1.0005), (ox + 1, oy + 1, oz)))) == [4, 9]
