@@ -14,8 +14,10 @@ import pytest
 import spaceframe.io as sfio
 from spaceframe.errors import ReadError
 
+Line = tuple[tuple[float, ...], tuple[float, ...]]
 
-def _dxf(path: Path, lines: list[tuple[tuple[float, ...], tuple[float, ...]]], insunits: int) -> Path:
+
+def _dxf(path: Path, lines: list[Line], insunits: int) -> Path:
     doc = ezdxf.new()
     doc.header["$INSUNITS"] = insunits
     msp = doc.modelspace()
