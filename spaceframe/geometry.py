@@ -39,6 +39,7 @@ __all__ = [
     "HealReport",
     "HealResult",
     "StepReport",
+    "check_coordinate_range",
     "connected_components",
     "find_mid_member_nodes",
     "heal",
@@ -364,6 +365,18 @@ def _check_resolution(nodes: FloatArray, tol: float) -> None:
             f"a tolerance of {_fmt_length(tol)} cannot be resolved (coordinates must stay "
             f"within {limit:.3g} m of the origin): are the units right?"
         )
+
+
+def check_coordinate_range(nodes: ArrayLike, tolerance: float = GEOMETRY_TOLERANCE) -> None:
+    """Refuse coordinates too large for ``tolerance`` (m) to be resolved in float64.
+
+    Raises
+    ------
+    ModelError
+        When some coordinate exceeds ``tolerance / (1000 eps)`` (4.5e9 m at
+        1 mm) or the frame's extent is not finite, naming both.
+    """
+    _check_resolution(_as_nodes(nodes), _check_tolerance(tolerance))
 
 
 # ---------------------------------------------------------------------------

@@ -37,6 +37,7 @@ import numpy as np
 from spaceframe import loads as load_math
 from spaceframe import selection as sel
 from spaceframe.errors import ModelError, ProjectError, SpaceframeError, SpaceframeWarning
+from spaceframe.geometry import check_coordinate_range
 from spaceframe.materials import PRESETS, Material, preset
 from spaceframe.model import STANDARD_GRAVITY, Model
 from spaceframe.sections import (
@@ -1227,7 +1228,11 @@ def _build(spec: _Spec) -> Project:
 
 
 def _check_tolerance_scale(spec: _Spec, model: Model) -> None:
-    """Refuse a tolerance that is not small against the shortest member."""
+    """Refuse a tolerance that is not small against the shortest member (or the coordinates)."""
+    try:
+        check_coordinate_range(model.nodes, spec.geometry.tolerance)
+    except ModelError as exc:
+        raise ProjectError(f"{spec.path.name}: geometry: {exc}") from None
     if model.n_members == 0:
         return
     ends = model.members

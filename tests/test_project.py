@@ -477,6 +477,8 @@ ERRORS: list[tuple[str, Edit, str, str]] = [
      "loads.dead.self_weight.g", "must be positive"),
     ("overflowing section", sub("diameter = 88.9", "diameter = 1e200"), "sections.chord",
      "larger than 1000 m"),
+    ("coordinates beyond resolution", sub("[2, 0, 1], [4, 0, 1]", "[4e307, 0, 1], [4, 0, 1]"),
+     "geometry", "coordinates reach 4e+307 m"),
     ("zero-area panel", sub("[4, 5, 8, 7]]", "[4, 5, 8, 7], [0, 1, 2]]"), "loads.dead.area[0]",
      "load panel 4 has zero area"),
 ]
