@@ -247,7 +247,10 @@ def test_zero_length_and_duplicate_members_keep_groups_of_both() -> None:
     )
     members = np.array([[0, 1], [1, 0], [1, 2], [1, 3], [3, 2]])
     # Member 1 is member 0 reversed; member 4 (3 -> 2 = 3 -> 1) duplicates member 3.
-    res = heal(nodes, members)
+    # Member 2 was drawn 0.3 tol long: its removal is warned about.
+    with pytest.warns(SpaceframeWarning, match=r"removed 1 drawn member\(s\) shorter .* ids 2\)"):
+        res = heal(nodes, members)
+    np.testing.assert_array_equal(res.short_removed, [2])
     np.testing.assert_array_equal(res.members, [[0, 1], [1, 2]])
     np.testing.assert_array_equal(res.origin, [0, 3])
     np.testing.assert_array_equal(res.duplicates, [[1, 0], [4, 1]])

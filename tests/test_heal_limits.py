@@ -12,7 +12,7 @@ import ezdxf
 import pytest
 
 import spaceframe.io as sfio
-from spaceframe.errors import ReadError
+from spaceframe.errors import ReadError, SpaceframeWarning
 
 Line = tuple[tuple[float, ...], tuple[float, ...]]
 
@@ -35,7 +35,8 @@ def test_drawing_whose_members_all_heal_away_is_refused(tmp_path: Path) -> None:
     feet = [(0.0, 0.0, 0.0), (0.3e-3, 0.0, 0.0), (0.0, 0.3e-3, 0.0)]
     path = _dxf(tmp_path / "tiny.dxf", [(f, top) for f in feet], insunits=6)
     with pytest.raises(ReadError, match=r"all 3 members are shorter than the tolerance "
-                                        r"0\.001 m: are the units right") as info:
+                                        r"0\.001 m: are the units right") as info, \
+            pytest.warns(SpaceframeWarning, match="removed 3 drawn member"):
         sfio.read(path)
     assert "\n" not in str(info.value)
 
