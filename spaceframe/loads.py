@@ -406,7 +406,10 @@ def tributary_plan_areas(xy: Any, outline: Any = None) -> np.ndarray:
     ------
     ModelError
         On bad shapes or values, two points at the same plan position, points
-        on one line without an outline, or an outline of zero area.
+        on one line without an outline, an outline of zero area, or cells
+        that do not add up to the outline's area (an outline that crosses
+        itself).  The work is done relative to the centre of the points, so
+        site coordinates give the same areas as coordinates near the origin.
     """
     pts = np.asarray(xy, dtype=float)
     if pts.ndim != 2 or pts.shape[1] != 2 or pts.shape[0] == 0:
@@ -484,8 +487,7 @@ def tributary_plan_areas(xy: Any, outline: Any = None) -> np.ndarray:
     if not (math.isfinite(got) and abs(got - total) <= _AREA_SUM * total):
         raise ModelError(
             f"tributary areas: the {k} cells add up to {got:.6g} m^2 but the outline is "
-            f"{total:.6g} m^2; the plan positions may be too far from each other's scale "
-            "to resolve"
+            f"{total:.6g} m^2: does the outline cross itself?"
         )
     return areas
 

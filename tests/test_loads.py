@@ -262,3 +262,11 @@ def test_zero_area_panel_is_refused_by_id() -> None:
     # Not loaded: no complaint, and the other panel carries its 1 m² load.
     f = panel_surface_loads(nodes, pn, po, [1000.0, 0.0])
     assert f[:, 2].sum() == pytest.approx(-1000.0, rel=1e-12)
+
+
+def test_self_intersecting_outline_is_refused() -> None:
+    # A bow-tie-like outline: its signed area (2 m²) is not the area the
+    # cells cover, so the areas cannot add up and the outline is refused.
+    xy = [[1, 1], [3, 1], [1, 3], [3, 3]]
+    with pytest.raises(ModelError, match="does the outline cross itself"):
+        tributary_plan_areas(xy, [[0, 0], [4, 4], [4, 0], [1, 5]])
