@@ -113,6 +113,12 @@ class StepReport:
         True when the step was switched off by the caller.
     seconds : float
         Wall-clock time the step took.
+    lengths : tuple of float
+        Lengths in metres quoted in the detail (tolerance, largest move).
+    template : str
+        The detail with ``{0}``, ``{1}``, ... in place of ``lengths``, so
+        that :meth:`format` prints them in drawing units ("" when the
+        detail quotes no length).
     """
 
     name: str
@@ -121,8 +127,6 @@ class StepReport:
     detail: str = ""
     skipped: bool = False
     seconds: float = 0.0
-    #: Lengths (m) quoted in the detail, and the detail with ``{0}``, ``{1}``
-    #: ... where they go, so that :meth:`format` prints them in drawing units.
     lengths: tuple[float, ...] = ()
     template: str = ""
 
@@ -508,7 +512,7 @@ _CLUSTER_ROUNDS = 32
 
 
 def _merge_labels(points: FloatArray, tol: float) -> tuple[int, IntArray, IntArray]:
-    """Cluster points around centres closer than ``tol``: (count, labels, centre index).
+    """Greedy centre clustering at radius ``tol``: (count, labels, centre index).
 
     Greedy centre clustering in id order: a point not within ``tol`` of an
     earlier centre becomes a centre, and every other point joins the
