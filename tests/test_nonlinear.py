@@ -7,6 +7,10 @@ or from the linear solve, or from a general-purpose library (numpy, scipy).
 
 from __future__ import annotations
 
+import re
+from pathlib import Path
+from typing import Any
+
 import numpy as np
 import pytest
 import scipy.optimize as so
@@ -323,3 +327,35 @@ def test_negative_pivot_count_matches_dense_eigenvalues(seed: int) -> None:
     assert t.negative == int(np.count_nonzero(np.linalg.eigvalsh(K) < 0))
     x = t.solve(np.ones(n))
     np.testing.assert_allclose(K @ x, 1.0, atol=1e-9 * np.abs(x).max())
+
+
+def test_readme_load_path_example_runs(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """README's load-path block, run after its first Python block (which builds ``m``)."""
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text()
+    blocks = re.findall(r"```python\n(.*?)```", readme, re.S)
+    ours = [b for b in blocks if "solve_nonlinear" in b]
+    assert len(ours) == 1
+    monkeypatch.chdir(tmp_path)
+    scope: dict[str, Any] = {}
+    exec(compile(blocks[0] + ours[0], "README.md", "exec"), scope)
+    p = scope["p"]
+    assert p.load_factors[0] == 0.0 and p.load_factors[-1] == 1.0
+    # The README's frame strains by ~1e-3 under its load, so the path's end is
+    # the linear answer (r, from the first block) to within terms of that
+    # relative size (common practice).
+    u_lin = scope["r"].displacements
+    np.testing.assert_allclose(p.displacements[-1], u_lin, atol=2e-3 * np.abs(u_lin).max())
+    assert not np.allclose(p.displacements[-1], u_lin, rtol=0, atol=1e-6 * np.abs(u_lin).max())
+
+
+def test_progress_reports_each_converged_step() -> None:
+    _, pmax = limit_exact()
+    seen: list[tuple[int, float]] = []
+    path = sf.solve_nonlinear(
+        two_bar(1.5 * pmax), "P", progress=lambda k, lam: seen.append((k, lam))
+    )
+    assert seen[-1] == (path.n_steps - 1, 1.0)
+    ks = [k for k, _ in seen]
+    assert ks == sorted(ks) and ks[-1] == path.n_steps - 1
+    for k, lam in seen:
+        assert lam == path.load_factors[k]
