@@ -359,3 +359,38 @@ def test_progress_reports_each_converged_step() -> None:
     assert ks == sorted(ks) and ks[-1] == path.n_steps - 1
     for k, lam in seen:
         assert lam == path.load_factors[k]
+
+
+def test_branch_point_of_a_spring_braced_strut_is_located() -> None:
+    """Two collinear bars of length l, a lateral spring k at the middle node.
+
+    Closed form (derived here; the classic spring-braced strut of stability
+    texts): under an axial load P the straight strut has N = -P in both bars
+    and current bar length l (1 - P/EA) (engineering strain, straight bars).
+    The middle node's lateral stiffness is k + 2 N/l_current, so it vanishes at
+
+        P_cr = (k l / 2) / (1 + k l / (2 EA)).
+
+    The straight path goes on rising through P_cr (no limit point), and one
+    eigenvalue of the tangent turns negative there: a branch point.
+    """
+    ell, k, p0 = 1.0, 1.0e5, 1.0e5
+    p_cr = (k * ell / 2) / (1 + k * ell / (2 * EA))
+    m = sf.Model()
+    m.add_nodes([[0, 0, 0], [0, 0, ell], [0, 0, 2 * ell]])
+    m.add_members([[0, 1], [1, 2]], area=AREA, E=E)
+    m.add_support([0])
+    m.add_support([1], x=False, y=True, z=False)
+    m.add_support([2], x=True, y=True, z=False)
+    m.add_spring([1], kx=k)
+    m.add_load("P", [2], (0.0, 0.0, -p0))
+    path = sf.solve_nonlinear(m, "P", limit_tolerance=1e-10)
+    assert path.limit_points.size == 0
+    assert np.all(np.diff(path.load_factors) > 0)
+    (b,) = path.bifurcation_points
+    assert path.load_factors[b] * p0 == pytest.approx(p_cr, rel=1e-8)
+    np.testing.assert_array_equal(path.negative_pivots[:b], 0)
+    np.testing.assert_array_equal(path.negative_pivots[b:], 1)
+    # Still straight: the primary path is traced past the branch point.
+    np.testing.assert_allclose(path.displacements[:, :, 0], 0.0, atol=1e-15)
+    np.testing.assert_allclose(path.axial_forces[-1], -p0, rtol=1e-10)

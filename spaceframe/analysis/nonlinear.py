@@ -37,7 +37,10 @@ Limit points of the load factor are located where the tangent load rate
 d lambda / d s (oriented along the path) changes sign: the step is repeated
 from its start with shorter arc lengths (regula falsi on the rate) until the
 load factor at the found point is within ``limit_tolerance`` of the maximum,
-and that point is inserted into the path.  The path stops with a step that
+and that point is inserted into the path.  Where the count of negative
+pivots (below) changes with no such sign change, a branch point (bifurcation)
+is passed; it is located by bisection in the arc length to the same
+tolerance and inserted too.  Branches are reported, not followed.  The path stops with a step that
 lands exactly on ``max_load_factor`` (load-controlled Newton from the
 interpolated state) the first time the load factor rises through it.
 
@@ -161,16 +164,17 @@ class LoadPath:
 
     @property
     def bifurcation_points(self) -> np.ndarray:
-        """(k,) int: steps after which the negative-pivot count changes away from a limit point.
+        """(k,) int: steps where the negative-pivot count changes away from a limit point.
 
-        Candidates only: a change of inertia with no extremum of the load
-        factor marks a branch point passed between step k and k + 1.  Branches
-        are not followed.
+        Step k is the first with the new count; its load factor is within
+        ``limit_tolerance`` of the point where an eigenvalue of the tangent
+        passed zero with no extremum of the load factor: a branch point of
+        the path.  Branches are detected, not followed.
         """
         neg = self.negative_pivots
         known = (neg[:-1] >= 0) & (neg[1:] >= 0)
-        change = np.flatnonzero(known & (neg[:-1] != neg[1:]))
-        near = np.union1d(self.limit_points, self.limit_points - 1)
+        change = np.flatnonzero(known & (neg[:-1] != neg[1:])) + 1
+        near = np.union1d(self.limit_points, self.limit_points + 1)
         return np.setdiff1d(change, near)
 
     def __repr__(self) -> str:
@@ -468,6 +472,42 @@ def _locate_limit(
     return best
 
 
+def _negative(s: _State) -> int:
+    return s.tangent.negative if s.tangent is not None else -1
+
+
+def _locate_branch(
+    bars: _Bars,
+    start: _State,
+    end: _State,
+    dl: float,
+    direction: np.ndarray | None,
+    ctl: _Control,
+    limit_tolerance: float,
+) -> _State | None:
+    """The first state with ``end``'s negative-pivot count, by bisection in s.
+
+    Stops when the load factors either side of the change are within
+    ``limit_tolerance`` (relative) of each other.
+    """
+    s_lo, s_hi = 0.0, dl
+    lam_lo, lam_hi = start.lam, end.lam
+    before = _negative(start)
+    found: _State | None = None
+    for _ in range(60):
+        if abs(lam_hi - lam_lo) <= limit_tolerance * max(abs(lam_hi), 1e-300):
+            break
+        mid = 0.5 * (s_lo + s_hi)
+        p = _arc_step(bars, start, mid, direction, ctl)
+        if p is None or _negative(p) < 0:
+            break
+        if _negative(p) == before:
+            s_lo, lam_lo = mid, p.lam
+        else:
+            s_hi, lam_hi, found = mid, p.lam, p
+    return found
+
+
 # -------------------------------------------------------------------- driver
 def _reference_load(model: Model, name: str) -> tuple[str, np.ndarray, dict[str, float]]:
     """Kind, (3n,) reference force vector and factors of a case or combination."""
@@ -556,7 +596,8 @@ def solve_nonlinear(
     max_cutbacks : int
         Halvings of one step's arc length before the analysis stops.
     limit_tolerance : float
-        Relative accuracy of the load factor at each located limit point.
+        Relative accuracy of the load factor at each located limit point and
+        branch point.
     progress : callable, optional
         Called as ``progress(step, load_factor)`` after each converged step.
 
@@ -633,6 +674,12 @@ def solve_nonlinear(
                 limit = _locate_limit(bars, start, new, dl, direction, ctl, limit_tolerance)
                 if limit is not None:
                     pieces = [limit, new]
+            elif _negative(start) >= 0 and _negative(new) >= 0 and (
+                _negative(new) != _negative(start)
+            ):
+                branch = _locate_branch(bars, start, new, dl, direction, ctl, limit_tolerance)
+                if branch is not None:
+                    pieces = [branch, new]
             crossed, landed = _finish(bars, start, pieces, max_load_factor, ctl)
             if crossed and landed is None:
                 new = None  # crossed the target but could not land: retry shorter
