@@ -15,6 +15,8 @@ import numpy as np
 import pytest
 import scipy.optimize as so
 import scipy.sparse as sp
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import spaceframe as sf
 from spaceframe.analysis.nonlinear import STRAIN_MEASURE, PathError, _Tangent
@@ -394,3 +396,43 @@ def test_branch_point_of_a_spring_braced_strut_is_located() -> None:
     # Still straight: the primary path is traced past the branch point.
     np.testing.assert_allclose(path.displacements[:, :, 0], 0.0, atol=1e-15)
     np.testing.assert_allclose(path.axial_forces[-1], -p0, rtol=1e-10)
+
+
+def _random_mast(seed: int) -> sf.Model:
+    """A tetrahedral mast: each new node braced to the three before it (determinate, stable)."""
+    rng = np.random.default_rng(seed)
+    m = sf.Model()
+    ang = np.deg2rad([90.0, 210.0, 330.0]) + rng.uniform(-0.3, 0.3, 3)
+    m.add_nodes(np.c_[2.0 * np.cos(ang), 2.0 * np.sin(ang), np.zeros(3)])
+    for k in range(3, 3 + int(rng.integers(1, 5))):
+        p = m.nodes[k - 3 : k]
+        normal = np.cross(p[1] - p[0], p[2] - p[0])
+        normal *= np.sign(normal[2]) / np.linalg.norm(normal)
+        new = p.mean(axis=0) + rng.uniform(1.5, 3.0) * normal + rng.uniform(-0.3, 0.3, 3)
+        m.add_nodes([new])
+        m.add_members(np.c_[np.arange(k - 3, k), np.full(3, k)], area=2e-4, E=200e9)
+    m.add_support([0, 1, 2])
+    return m
+
+
+@settings(max_examples=20, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1))
+def test_random_masts_leave_the_linear_path_at_second_order(seed: int) -> None:
+    """u(lambda) = lambda u_lin + O(lambda²) on any smooth path (Taylor; common practice)."""
+    m = _random_mast(seed)
+    top = m.n_nodes - 1
+    direction = np.random.default_rng(seed + 1).normal(size=3)
+    m.add_load("P", [top], direction / np.linalg.norm(direction) * 1e4)
+    lin = m.solve()["P"]
+    # Scale the reference load so that the linear strain reaches 1 % at load factor 1.
+    strain = np.abs(lin.axial_forces).max() / (200e9 * 2e-4)
+    scale = 1e-2 / strain
+    m.cases["P"].forces *= scale
+    u_lin = scale * lin.displacements
+    diffs = []
+    for lam in (1e-3, 2e-3):
+        path = sf.solve_nonlinear(m, "P", max_load_factor=lam)
+        d = float(np.abs(path.displacements[-1] - lam * u_lin).max())
+        assert d <= 1e-3 * lam * np.abs(u_lin).max()  # strain 1e-5 at this load
+        diffs.append(d)
+    assert diffs[1] / diffs[0] == pytest.approx(4.0, rel=0.02)
