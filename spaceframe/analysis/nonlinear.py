@@ -1,24 +1,10 @@
 """Large displacements of pin-jointed bars, traced by an arc-length method.
 
-Formulation
------------
-Each member is a co-rotational bar with **engineering strain**: in the
-current configuration x = X + u a member has length l, unit vector c along
-its current chord and
-
-    N = EA (l - L0) / L0                      (tension positive)
-
-acting along c.  The internal force vector is the sum over members of
-N (-c, +c) at its two ends, plus spring forces k u at sprung directions (the
-springs keep their global directions).  Its exact derivative, the tangent
-stiffness, is per member
-
-    k_t = EA/L0 c c^T + N/l (I - c c^T)       (material + geometric)
-
-in the 6x6 pattern [[k_t, -k_t], [-k_t, k_t]].  Supports restrain global
-directions as in the linear static analysis (see analysis.static).  The
-loads of one case or combination form the reference load q; equilibrium
-f_int(u) = lambda q is followed in the load factor lambda.
+Members are co-rotational bars with **engineering strain**, N = EA (l - L0)/L0
+along the current chord, with the consistent tangent EA/L0 cc^T + N/l (I - cc^T)
+(analysis.corotational).  The loads of one case or combination form the
+reference load q; equilibrium f_int(u) = lambda q is followed in the load
+factor lambda.
 
 Path following
 --------------
@@ -38,25 +24,14 @@ d lambda / d s (oriented along the path) changes sign: the step is repeated
 from its start with shorter arc lengths (regula falsi on the rate) until the
 load factor at the found point is within ``limit_tolerance`` of the maximum,
 and that point is inserted into the path.  Where the count of negative
-pivots (below) changes with no such sign change, a branch point (bifurcation)
-is passed; it is located by bisection in the arc length to the same
-tolerance and inserted too.  Branches are reported, not followed.  The path stops with a step that
+pivots of the tangent (from its factorisation, analysis.corotational)
+changes with no such sign change, a branch point (bifurcation) is passed; it
+is located by bisection in the arc length to the same tolerance and inserted
+too.  Branches are reported, not followed.  The path stops with a step that
 lands exactly on ``max_load_factor`` (load-controlled Newton from the
 interpolated state) the first time the load factor rises through it.
 
-Inertia
--------
-The number of negative eigenvalues of the tangent is counted at every
-converged step from a sparse LU (SuperLU) with diagonal pivots only and a
-symmetric ordering: then P K P^T = L D L^T with U = D L^T, so by Sylvester's
-law of inertia the negative entries of diag(U) count K's negative
-eigenvalues.  When SuperLU had to leave the diagonal (its row and column
-permutations differ) or needed partial pivoting, the count is unknown (-1).
-
 Results must be checked by a qualified engineer.
-
-The member assembly here duplicates the geometric-stiffness assembly planned
-for a shared module of element matrices; to be unified with it.
 """
 
 from __future__ import annotations
@@ -66,10 +41,9 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import scipy.sparse as sp
 
+from spaceframe.analysis.corotational import Bars, State
 from spaceframe.analysis.stability import check_stability
-from spaceframe.assembly import member_dofs
 from spaceframe.errors import ModelError, SolverError
 
 if TYPE_CHECKING:
@@ -185,158 +159,6 @@ class LoadPath:
         )
 
 
-# --------------------------------------------------------------------- system
-class _Tangent:
-    """A factorised tangent stiffness with its negative-pivot count."""
-
-    def __init__(self, K: sp.csr_matrix) -> None:
-        import scipy.sparse.linalg as spla
-
-        Kc = sp.csc_matrix(K)
-        self.negative = -1
-        try:
-            # Diagonal pivots in a symmetric ordering: an LDL^T in LU clothing,
-            # whose pivots give the inertia (module notes).
-            lu = spla.splu(
-                Kc,
-                permc_spec="MMD_AT_PLUS_A",
-                diag_pivot_thresh=0.0,
-                options={"SymmetricMode": True},
-            )
-        except RuntimeError:
-            lu = None
-        if lu is not None and np.array_equal(lu.perm_r, lu.perm_c):
-            d = lu.U.diagonal()
-            if np.all(np.isfinite(d)) and np.all(d != 0):
-                self.negative = int(np.count_nonzero(d < 0))
-        if lu is None:
-            # Partial pivoting: a sound solve, but the inertia is unknown.
-            lu = spla.splu(Kc)  # raises RuntimeError when exactly singular
-        self._lu = lu
-
-    def solve(self, rhs: np.ndarray) -> np.ndarray:
-        return np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
-
-
-@dataclass
-class _State:
-    """A configuration: free displacements, load factor and what follows from them."""
-
-    uf: np.ndarray
-    lam: float
-    N: np.ndarray
-    length: np.ndarray
-    c: np.ndarray
-    fint: np.ndarray  # (3n,) member forces on the nodes, springs excluded
-    residual: float = 0.0
-    iterations: int = 0
-    tangent: _Tangent | None = None
-    rate: float = 0.0  # d lambda / d s along the path at this state
-
-
-class _Bars:
-    """The reduced nonlinear system of one model and one reference load.
-
-    The sparsity pattern of the reduced tangent is found once; each assembly
-    only sums the member values into it (one bincount, no sparse build).
-    """
-
-    def __init__(self, model: Model, f: np.ndarray) -> None:
-        self.n = model.n_nodes
-        self.X = model.nodes.astype(float).copy()
-        self.members = model.members.astype(np.int64).copy()
-        self.L0 = model.lengths.copy()
-        self.D = self.X[self.members[:, 1]] - self.X[self.members[:, 0]]
-        self.EA = model.E * model.area
-        self.f = f
-        self.restrained = model.restraint.ravel().copy()
-        self.free = np.flatnonzero(~self.restrained)
-        self.spring_all = model.springs.ravel().copy()
-        self.spring = self.spring_all[self.free]
-        self.q = f[self.free]
-        nf = self.free.size
-        self.nf = nf
-        dof_map = np.full(3 * self.n, -1, dtype=np.int64)
-        dof_map[self.free] = np.arange(nf)
-        self.dofs = member_dofs(self.members).astype(np.int64)  # (b, 6)
-        loc = dof_map[self.dofs]
-        rows = np.repeat(loc, 6, axis=1)  # entry 6a + b of a member: row of its dof a
-        cols = np.tile(loc, (1, 6))  # ... and column of its dof b
-        keep = ((rows >= 0) & (cols >= 0)).ravel()
-        keys = rows.ravel()[keep] * nf + cols.ravel()[keep]
-        diag = np.arange(nf, dtype=np.int64) * (nf + 1)
-        uniq, inv = np.unique(np.concatenate([keys, diag]), return_inverse=True)
-        self._keep = keep
-        self._pos = inv[: keys.size]
-        self._diag_pos = inv[keys.size :]
-        self._nnz = uniq.size
-        self._indices = uniq % max(nf, 1)
-        self._indptr = np.searchsorted(uniq // max(nf, 1), np.arange(nf + 1))
-
-    def state(self, uf: np.ndarray, lam: float) -> _State:
-        """Member forces and nodal internal forces at free displacements ``uf``."""
-        u = np.zeros(3 * self.n)
-        u[self.free] = uf
-        u3 = u.reshape(self.n, 3)
-        i, j = self.members[:, 0], self.members[:, 1]
-        delta = u3[j] - u3[i]
-        d = self.D + delta
-        length = np.sqrt(np.einsum("ij,ij->i", d, d))
-        with np.errstate(invalid="ignore", divide="ignore"):
-            c = d / length[:, None]
-        # l - L0 = (l^2 - L0^2)/(l + L0) with l^2 - L0^2 = 2 D.delta + delta.delta:
-        # no cancellation when the elongation is tiny beside the length, so
-        # small loads keep full relative accuracy.
-        grow = 2.0 * np.einsum("ij,ij->i", self.D, delta) + np.einsum("ij,ij->i", delta, delta)
-        N = self.EA * (grow / (length + self.L0)) / self.L0
-        Nc = N[:, None] * c
-        fint = np.bincount(
-            self.dofs.ravel(), np.concatenate([-Nc, Nc], axis=1).ravel(), 3 * self.n
-        )
-        return _State(uf=uf, lam=lam, N=N, length=length, c=c, fint=fint)
-
-    def out_of_balance(self, s: _State) -> tuple[np.ndarray, float]:
-        """Free-dof residual f_int - lambda q and its relative size."""
-        g = s.fint[self.free] + self.spring * s.uf - s.lam * self.q
-        absnc = np.abs(s.N[:, None] * s.c)
-        scale_vec = np.bincount(
-            self.dofs.ravel(), np.concatenate([absnc, absnc], axis=1).ravel(), 3 * self.n
-        )[self.free] + np.abs(self.spring * s.uf)
-        scale = float(np.linalg.norm(s.lam * self.q) + np.linalg.norm(scale_vec))
-        norm = float(np.linalg.norm(g))
-        if not np.isfinite(norm):
-            return g, np.inf
-        return g, norm / scale if scale > 0 else norm
-
-    def tangent(self, s: _State) -> _Tangent:
-        """Factorised tangent stiffness EA/L0 cc^T + N/l (I - cc^T), springs added."""
-        c = s.c
-        cc = c[:, :, None] * c[:, None, :]
-        k = (self.EA / self.L0)[:, None, None] * cc + (s.N / s.length)[:, None, None] * (
-            np.eye(3) - cc
-        )
-        b = k.shape[0]
-        K6 = np.empty((b, 6, 6))
-        K6[:, :3, :3] = k
-        K6[:, 3:, 3:] = k
-        K6[:, :3, 3:] = -k
-        K6[:, 3:, :3] = -k
-        data = np.asarray(np.bincount(self._pos, K6.reshape(-1)[self._keep], self._nnz), float)
-        data[self._diag_pos] += self.spring
-        if not np.all(np.isfinite(data)):
-            raise RuntimeError("non-finite tangent stiffness")
-        K = sp.csr_matrix((data, self._indices, self._indptr), shape=(self.nf, self.nf))
-        return _Tangent(K)
-
-    def reactions(self, s: _State) -> np.ndarray:
-        """(n, 3): forces of supports (restrained) and springs on the nodes."""
-        r = np.zeros(3 * self.n)
-        held = self.restrained
-        r[held] = s.fint[held] - s.lam * self.f[held]
-        r[self.free] = -self.spring * s.uf
-        return r.reshape(self.n, 3)
-
-
 # ---------------------------------------------------------------- iterations
 @dataclass
 class _Control:
@@ -344,7 +166,7 @@ class _Control:
     max_iterations: int
 
 
-def _rate(bars: _Bars, s: _State, direction: np.ndarray | None) -> float:
+def _rate(bars: Bars, s: State, direction: np.ndarray | None) -> float:
     """Factorise the tangent at ``s`` and return d lambda/d s oriented along ``direction``."""
     s.tangent = bars.tangent(s)
     dut = s.tangent.solve(bars.q)
@@ -356,8 +178,8 @@ def _rate(bars: _Bars, s: _State, direction: np.ndarray | None) -> float:
 
 
 def _arc_step(
-    bars: _Bars, start: _State, dl: float, direction: np.ndarray | None, ctl: _Control
-) -> _State | None:
+    bars: Bars, start: State, dl: float, direction: np.ndarray | None, ctl: _Control
+) -> State | None:
     """One cylindrical arc-length step of length ``dl`` from a converged state.
 
     Returns the converged state (its tangent factorised and rate set), or
@@ -405,8 +227,8 @@ def _arc_step(
 
 
 def _land(
-    bars: _Bars, a: _State, b: _State, target: float, ctl: _Control
-) -> _State | None:
+    bars: Bars, a: State, b: State, target: float, ctl: _Control
+) -> State | None:
     """Load-controlled Newton at ``target`` from the state interpolated between a and b."""
     t = (target - a.lam) / (b.lam - a.lam)
     guess = a.uf + t * (b.uf - a.uf)
@@ -434,18 +256,18 @@ def _land(
 
 
 def _locate_limit(
-    bars: _Bars,
-    start: _State,
-    end: _State,
+    bars: Bars,
+    start: State,
+    end: State,
     dl: float,
     direction: np.ndarray | None,
     ctl: _Control,
     limit_tolerance: float,
-) -> _State | None:
+) -> State | None:
     """The point of zero load rate between ``start`` and ``end`` (regula falsi in s)."""
     s_lo, r_lo = 0.0, start.rate
     s_hi, r_hi = dl, end.rate
-    best: _State | None = None
+    best: State | None = None
     side = 0
     for _ in range(40):
         s_try = (s_lo * r_hi - s_hi * r_lo) / (r_hi - r_lo)
@@ -472,19 +294,19 @@ def _locate_limit(
     return best
 
 
-def _negative(s: _State) -> int:
+def _negative(s: State) -> int:
     return s.tangent.negative if s.tangent is not None else -1
 
 
 def _locate_branch(
-    bars: _Bars,
-    start: _State,
-    end: _State,
+    bars: Bars,
+    start: State,
+    end: State,
     dl: float,
     direction: np.ndarray | None,
     ctl: _Control,
     limit_tolerance: float,
-) -> _State | None:
+) -> State | None:
     """The first state with ``end``'s negative-pivot count, by bisection in s.
 
     Stops when the load factors either side of the change are within
@@ -493,7 +315,7 @@ def _locate_branch(
     s_lo, s_hi = 0.0, dl
     lam_lo, lam_hi = start.lam, end.lam
     before = _negative(start)
-    found: _State | None = None
+    found: State | None = None
     for _ in range(60):
         if abs(lam_hi - lam_lo) <= limit_tolerance * max(abs(lam_hi), 1e-300):
             break
@@ -623,11 +445,11 @@ def solve_nonlinear(
     model.validate()
     kind, f, factors = _reference_load(model, case_or_combination)
     check_stability(model)
-    bars = _Bars(model, f)
+    bars = Bars(model, f)
     ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations))
     label = f"nonlinear {kind} {case_or_combination!r}"
 
-    steps: list[_State] = [bars.state(np.zeros(bars.nf), 0.0)]
+    steps: list[State] = [bars.state(np.zeros(bars.nf), 0.0)]
     cutbacks = 0
 
     def path() -> LoadPath:
@@ -667,7 +489,7 @@ def solve_nonlinear(
                        f"{max_load_factor:.6g}")
         start = steps[-1]
         new = _arc_step(bars, start, dl, direction, ctl)
-        pieces: list[_State] = []
+        pieces: list[State] = []
         if new is not None:
             pieces = [new]
             if np.sign(new.rate) != np.sign(start.rate) and new.rate != 0:
@@ -706,8 +528,8 @@ def solve_nonlinear(
 
 
 def _finish(
-    bars: _Bars, start: _State, pieces: list[_State], target: float, ctl: _Control
-) -> tuple[bool, list[_State] | None]:
+    bars: Bars, start: State, pieces: list[State], target: float, ctl: _Control
+) -> tuple[bool, list[State] | None]:
     """Whether this step rises through ``target``, and the states ending exactly on it.
 
     (False, None): not crossed; (True, None): crossed, but landing failed.
@@ -722,8 +544,8 @@ def _finish(
 
 
 def _make_path(
-    bars: _Bars,
-    steps: list[_State],
+    bars: Bars,
+    steps: list[State],
     kind: str,
     name: str,
     factors: dict[str, float],
