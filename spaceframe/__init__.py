@@ -15,6 +15,7 @@ import sys
 from pathlib import Path as _Path
 from types import ModuleType as _ModuleType
 
+from spaceframe.analysis.nonlinear import LoadPath, solve_nonlinear
 from spaceframe.analysis.stability import (
     Determinacy,
     check_stability,
@@ -68,6 +69,7 @@ __all__ = [
     "Determinacy",
     "Envelope",
     "LoadCase",
+    "LoadPath",
     "MechanismError",
     "Model",
     "ModelError",
@@ -82,6 +84,7 @@ __all__ = [
     "determinacy",
     "equilibrium_matrix",
     "solve_determinate",
+    "solve_nonlinear",
     "stiffness_matrix",
 ]
 

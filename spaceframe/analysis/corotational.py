@@ -1,0 +1,193 @@
+"""Co-rotational bars with engineering strain: internal forces and tangent stiffness.
+
+In the current configuration x = X + u a member has length l, unit vector c
+along its current chord and
+
+    N = EA (l - L0) / L0                      (tension positive)
+
+acting along c.  The internal force vector is the sum over members of
+N (-c, +c) at its two ends, plus spring forces k u at sprung directions (the
+springs keep their global directions).  Its exact derivative, the tangent
+stiffness, is per member
+
+    k_t = EA/L0 c c^T + N/l (I - c c^T)       (material + geometric)
+
+in the 6x6 pattern [[k_t, -k_t], [-k_t, k_t]], summed into the reduced
+(free-dof) matrix with one bincount on a pattern found once.  Supports
+restrain global directions as in the linear static analysis.
+
+Inertia: the tangent is factorised by SuperLU with diagonal pivots only and a
+symmetric ordering; then P K P^T = L D L^T with U = D L^T, so by Sylvester's
+law of inertia the negative entries of diag(U) count K's negative
+eigenvalues.  When SuperLU had to leave the diagonal (its row and column
+permutations differ) or needed partial pivoting, the count is unknown (-1).
+
+This assembly duplicates the geometric-stiffness assembly planned for a
+shared module of element matrices; to be unified with it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+import scipy.sparse as sp
+
+from spaceframe.assembly import member_dofs
+
+if TYPE_CHECKING:
+    from spaceframe.model import Model
+
+__all__ = ["Bars", "State", "Tangent"]
+
+
+class Tangent:
+    """A factorised tangent stiffness with its negative-pivot count."""
+
+    def __init__(self, K: sp.csr_matrix) -> None:
+        import scipy.sparse.linalg as spla
+
+        Kc = sp.csc_matrix(K)
+        self.negative = -1
+        try:
+            # Diagonal pivots in a symmetric ordering: an LDL^T in LU clothing,
+            # whose pivots give the inertia (module notes).
+            lu = spla.splu(
+                Kc,
+                permc_spec="MMD_AT_PLUS_A",
+                diag_pivot_thresh=0.0,
+                options={"SymmetricMode": True},
+            )
+        except RuntimeError:
+            lu = None
+        if lu is not None and np.array_equal(lu.perm_r, lu.perm_c):
+            d = lu.U.diagonal()
+            if np.all(np.isfinite(d)) and np.all(d != 0):
+                self.negative = int(np.count_nonzero(d < 0))
+        if lu is None:
+            # Partial pivoting: a sound solve, but the inertia is unknown.
+            lu = spla.splu(Kc)  # raises RuntimeError when exactly singular
+        self._lu = lu
+
+    def solve(self, rhs: np.ndarray) -> np.ndarray:
+        return np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
+
+
+@dataclass
+class State:
+    """A configuration: free displacements, load factor and what follows from them."""
+
+    uf: np.ndarray
+    lam: float
+    N: np.ndarray
+    length: np.ndarray
+    c: np.ndarray
+    fint: np.ndarray  # (3n,) member forces on the nodes, springs excluded
+    residual: float = 0.0
+    iterations: int = 0
+    tangent: Tangent | None = None
+    rate: float = 0.0  # d lambda / d s along the path at this state
+
+
+class Bars:
+    """The reduced nonlinear system of one model and one reference load.
+
+    The sparsity pattern of the reduced tangent is found once; each assembly
+    only sums the member values into it (one bincount, no sparse build).
+    """
+
+    def __init__(self, model: Model, f: np.ndarray) -> None:
+        self.n = model.n_nodes
+        self.X = model.nodes.astype(float).copy()
+        self.members = model.members.astype(np.int64).copy()
+        self.L0 = model.lengths.copy()
+        self.D = self.X[self.members[:, 1]] - self.X[self.members[:, 0]]
+        self.EA = model.E * model.area
+        self.f = f
+        self.restrained = model.restraint.ravel().copy()
+        self.free = np.flatnonzero(~self.restrained)
+        self.spring_all = model.springs.ravel().copy()
+        self.spring = self.spring_all[self.free]
+        self.q = f[self.free]
+        nf = self.free.size
+        self.nf = nf
+        dof_map = np.full(3 * self.n, -1, dtype=np.int64)
+        dof_map[self.free] = np.arange(nf)
+        self.dofs = member_dofs(self.members).astype(np.int64)  # (b, 6)
+        loc = dof_map[self.dofs]
+        rows = np.repeat(loc, 6, axis=1)  # entry 6a + b of a member: row of its dof a
+        cols = np.tile(loc, (1, 6))  # ... and column of its dof b
+        keep = ((rows >= 0) & (cols >= 0)).ravel()
+        keys = rows.ravel()[keep] * nf + cols.ravel()[keep]
+        diag = np.arange(nf, dtype=np.int64) * (nf + 1)
+        uniq, inv = np.unique(np.concatenate([keys, diag]), return_inverse=True)
+        self._keep = keep
+        self._pos = inv[: keys.size]
+        self._diag_pos = inv[keys.size :]
+        self._nnz = uniq.size
+        self._indices = uniq % max(nf, 1)
+        self._indptr = np.searchsorted(uniq // max(nf, 1), np.arange(nf + 1))
+
+    def state(self, uf: np.ndarray, lam: float) -> State:
+        """Member forces and nodal internal forces at free displacements ``uf``."""
+        u = np.zeros(3 * self.n)
+        u[self.free] = uf
+        u3 = u.reshape(self.n, 3)
+        i, j = self.members[:, 0], self.members[:, 1]
+        delta = u3[j] - u3[i]
+        d = self.D + delta
+        length = np.sqrt(np.einsum("ij,ij->i", d, d))
+        with np.errstate(invalid="ignore", divide="ignore"):
+            c = d / length[:, None]
+        # l - L0 = (l^2 - L0^2)/(l + L0) with l^2 - L0^2 = 2 D.delta + delta.delta:
+        # no cancellation when the elongation is tiny beside the length, so
+        # small loads keep full relative accuracy.
+        grow = 2.0 * np.einsum("ij,ij->i", self.D, delta) + np.einsum("ij,ij->i", delta, delta)
+        N = self.EA * (grow / (length + self.L0)) / self.L0
+        Nc = N[:, None] * c
+        fint = np.bincount(
+            self.dofs.ravel(), np.concatenate([-Nc, Nc], axis=1).ravel(), 3 * self.n
+        )
+        return State(uf=uf, lam=lam, N=N, length=length, c=c, fint=fint)
+
+    def out_of_balance(self, s: State) -> tuple[np.ndarray, float]:
+        """Free-dof residual f_int - lambda q and its relative size."""
+        g = s.fint[self.free] + self.spring * s.uf - s.lam * self.q
+        absnc = np.abs(s.N[:, None] * s.c)
+        scale_vec = np.bincount(
+            self.dofs.ravel(), np.concatenate([absnc, absnc], axis=1).ravel(), 3 * self.n
+        )[self.free] + np.abs(self.spring * s.uf)
+        scale = float(np.linalg.norm(s.lam * self.q) + np.linalg.norm(scale_vec))
+        norm = float(np.linalg.norm(g))
+        if not np.isfinite(norm):
+            return g, np.inf
+        return g, norm / scale if scale > 0 else norm
+
+    def tangent(self, s: State) -> Tangent:
+        """Factorised tangent stiffness EA/L0 cc^T + N/l (I - cc^T), springs added."""
+        c = s.c
+        cc = c[:, :, None] * c[:, None, :]
+        k = (self.EA / self.L0)[:, None, None] * cc + (s.N / s.length)[:, None, None] * (
+            np.eye(3) - cc
+        )
+        b = k.shape[0]
+        K6 = np.empty((b, 6, 6))
+        K6[:, :3, :3] = k
+        K6[:, 3:, 3:] = k
+        K6[:, :3, 3:] = -k
+        K6[:, 3:, :3] = -k
+        data = np.asarray(np.bincount(self._pos, K6.reshape(-1)[self._keep], self._nnz), float)
+        data[self._diag_pos] += self.spring
+        if not np.all(np.isfinite(data)):
+            raise RuntimeError("non-finite tangent stiffness")
+        K = sp.csr_matrix((data, self._indices, self._indptr), shape=(self.nf, self.nf))
+        return Tangent(K)
+
+    def reactions(self, s: State) -> np.ndarray:
+        """(n, 3): forces of supports (restrained) and springs on the nodes."""
+        r = np.zeros(3 * self.n)
+        held = self.restrained
+        r[held] = s.fint[held] - s.lam * self.f[held]
+        r[self.free] = -self.spring * s.uf
+        return r.reshape(self.n, 3)

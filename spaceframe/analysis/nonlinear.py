@@ -1,0 +1,586 @@
+"""Large displacements of pin-jointed bars, traced by an arc-length method.
+
+Members are co-rotational bars with **engineering strain**, N = EA (l - L0)/L0
+along the current chord, with the consistent tangent EA/L0 cc^T + N/l (I - cc^T)
+(analysis.corotational).  The loads of one case or combination form the
+reference load q; equilibrium f_int(u) = lambda q is followed in the load
+factor lambda.
+
+Path following
+--------------
+Crisfield's cylindrical arc-length method (M. A. Crisfield, "A fast
+incremental/iterative solution procedure that handles snap-through",
+Computers & Structures 13, 1981, 55-62; and Non-linear Finite Element
+Analysis of Solids and Structures, Vol. 1, Wiley 1991, §9.3): each step
+keeps ||Delta u|| = Delta l with full Newton corrections, the quadratic
+constraint's root nearest the previous increment, and the predictor's sign
+from the previous increment (the dot-product rule, which follows snap-back
+where the sign of det K_t alone would not).  The arc length adapts to the
+iterations used (Crisfield's sqrt(I_desired / I) rule); a step that fails
+(no convergence, complex roots, singular tangent, NaN) is halved and retried.
+
+Limit points of the load factor are located where the tangent load rate
+d lambda / d s (oriented along the path) changes sign: the step is repeated
+from its start with shorter arc lengths (regula falsi on the rate) until the
+load factor at the found point is within ``limit_tolerance`` of the maximum,
+and that point is inserted into the path.  Where the count of negative
+pivots of the tangent (from its factorisation, analysis.corotational)
+changes with no such sign change, a branch point (bifurcation) is passed; it
+is located by bisection in the arc length to the same tolerance and inserted
+too.  Branches are reported, not followed.  The path stops with a step that
+lands exactly on ``max_load_factor`` (load-controlled Newton from the
+interpolated state) the first time the load factor rises through it.
+
+Results must be checked by a qualified engineer.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from spaceframe.analysis.corotational import Bars, State
+from spaceframe.analysis.stability import check_stability
+from spaceframe.errors import ModelError, SolverError
+
+if TYPE_CHECKING:
+    from spaceframe.model import Model
+
+__all__ = ["STRAIN_MEASURE", "LoadPath", "PathError", "solve_nonlinear"]
+
+#: The strain measure and formulation, stated in every result.
+STRAIN_MEASURE = "engineering strain (l - L0)/L0, co-rotational bar"
+
+#: Newton iterations aimed at per step when the arc length adapts.
+_DESIRED_ITERATIONS = 5
+
+#: Bounds on the arc length relative to the first one: it may grow this much
+#: on easy stretches and shrink this much before a step is given up.
+_MAX_GROWTH = 10.0
+_MIN_SHRINK = 1.0e-6
+
+
+class PathError(SolverError):
+    """The path could not be continued; ``path`` holds the converged steps so far."""
+
+    def __init__(self, message: str, path: LoadPath | None = None) -> None:
+        super().__init__(message)
+        self.path = path
+
+
+@dataclass
+class LoadPath:
+    """An equilibrium path under a growing load factor (SI units, tension positive).
+
+    Attributes
+    ----------
+    name : str
+        Load case or combination.
+    kind : {"case", "combination"}
+    load_factors : (s,) float
+        Load factor of each converged step; step 0 is the unloaded state.  It
+        may fall after a limit point; the last step is exactly
+        ``max_load_factor``.
+    displacements : (s, n, 3) float
+        Nodal displacements, m.
+    axial_forces : (s, b) float
+        Member axial forces N = EA (l - L0)/L0, N.
+    reactions : (s, n, 3) float
+        Forces that supports and springs exert on the nodes, N.
+    loads : (n, 3) float
+        Reference load (load factor 1), N.
+    limit_points : (k,) int
+        Indices into the steps where the load factor passes a maximum or a
+        minimum (sign change of its increment; located steps, see module notes).
+    negative_pivots : (s,) int
+        Negative eigenvalues of the tangent stiffness at each step (-1: unknown).
+    iterations : (s,) int
+        Newton iterations of each step.
+    residuals : (s,) float
+        Relative equilibrium residual of each step,
+        ||f_int - lambda q|| / (||lambda q|| + || sum |N c| ||).
+    cutbacks : int
+        Steps that failed and were retried with a shorter arc length.
+    max_load_factor : float
+    strain_measure : str
+    factors : dict
+        For a combination, its case factors.
+    """
+
+    name: str
+    kind: str
+    load_factors: np.ndarray
+    displacements: np.ndarray
+    axial_forces: np.ndarray
+    reactions: np.ndarray
+    loads: np.ndarray
+    limit_points: np.ndarray
+    negative_pivots: np.ndarray
+    iterations: np.ndarray
+    residuals: np.ndarray
+    cutbacks: int
+    max_load_factor: float
+    strain_measure: str = STRAIN_MEASURE
+    factors: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def n_steps(self) -> int:
+        """Number of steps, the unloaded state included."""
+        return int(self.load_factors.shape[0])
+
+    @property
+    def limit_load_factors(self) -> np.ndarray:
+        """(k,) float: load factors at the limit points."""
+        return self.load_factors[self.limit_points]
+
+    @property
+    def bifurcation_points(self) -> np.ndarray:
+        """(k,) int: steps where the negative-pivot count changes away from a limit point.
+
+        Step k is the first with the new count; its load factor is within
+        ``limit_tolerance`` of the point where an eigenvalue of the tangent
+        passed zero with no extremum of the load factor: a branch point of
+        the path.  Branches are detected, not followed.
+        """
+        neg = self.negative_pivots
+        known = (neg[:-1] >= 0) & (neg[1:] >= 0)
+        change = np.flatnonzero(known & (neg[:-1] != neg[1:])) + 1
+        near = np.union1d(self.limit_points, self.limit_points + 1)
+        return np.setdiff1d(change, near)
+
+    def __repr__(self) -> str:
+        return (
+            f"LoadPath({self.kind} {self.name!r}, {self.n_steps} steps to load factor "
+            f"{self.load_factors[-1]:.6g}, {self.limit_points.size} limit points, "
+            f"{self.strain_measure})"
+        )
+
+
+# ---------------------------------------------------------------- iterations
+@dataclass
+class _Control:
+    tolerance: float
+    max_iterations: int
+
+
+def _rate(bars: Bars, s: State, direction: np.ndarray | None) -> float:
+    """Factorise the tangent at ``s`` and return d lambda/d s oriented along ``direction``."""
+    s.tangent = bars.tangent(s)
+    dut = s.tangent.solve(bars.q)
+    norm = float(np.linalg.norm(dut))
+    if not np.isfinite(norm) or norm == 0.0:
+        raise RuntimeError("tangent solve failed")
+    sign = -1.0 if direction is not None and float(direction @ dut) < 0 else 1.0
+    return sign / norm
+
+
+def _arc_step(
+    bars: Bars, start: State, dl: float, direction: np.ndarray | None, ctl: _Control
+) -> State | None:
+    """One cylindrical arc-length step of length ``dl`` from a converged state.
+
+    Returns the converged state (its tangent factorised and rate set), or
+    None when the step fails (the caller cuts back).
+    """
+    try:
+        assert start.tangent is not None
+        dut = start.tangent.solve(bars.q)
+        du = dut * (dl / np.linalg.norm(dut))
+        dlam = start.rate * dl
+        if start.rate < 0:
+            du = -du
+        for it in range(ctl.max_iterations + 1):
+            s = bars.state(start.uf + du, start.lam + dlam)
+            g, res = bars.out_of_balance(s)
+            if not np.isfinite(res):
+                return None
+            if res <= ctl.tolerance:
+                s.residual, s.iterations = res, it
+                s.rate = _rate(bars, s, du)
+                return s if np.isfinite(s.rate) else None
+            if it == ctl.max_iterations:
+                return None
+            tan = bars.tangent(s)
+            sol = tan.solve(np.column_stack([-g, bars.q]))
+            dur, dut = sol[:, 0], sol[:, 1]
+            w = du + dur
+            a1 = float(dut @ dut)
+            a2 = 2.0 * float(dut @ w)
+            a3 = float(w @ w) - dl * dl
+            disc = a2 * a2 - 4.0 * a1 * a3
+            if not (a1 > 0 and np.isfinite(disc)) or disc < 0:
+                return None
+            # Stable roots of a1 x^2 + a2 x + a3 = 0.
+            qq = -0.5 * (a2 + np.copysign(np.sqrt(disc), a2))
+            roots = [qq / a1, a3 / qq if qq != 0 else qq / a1]
+            # The root whose increment turns least from the one before.
+            cos = [float((w + r * dut) @ du) for r in roots]
+            root = roots[int(np.argmax(cos))]
+            du = w + root * dut
+            dlam += root
+    except (RuntimeError, FloatingPointError, ZeroDivisionError):
+        return None
+    return None
+
+
+def _land(
+    bars: Bars, a: State, b: State, target: float, ctl: _Control
+) -> State | None:
+    """Load-controlled Newton at ``target`` from the state interpolated between a and b."""
+    t = (target - a.lam) / (b.lam - a.lam)
+    guess = a.uf + t * (b.uf - a.uf)
+    reach = float(np.linalg.norm(b.uf - a.uf))
+    uf = guess
+    try:
+        for it in range(ctl.max_iterations + 1):
+            s = bars.state(uf, target)
+            g, res = bars.out_of_balance(s)
+            if not np.isfinite(res):
+                return None
+            if res <= ctl.tolerance:
+                # Must be the crossing on this stretch, not another equilibrium.
+                if np.linalg.norm(uf - guess) > reach + 1e-12 * (1.0 + reach):
+                    return None
+                s.residual, s.iterations = res, it
+                s.tangent = bars.tangent(s)
+                return s
+            if it == ctl.max_iterations:
+                return None
+            uf = uf - bars.tangent(s).solve(g)
+    except (RuntimeError, FloatingPointError, ZeroDivisionError):
+        return None
+    return None
+
+
+def _locate_limit(
+    bars: Bars,
+    start: State,
+    end: State,
+    dl: float,
+    direction: np.ndarray | None,
+    ctl: _Control,
+    limit_tolerance: float,
+) -> State | None:
+    """The point of zero load rate between ``start`` and ``end`` (regula falsi in s)."""
+    s_lo, r_lo = 0.0, start.rate
+    s_hi, r_hi = dl, end.rate
+    best: State | None = None
+    side = 0
+    for _ in range(40):
+        s_try = (s_lo * r_hi - s_hi * r_lo) / (r_hi - r_lo)
+        if not (s_lo < s_try < s_hi):
+            s_try = 0.5 * (s_lo + s_hi)
+        p = _arc_step(bars, start, s_try, direction, ctl)
+        if p is None:
+            return best
+        if best is None or abs(p.rate) < abs(best.rate):
+            best = p
+        # |lambda* - lambda(s)| <= |rate| * bracket, the rate being monotone here.
+        if abs(p.rate) * (s_hi - s_lo) <= limit_tolerance * max(abs(p.lam), 1e-300):
+            return best
+        if np.sign(p.rate) == np.sign(r_lo):
+            s_lo, r_lo = s_try, p.rate
+            if side == -1:
+                r_hi *= 0.5  # Illinois: keep the stale end from stalling
+            side = -1
+        else:
+            s_hi, r_hi = s_try, p.rate
+            if side == 1:
+                r_lo *= 0.5
+            side = 1
+    return best
+
+
+def _negative(s: State) -> int:
+    return s.tangent.negative if s.tangent is not None else -1
+
+
+def _locate_branch(
+    bars: Bars,
+    start: State,
+    end: State,
+    dl: float,
+    direction: np.ndarray | None,
+    ctl: _Control,
+    limit_tolerance: float,
+) -> State | None:
+    """The first state with ``end``'s negative-pivot count, by bisection in s.
+
+    Stops when the load factors either side of the change are within
+    ``limit_tolerance`` (relative) of each other.
+    """
+    s_lo, s_hi = 0.0, dl
+    lam_lo, lam_hi = start.lam, end.lam
+    before = _negative(start)
+    found: State | None = None
+    for _ in range(60):
+        if abs(lam_hi - lam_lo) <= limit_tolerance * max(abs(lam_hi), 1e-300):
+            break
+        mid = 0.5 * (s_lo + s_hi)
+        p = _arc_step(bars, start, mid, direction, ctl)
+        if p is None or _negative(p) < 0:
+            break
+        if _negative(p) == before:
+            s_lo, lam_lo = mid, p.lam
+        else:
+            s_hi, lam_hi, found = mid, p.lam, p
+    return found
+
+
+# -------------------------------------------------------------------- driver
+def _reference_load(model: Model, name: str) -> tuple[str, np.ndarray, dict[str, float]]:
+    """Kind, (3n,) reference force vector and factors of a case or combination."""
+    n, b = model.n_nodes, model.n_members
+    if name in model.cases:
+        kind, factors = "case", {name: 1.0}
+    elif name in model.combinations:
+        kind, factors = "combination", dict(model.combinations[name])
+    else:
+        known = ", ".join(sorted([*model.cases, *model.combinations])) or "none defined"
+        raise ModelError(f"solve_nonlinear: no load case or combination {name!r} (known: {known})")
+    f = np.zeros(3 * n)
+    for case, factor in factors.items():
+        lc = model.cases[case]
+        lc.resize(n, b)
+        for what, arr in (
+            ("temperature changes", lc.temperature),
+            ("initial strains", lc.initial_strain),
+            ("settlements", lc.settlement_mask),
+        ):
+            if np.any(arr):
+                raise ModelError(
+                    f"solve_nonlinear: load case {case!r} has {what}; the nonlinear analysis "
+                    "takes nodal forces only"
+                )
+        f += factor * lc.forces.ravel()
+    if not np.all(np.isfinite(f)):
+        raise ModelError(f"solve_nonlinear: {kind} {name!r} has non-finite loads")
+    return kind, f, factors
+
+
+def _check_options(max_load_factor: float, initial_increment: float | None, **kw: float) -> None:
+    if not (np.isfinite(max_load_factor) and max_load_factor > 0):
+        raise ModelError(f"solve_nonlinear: max_load_factor = {max_load_factor!r}: must be > 0")
+    if initial_increment is not None and not (
+        np.isfinite(initial_increment) and 0 < initial_increment <= max_load_factor
+    ):
+        raise ModelError(
+            f"solve_nonlinear: initial_increment = {initial_increment!r}: must be in "
+            f"(0, max_load_factor = {max_load_factor}]"
+        )
+    for key, value in kw.items():
+        if not (np.isfinite(value) and value > 0):
+            raise ModelError(f"solve_nonlinear: {key} = {value!r}: must be positive")
+
+
+def solve_nonlinear(
+    model: Model,
+    case_or_combination: str,
+    max_load_factor: float = 1.0,
+    *,
+    initial_increment: float | None = None,
+    max_steps: int = 500,
+    tolerance: float = 1.0e-9,
+    max_iterations: int = 25,
+    max_cutbacks: int = 12,
+    limit_tolerance: float = 1.0e-9,
+    progress: Callable[[int, float], Any] | None = None,
+) -> LoadPath:
+    """Trace the large-displacement equilibrium path of one case or combination.
+
+    Bars are co-rotational with engineering strain, N = EA (l - L0)/L0
+    (module notes); the path is followed by Crisfield's cylindrical
+    arc-length method through limit points, snap-through and snap-back.
+
+    Parameters
+    ----------
+    model : Model
+        Nodal forces only (temperature, initial strain or settlement in the
+        chosen cases raise ModelError).  Supports and springs as in the
+        linear analysis; springs keep their global directions.
+    case_or_combination : str
+        Its loads are the reference load (load factor 1).
+    max_load_factor : float
+        The path stops with a step landing exactly on this load factor the
+        first time the load factor rises to it (past any limit point).
+    initial_increment : float, optional
+        Load factor of the first step (default ``max_load_factor / 20``); it
+        fixes the first arc length, which then adapts.
+    max_steps : int
+        Steps allowed before giving up.
+    tolerance : float
+        Relative equilibrium residual accepted at a step.
+    max_iterations : int
+        Newton iterations per step before it is cut back.
+    max_cutbacks : int
+        Halvings of one step's arc length before the analysis stops.
+    limit_tolerance : float
+        Relative accuracy of the load factor at each located limit point and
+        branch point.
+    progress : callable, optional
+        Called as ``progress(step, load_factor)`` after each converged step.
+
+    Returns
+    -------
+    LoadPath
+
+    Raises
+    ------
+    PathError (a SolverError)
+        When a step cannot be converged, values turn non-finite, or
+        ``max_steps`` pass before ``max_load_factor`` is reached; one line
+        naming the step and the load factor reached.  ``err.path`` holds the
+        converged steps up to there.
+    MechanismError, ModelError
+        As for the linear analysis.
+    """
+    max_load_factor = float(max_load_factor)
+    _check_options(
+        max_load_factor, initial_increment, tolerance=tolerance, limit_tolerance=limit_tolerance,
+        max_steps=max_steps, max_iterations=max_iterations, max_cutbacks=max_cutbacks,
+    )
+    model.validate()
+    kind, f, factors = _reference_load(model, case_or_combination)
+    check_stability(model)
+    bars = Bars(model, f)
+    ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations))
+    label = f"nonlinear {kind} {case_or_combination!r}"
+
+    steps: list[State] = [bars.state(np.zeros(bars.nf), 0.0)]
+    cutbacks = 0
+
+    def path() -> LoadPath:
+        return _make_path(bars, steps, kind, case_or_combination, factors, max_load_factor,
+                          cutbacks)
+
+    def fail(text: str) -> PathError:
+        k = len(steps)
+        return PathError(
+            f"{label}: step {k} {text} (last converged load factor "
+            f"{steps[-1].lam:.6g} at step {k - 1}); the path up to there is in err.path",
+            path(),
+        )
+
+    try:
+        if not np.any(bars.q):
+            # No load on a free direction: equilibrium stays at the drawn shape.
+            steps[0].tangent = bars.tangent(steps[0])
+            end = bars.state(np.zeros(bars.nf), max_load_factor)
+            end.tangent = steps[0].tangent
+            steps.append(end)
+            return path()
+        steps[0].rate = _rate(bars, steps[0], None)
+    except RuntimeError as exc:
+        raise fail(f"could not factorise the unloaded tangent stiffness ({exc})") from exc
+
+    incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
+    dl0 = incr0 / abs(steps[0].rate)
+    dl = dl0
+    # Longest arc: a few default first steps, however small the first one was.
+    dl_max = _MAX_GROWTH * max(dl0, max_load_factor / 20.0 / abs(steps[0].rate))
+    direction: np.ndarray | None = None
+    tries = 0
+    while True:
+        if len(steps) > max_steps:
+            raise fail(f"not taken: {max_steps} steps used before reaching load factor "
+                       f"{max_load_factor:.6g}")
+        start = steps[-1]
+        new = _arc_step(bars, start, dl, direction, ctl)
+        pieces: list[State] = []
+        if new is not None:
+            pieces = [new]
+            if np.sign(new.rate) != np.sign(start.rate) and new.rate != 0:
+                limit = _locate_limit(bars, start, new, dl, direction, ctl, limit_tolerance)
+                if limit is not None:
+                    pieces = [limit, new]
+            elif _negative(start) >= 0 and _negative(new) >= 0 and (
+                _negative(new) != _negative(start)
+            ):
+                branch = _locate_branch(bars, start, new, dl, direction, ctl, limit_tolerance)
+                if branch is not None:
+                    pieces = [branch, new]
+            crossed, landed = _finish(bars, start, pieces, max_load_factor, ctl)
+            if crossed and landed is None:
+                new = None  # crossed the target but could not land: retry shorter
+            elif landed is not None:
+                steps.extend(landed)
+                if progress is not None:
+                    progress(len(steps) - 1, steps[-1].lam)
+                return path()
+        if new is None:
+            tries += 1
+            cutbacks += 1
+            dl *= 0.5
+            if tries > max_cutbacks or dl < _MIN_SHRINK * dl0:
+                raise fail(f"did not converge after {tries - 1} cutbacks of the arc length "
+                           f"(down to {dl * 2:.3g} m)")
+            continue
+        tries = 0
+        direction = new.uf - start.uf
+        steps.extend(pieces)
+        if progress is not None:
+            progress(len(steps) - 1, new.lam)
+        grow = np.sqrt(_DESIRED_ITERATIONS / max(new.iterations, 1))
+        dl = min(dl * float(np.clip(grow, 0.5, 2.0)), dl_max)
+
+
+def _finish(
+    bars: Bars, start: State, pieces: list[State], target: float, ctl: _Control
+) -> tuple[bool, list[State] | None]:
+    """Whether this step rises through ``target``, and the states ending exactly on it.
+
+    (False, None): not crossed; (True, None): crossed, but landing failed.
+    """
+    prev = start
+    for k, p in enumerate(pieces):
+        if prev.lam < target <= p.lam:
+            end = _land(bars, prev, p, target, ctl)
+            return True, None if end is None else [*pieces[:k], end]
+        prev = p
+    return False, None
+
+
+def _make_path(
+    bars: Bars,
+    steps: list[State],
+    kind: str,
+    name: str,
+    factors: dict[str, float],
+    max_load_factor: float,
+    cutbacks: int,
+) -> LoadPath:
+    n = bars.n
+    lam = np.array([s.lam for s in steps])
+    U = np.zeros((len(steps), 3 * n))
+    U[:, bars.free] = np.array([s.uf for s in steps]).reshape(len(steps), bars.nf)
+    N = np.array([s.N for s in steps])
+    R = np.array([bars.reactions(s) for s in steps])
+    for what, arr in (("load factors", lam), ("displacements", U), ("axial forces", N),
+                      ("reactions", R)):
+        if not np.all(np.isfinite(arr)):
+            raise SolverError(f"nonlinear {kind} {name!r}: non-finite {what} in a converged step")
+    d = np.diff(lam)
+    nz = np.flatnonzero(d != 0)
+    turn = nz[1:][np.sign(d[nz[1:]]) != np.sign(d[nz[:-1]])]
+    # A turn between increments nz[j-1] and nz[j] sits at step nz[j].
+    return LoadPath(
+        name=name,
+        kind=kind,
+        load_factors=lam,
+        displacements=U.reshape(len(steps), n, 3),
+        axial_forces=N,
+        reactions=R,
+        loads=bars.f.reshape(n, 3).copy(),
+        limit_points=turn.astype(np.int64),
+        negative_pivots=np.array(
+            [s.tangent.negative if s.tangent is not None else -1 for s in steps], dtype=np.int64
+        ),
+        iterations=np.array([s.iterations for s in steps], dtype=np.int64),
+        residuals=np.array([s.residual for s in steps]),
+        cutbacks=cutbacks,
+        max_load_factor=max_load_factor,
+        factors=dict(factors),
+    )
