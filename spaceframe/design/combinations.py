@@ -172,8 +172,11 @@ def generate_combinations(
             for lead, f in _variable_patterns(var, gamma_Q, "psi0"):
                 q = {c: (v * gamma_Q if c != lead else v) for c, v in f.items()}
                 add("ULS 6.10b", "ULS", {**g, **q}, lead)
-    sets: dict[str, tuple[float | str, str, str]] = {"characteristic": (1.0, "psi0", "SLS-char"), "frequent": ("psi1", "psi2", "SLS-freq"),
-            "quasi-permanent": (0.0, "psi2", "SLS-qp")}
+    sets: dict[str, tuple[float | str, str, str]] = {
+        "characteristic": (1.0, "psi0", "SLS-char"),
+        "frequent": ("psi1", "psi2", "SLS-freq"),
+        "quasi-permanent": (0.0, "psi2", "SLS-qp"),
+    }
     for name in serviceability:
         if name not in sets:
             raise ModelError(
