@@ -258,6 +258,7 @@ def run_study(
     journal: str | Path | None = None,
     progress: Callable[[int, int], None] | None = None,
     solver: str = "auto",
+    client: Any = None,
 ) -> StudyTable:
     """Run every variant and gather the table.
 
@@ -281,6 +282,9 @@ def run_study(
         journal skips the variants it already holds.
     progress : callable, optional
         Called with (finished, total) after each variant.
+    client : dask.distributed.Client, optional
+        A client already connected (then ``scheduler`` and ``workers`` are
+        not used, and the client stays open).
 
     Raises
     ------
@@ -319,7 +323,7 @@ def run_study(
                 finished(i, evaluate_variant(model, table[i], secs, solver))
         else:
             _run_dask(model, [table[i] for i in todo], todo, secs, solver, scheduler,
-                      workers, finished)
+                      workers, finished, client)
     ordered = [rows[i] for i in range(total)]
     return StudyTable(rows=ordered, parameters=list(vary), skipped=total - len(todo),
                       failed=[i for i, r in enumerate(ordered) if r.get("error")])
@@ -329,6 +333,7 @@ def _run_dask(
     model: Model, params: list[dict[str, Any]], index: list[int],
     sections: Mapping[str, Section], solver: str, scheduler: str | None,
     workers: int | None, finished: Callable[[int, dict[str, Any]], None],
+    client: Any = None,
 ) -> None:
     try:
         from dask.distributed import Client, LocalCluster, as_completed
@@ -338,7 +343,10 @@ def _run_dask(
             "(or run it with scheduler = 'serial')"
         ) from None
     cluster = None
-    if scheduler is None:
+    own = client is None
+    if client is not None:
+        pass
+    elif scheduler is None:
         cluster = LocalCluster(n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
                                processes=True, dashboard_address=None,
                                silence_logs=logging.WARNING)
@@ -358,7 +366,8 @@ def _run_dask(
         for fut in as_completed(futures):
             finished(where[fut.key], fut.result())
     finally:
-        client.close()
+        if own:
+            client.close()
         if cluster is not None:
             cluster.close()
 
