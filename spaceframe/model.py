@@ -851,7 +851,12 @@ class Model:
             On inconsistent input.
         """
         from spaceframe.analysis.static import solve_static
+        from spaceframe.analysis.tension_only import needs_load_sets, solve_tension_only
 
+        if needs_load_sets(self):
+            # Tension-only members or pretension: no superposition; every case
+            # and combination is solved as its own load set.
+            return solve_tension_only(self, solver=solver)
         return solve_static(self, solver=solver)
 
 
