@@ -121,8 +121,9 @@ def _solve_set(model: Model, name: str, kind: str, factors: dict[str, float],
             res = solve_static(sub, solver=solver)[lc.name]
         except MechanismError as exc:
             raise MechanismError(
-                f"with members {_ids(np.flatnonzero(~active))} slack the frame is a mechanism under {kind} {name!r}: "
-                f"{exc}", nodes=exc.nodes, directions=exc.directions,
+                f"with members {_ids(np.flatnonzero(~active))} slack the frame is a "
+                f"mechanism under {kind} {name!r}: {exc}",
+                nodes=exc.nodes, directions=exc.directions,
             ) from None
         u = res.displacements
         d = u[model.members[:, 1]] - u[model.members[:, 0]]
