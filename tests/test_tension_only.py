@@ -106,3 +106,14 @@ def test_slack_members_that_leave_a_mechanism_are_named():
     m.add_load("down", 1, (0.0, 0.0, -1e3))
     with pytest.raises(sf.MechanismError, match=r"with members 0 slack .* case 'down'"):
         m.solve()
+
+
+def test_cable_presets_give_breaking_force_and_modulus():
+    from spaceframe.design.cables import cable_preset
+
+    p = cable_preset("spiral-strand")
+    # F_min = K d² R_r (the usual breaking-force form): 0.525 x 40² x 1570 N = 1.319 MN
+    assert p.breaking_force(0.040) == pytest.approx(0.525 * 40.0**2 * 1570.0)
+    assert p.E == 150e9  # EN 1993-1-11 Table B.2 (from memory)
+    with pytest.raises(sf.ModelError, match="presets"):
+        cable_preset("rope")
