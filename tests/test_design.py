@@ -343,3 +343,10 @@ def test_member_properties_are_validated():
     with pytest.raises(ModelError, match="net_area_factor"):
         m.set_member_properties([0], net_area_factor=1.2)
     assert CHECKS[0] == "none"
+
+
+def test_self_weight_refuses_upward_or_zero_gravity():
+    m, _ = _tripod()
+    for g in (-9.81, 0.0, float("nan")):
+        with pytest.raises(ModelError, match="positive acceleration"):
+            m.add_self_weight("G", g=g)
