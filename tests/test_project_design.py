@@ -6,12 +6,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from test_project import CANOPY
 
 import spaceframe as sf
 from spaceframe.errors import ProjectError
 from spaceframe.project import parse_project
-
-from test_project import CANOPY
 
 DESIGN = """
 [design]
