@@ -16,9 +16,13 @@ panels as 3DFACE (MESH beyond four corners), with ``$INSUNITS`` set.
 
 from __future__ import annotations
 
+import contextlib
+import logging
 import math
 import os
+import re
 import warnings
+from collections.abc import Iterator
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -69,6 +73,49 @@ _MAX_BLOCK_DEPTH = 32
 # without being listed as ignored (they are annotation or structure).
 _SILENT = frozenset({"ATTDEF", "ATTRIB", "VIEWPORT", "SEQEND", "VERTEX"})
 
+# What a broken entity of a damaged file raises inside ezdxf: besides its
+# own DXFError (which includes DXFAttributeError for an entity whose type
+# name was damaged), the plain errors of bad values, missing tags and
+# degenerate transforms.
+_ENTITY_ERRORS: tuple[type[Exception], ...] = (
+    AttributeError,
+    ArithmeticError,
+    IndexError,
+    KeyError,
+    TypeError,
+    ValueError,
+)
+
+# Ignored-table kinds that mean "an entity was lost" rather than "an entity
+# of a kind that is not a member": they start with these words.
+_SKIPPED_PREFIXES = ("damaged ", "INSERT of block ")
+
+# At most this many items of a list are named in a warning; the rest are counted.
+_SHOW = 5
+
+
+def _kind_of(e: Any) -> str:
+    """The type name of an entity that may be damaged."""
+    try:
+        return str(e.dxftype())
+    except _ENTITY_ERRORS:
+        return type(e).__name__
+
+
+def _layer_of(e: Any) -> str:
+    """The layer of an entity that may be damaged ("?" when it has none)."""
+    try:
+        return str(e.dxf.layer)
+    except _ENTITY_ERRORS:
+        pass
+    # An entity with a damaged type name is kept by ezdxf as raw tags.
+    with contextlib.suppress(*_ENTITY_ERRORS):
+        for tags in e.xtags.subclasses:
+            for tag in tags:
+                if tag.code == 8:
+                    return str(tag.value)
+    return "?"
+
 
 class _Collector:
     """Walks the model space once, appending coordinates to flat Python lists.
@@ -97,6 +144,9 @@ class _Collector:
         self._canon_index: dict[str, int] = {}
         self.ignored: dict[str, dict[str, Any]] = {}
         self.filtered: dict[str, int] = {}
+        # Block references with z-scale 0 read with z-scale 1 (their block
+        # is flat), by block name.
+        self.zscale0: dict[str, int] = {}
 
     # -- helpers
     def _layer(self, name: str) -> int:
@@ -129,9 +179,16 @@ class _Collector:
     def visit(self, entities: Any, inherit: str | None, depth: int) -> None:
         from ezdxf.lldxf.const import DXFError
 
+        isfinite = math.isfinite
         for e in entities:
-            kind = e.dxftype()
-            layer = e.dxf.layer
+            try:
+                kind = e.dxftype()
+                layer = e.dxf.layer
+            except (DXFError, *_ENTITY_ERRORS) as exc:
+                # A damaged type name leaves an entity without DXF
+                # attributes: skipped and listed like any broken entity.
+                self._ignore(f"damaged {_kind_of(e)} ({type(exc).__name__})", _layer_of(e))
+                continue
             if inherit is not None and layer == "0":
                 # Entities on layer 0 inside a block take the insert's layer.
                 layer = inherit
@@ -141,8 +198,16 @@ class _Collector:
                     self._filtered(layer)
                     continue
                 dxf = e.dxf
-                self.xyz.extend(dxf.start)
-                self.xyz.extend(dxf.end)
+                try:
+                    start, end = tuple(dxf.start), tuple(dxf.end)
+                except (DXFError, *_ENTITY_ERRORS) as exc:
+                    self._ignore(f"damaged LINE ({type(exc).__name__})", layer)
+                    continue
+                if not (isfinite(sum(start)) and isfinite(sum(end))):
+                    self._ignore("damaged LINE (coordinate not a finite number)", layer)
+                    continue
+                self.xyz.extend(start)
+                self.xyz.extend(end)
                 k = len(self.xyz) // 3
                 self.seg.extend((k - 2, k - 1))
                 self.seg_owner.append(self._owner(li))
@@ -155,34 +220,140 @@ class _Collector:
                 if li < 0:
                     self._filtered(layer)
                     continue
+                mark = self._mark()
                 try:
                     self._other(e, kind, layer, li)
-                except (DXFError, ValueError, IndexError) as exc:
+                except (DXFError, *_ENTITY_ERRORS) as exc:
                     # One broken entity of a damaged file is skipped and
-                    # listed; the rest of the drawing is still read.
+                    # listed; the rest of the drawing is still read.  What
+                    # it had added before failing is taken back.
+                    self._rollback(mark)
                     self._ignore(f"damaged {kind} ({type(exc).__name__})", layer)
+                    continue
+                if not self._finite_since(mark):
+                    self._rollback(mark)
+                    self._ignore(f"damaged {kind} (coordinate not a finite number)", layer)
+
+    def _mark(self) -> tuple[int, ...]:
+        return (
+            len(self.xyz),
+            len(self.seg),
+            len(self.seg_owner),
+            len(self.face_nodes),
+            len(self.face_sizes),
+            len(self.face_owner),
+            len(self.edges),
+            len(self.edge_face),
+            len(self.marker_xyz),
+            len(self.marker_layer),
+            len(self.owner_layer),
+        )
+
+    def _finite_since(self, mark: tuple[int, ...]) -> bool:
+        # A sum is finite only if every term is (short of overflow near
+        # 1e308, which a drawing of a frame does not reach).
+        return math.isfinite(sum(self.xyz[mark[0] :])) and math.isfinite(
+            sum(self.marker_xyz[mark[8] :])
+        )
+
+    def _counts(self) -> tuple[dict[str, Any], dict[str, int], dict[str, int]]:
+        ignored = {
+            k: {"count": v["count"], "layers": dict(v["layers"])} for k, v in self.ignored.items()
+        }
+        return ignored, dict(self.filtered), dict(self.zscale0)
+
+    def _rollback(
+        self,
+        mark: tuple[int, ...],
+        counts: tuple[dict[str, Any], dict[str, int], dict[str, int]] | None = None,
+    ) -> None:
+        """Take back what was added since ``mark`` (and the counts, if given)."""
+        if counts is not None:
+            self.ignored, self.filtered, self.zscale0 = counts
+        lists = (
+            self.xyz,
+            self.seg,
+            self.seg_owner,
+            self.face_nodes,
+            self.face_sizes,
+            self.face_owner,
+            self.edges,
+            self.edge_face,
+            self.marker_xyz,
+            self.marker_layer,
+            self.owner_layer,
+        )
+        for values, n in zip(lists, mark, strict=True):
+            del values[n:]
 
     def _filtered(self, layer: str) -> None:
         self.filtered[layer] = self.filtered.get(layer, 0) + 1
 
     def _insert(self, insert: Any, layer: str, depth: int) -> None:
-        name = insert.dxf.name
+        from ezdxf.lldxf.const import DXFError
+
+        try:
+            name = str(insert.dxf.name)
+            zscale = float(insert.dxf.zscale)
+        except (DXFError, *_ENTITY_ERRORS) as exc:
+            self._ignore(f"damaged INSERT ({type(exc).__name__})", layer)
+            return
         if depth >= _MAX_BLOCK_DEPTH:
             raise ReadError(
                 f"{self.where}: block {name!r} is nested more than {_MAX_BLOCK_DEPTH} levels "
                 "deep (a block that inserts itself?)"
             )
+        if zscale == 0.0:
+            self._flat_insert(insert, name, layer, depth)
+            return
+        mark, before = self._mark(), self._counts()
+        try:
+            self._expand(insert, layer, depth)
+        except (DXFError, *_ENTITY_ERRORS) as exc:
+            # The whole reference is skipped (not half of a MINSERT grid).
+            self._rollback(mark, before)
+            self._ignore(f"INSERT of block {name!r} ({type(exc).__name__})", layer)
+
+    def _expand(self, insert: Any, layer: str, depth: int) -> None:
+        # MINSERT grids expand to one virtual INSERT per cell; a plain
+        # virtual_entities() call would give only the first cell.
+        inserts = list(insert.multi_insert()) if insert.mcount > 1 else [insert]
+        for ins in inserts:
+            children = list(ins.virtual_entities())
+            self.visit(children, layer, depth + 1)
+
+    def _flat_insert(self, insert: Any, name: str, layer: str, depth: int) -> None:
+        """A block reference with z-scale 0, as some 2D exporters write them.
+
+        The transform is singular (ezdxf cannot expand a nested reference
+        through it), but for a flat block (every point at the base point's
+        z) the z-scale changes nothing: such a block is read with z-scale 1.
+        A block with depth would be squashed flat by z-scale 0, which is
+        hardly what a frame drawing means, so it is skipped and listed.
+        """
         from ezdxf.lldxf.const import DXFError
 
+        mark, before = self._mark(), self._counts()
         try:
-            # MINSERT grids expand to one virtual INSERT per cell; a plain
-            # virtual_entities() call would give only the first cell.
-            inserts = list(insert.multi_insert()) if insert.mcount > 1 else [insert]
-            for ins in inserts:
-                children = list(ins.virtual_entities())
-                self.visit(children, layer, depth + 1)
-        except (DXFError, KeyError, ValueError, ZeroDivisionError, ArithmeticError) as exc:
+            insert.dxf.zscale = 1.0
+            origin = np.asarray(insert.ocs().to_wcs(insert.dxf.insert), dtype=float)
+            normal = np.asarray(insert.dxf.extrusion, dtype=float)
+            self._expand(insert, layer, depth)
+        except (DXFError, *_ENTITY_ERRORS) as exc:
+            self._rollback(mark, before)
             self._ignore(f"INSERT of block {name!r} ({type(exc).__name__})", layer)
+            return
+        finally:
+            insert.dxf.zscale = 0.0
+        pts = np.asarray(self.xyz[mark[0] :] + self.marker_xyz[mark[8] :], dtype=float)
+        rel = pts.reshape(-1, 3) - origin
+        depth_off = np.abs(rel @ (normal / np.linalg.norm(normal))) if rel.size else rel
+        size = float(np.abs(rel).max()) if rel.size else 0.0
+        if rel.size and not float(depth_off.max()) <= 1e-9 * max(size, 1e-300):
+            self._rollback(mark, before)
+            self._ignore(f"INSERT of block {name!r} with z-scale 0 and depth", layer)
+            return
+        self.zscale0[name] = self.zscale0.get(name, 0) + 1
 
     def _other(self, e: Any, kind: str, layer: str, li: int) -> None:
         if kind == "LWPOLYLINE":
@@ -340,23 +511,84 @@ def _open(path: Path) -> tuple[Drawing, dict[str, Any] | None]:
             f"{path}: is not a DXF file (a DXF starts with group code 0 and SECTION; "
             f"this one starts with {head!r})"
         )
+    # Any exception of ezdxf's parser means a damaged file here (the file is
+    # known to exist and to look like DXF): it goes to the recover reader.
     try:
-        return ezdxf.readfile(str(path)), None
+        doc = ezdxf.readfile(str(path))
     except Exception as exc:
         first = exc
+    else:
+        # A file that parses may still hold broken structure (pointers to
+        # missing layers or blocks, invalid values): ezdxf's audit repairs
+        # it, and every repair is reported.
+        try:
+            auditor = doc.audit()
+        except Exception as exc:
+            raise ReadError(
+                f"{path}: damaged DXF: ezdxf's audit failed ({_exc_text(exc)})"
+            ) from exc
+        if auditor.fixes or auditor.errors:
+            return doc, _repairs(auditor, None)
+        return doc, None
     try:
         doc, auditor = recover.readfile(str(path))
     except Exception as exc:
         raise ReadError(
             f"{path}: damaged DXF that ezdxf.recover could not read either "
-            f"({type(first).__name__}: {first}; then {type(exc).__name__}: {exc})"
+            f"({_exc_text(first)}; then {_exc_text(exc)})"
         ) from exc
-    info = {
-        "reason": f"{type(first).__name__}: {first}".rstrip(": "),
+    return doc, _repairs(auditor, _exc_text(first))
+
+
+def _exc_text(exc: BaseException) -> str:
+    """ "Type: message", without the type twice (ezdxf repeats it in some texts)."""
+    name, text = type(exc).__name__, str(exc).strip()
+    while text.startswith(name + ":"):
+        text = text[len(name) + 1 :].strip()
+    return f"{name}: {text}" if text else name
+
+
+def _repairs(auditor: Any, reason: str | None) -> dict[str, Any]:
+    """What ezdxf's recover (``reason`` given) or audit (None) did, for ``model.meta``."""
+    return {
+        "reason": reason,
         "fixes": [str(entry.message) for entry in auditor.fixes],
         "errors": [str(entry.message) for entry in auditor.errors],
     }
-    return doc, info
+
+
+class _LogRecords(logging.Handler):
+    """Keeps ezdxf's log records (warnings and worse) of one read."""
+
+    def __init__(self) -> None:
+        super().__init__(logging.WARNING)
+        self.messages: list[str] = []
+
+    def emit(self, record: logging.LogRecord) -> None:
+        with contextlib.suppress(Exception):
+            self.messages.append(record.getMessage())
+
+
+@contextlib.contextmanager
+def _ezdxf_log() -> Iterator[_LogRecords]:
+    """Collect what ezdxf logs while reading, so it does not reach stderr bare.
+
+    A handler on the "ezdxf" logger means Python's last-resort handler (which
+    prints to stderr) is no longer used; an application that set up its own
+    logging still gets the records.
+    """
+    logger = logging.getLogger("ezdxf")
+    handler = _LogRecords()
+    logger.addHandler(handler)
+    try:
+        yield handler
+    finally:
+        logger.removeHandler(handler)
+
+
+# ezdxf log messages that say nothing about the drawing's members (ezdxf
+# copying dimension associations while expanding a block, for example).
+_LOG_NOISE = ("copy process ignored",)
 
 
 def read(
@@ -413,35 +645,60 @@ def read(
     where = str(p)
     check_options(where, heal_options, HEAL_OPTIONS)
     keep_layer = layer_filter(where, layers, exclude_layers)
-    doc, recovered = _open(p)
-
-    layer_names = {entry.dxf.name.lower(): entry.dxf.name for entry in doc.layers}
-    collector = _Collector(where, keep_layer, layer_names)
-    collector.visit(doc.modelspace(), None, 0)
-    raw = collector.raw()
+    with _ezdxf_log() as log:
+        doc, recovered = _open(p)
+        try:
+            layer_names = {entry.dxf.name.lower(): entry.dxf.name for entry in doc.layers}
+        except _ENTITY_ERRORS:
+            layer_names = {}
+        collector = _Collector(where, keep_layer, layer_names)
+        collector.visit(doc.modelspace(), None, 0)
+        raw = collector.raw()
 
     meta: dict[str, Any] = {}
+    notes: list[str] = []  # warnings, issued below in this order
     if recovered is not None:
-        meta["dxf:recover"] = recovered
-        warnings.warn(
-            f"{where}: damaged DXF ({recovered['reason']}), read with ezdxf.recover: "
-            f"{len(recovered['fixes'])} fixes, {len(recovered['errors'])} unfixed errors; "
-            "check the model (details in model.meta['dxf:recover'])",
-            SpaceframeWarning,
-            stacklevel=2,
-        )
+        # A file that needed the recover reader is "dxf:recover" (with the
+        # reason); one that only needed the audit's repairs is "dxf:audit".
+        meta["dxf:recover" if recovered["reason"] else "dxf:audit"] = recovered
+        notes += _repair_notes(where, recovered)
+        for kind, n in _removed_by_repair(recovered).items():
+            # Gone from the drawing before it was read: counted as skipped.
+            count_ignored(raw.ignored, f"damaged {kind} (removed by ezdxf's repair)", "unknown", n)
+    logged = [m for m in log.messages if not m.startswith(_LOG_NOISE)]
+    if logged:
+        meta["dxf:log"] = logged
+        notes.append(f"{where}: ezdxf reported {_items(logged, 3)} while reading")
     if collector.filtered:
         meta["dxf:filtered_layers"] = dict(collector.filtered)
-
-    curves = describe_ignored(raw.ignored, CURVE_KINDS)
-    if curves:
-        warnings.warn(
-            f"{where}: curves are not members and were ignored: {curves}",
-            SpaceframeWarning,
-            stacklevel=2,
+    if collector.zscale0:
+        meta["dxf:zscale0"] = dict(collector.zscale0)
+        n = sum(collector.zscale0.values())
+        notes.append(
+            f"{where}: {n} block reference(s) with z-scale 0, as 2D exporters write them "
+            f"({_named(collector.zscale0)}): their blocks are flat and were read with z-scale 1"
         )
+    skipped = {k: v for k, v in raw.ignored.items() if k.startswith(_SKIPPED_PREFIXES)}
+    if skipped:
+        notes.append(
+            f"{where}: {sum(v['count'] for v in skipped.values())} entities skipped "
+            f"(damaged or not expandable): {_describe(skipped)}"
+        )
+    curves = {k: v for k, v in raw.ignored.items() if k in CURVE_KINDS}
+    if curves:
+        notes.append(f"{where}: curves are not members and were ignored: {_describe(curves)}")
+    other = {k: v for k, v in raw.ignored.items() if k not in skipped and k not in curves}
+    if other:
+        notes.append(
+            f"{where}: {sum(v['count'] for v in other.values())} entities of kinds that are not "
+            f"members were ignored: {_describe(other)}"
+        )
+
+    for note in notes:
+        warnings.warn(note, SpaceframeWarning, stacklevel=2)
+
     hints = []
-    if recovered is not None:
+    if recovered is not None and recovered["reason"]:
         hints.append(f"the file is damaged ({recovered['reason']})")
     if raw.n_faces and not edges_as_members:
         hints.append("the drawing has faces: read with edges_as_members=True")
@@ -451,6 +708,9 @@ def read(
     # Nothing to read is the first thing to say, before any question of units.
     require_members(raw, where, edges_as_members, hint)
     file_units = _file_units(doc, where, units, raw)
+    on_zero = _layer_zero_note(where, raw, file_units.name)
+    if on_zero:
+        warnings.warn(on_zero, SpaceframeWarning, stacklevel=2)
     return build_model(
         raw,
         where=where,
@@ -461,6 +721,107 @@ def read(
         edges_as_members=edges_as_members,
         meta=meta,
         no_members_hint=hint,
+    )
+
+
+def _items(texts: list[str], show: int = _SHOW) -> str:
+    """'3 problems: "a"; "b" and 1 more' for a list of messages."""
+    shown = "; ".join(repr(t) for t in texts[:show])
+    more = f" and {len(texts) - show} more" if len(texts) > show else ""
+    return f"{len(texts)} problem(s): {shown}{more}"
+
+
+def _named(counts: dict[str, int], show: int = _SHOW) -> str:
+    """ "block 'A' x2, block 'B' x1" for a name -> count table."""
+    parts = [f"block {k!r} x{v}" for k, v in list(counts.items())[:show]]
+    more = f", {len(counts) - show} more blocks" if len(counts) > show else ""
+    return ", ".join(parts) + more
+
+
+def _describe(ignored: dict[str, dict[str, Any]], show: int = _SHOW) -> str:
+    """Like :func:`describe_ignored`, naming at most a few kinds and layers each."""
+    kinds = list(ignored)
+    text = describe_ignored({k: _few_layers(ignored[k], show) for k in kinds[:show]}, kinds[:show])
+    if len(kinds) > show:
+        rest = sum(ignored[k]["count"] for k in kinds[show:])
+        text += f"; {rest} more of {len(kinds) - show} other kinds"
+    return text
+
+
+def _few_layers(entry: dict[str, Any], show: int) -> dict[str, Any]:
+    layers = dict(entry["layers"])
+    if len(layers) <= show:
+        return entry
+    kept = dict(list(layers.items())[:show])
+    kept[f"{len(layers) - show} more layers"] = 0
+    return {"count": entry["count"], "layers": kept}
+
+
+# A repair message of ezdxf that concerns an entity that can become a
+# member, a marker or a panel, e.g. "Removed entity LINE(#10) with a
+# conflicting handle ...": such repairs are named first.
+_MEMBER_REPAIR = re.compile(r"\b(LINE|LWPOLYLINE|POLYLINE|VERTEX|INSERT|POINT|3DFACE|MESH)\(#")
+_REMOVED = re.compile(r"^Removed (?:entity )?([A-Z0-9_]+)\(#")
+
+
+def _repair_notes(where: str, recovered: dict[str, Any]) -> list[str]:
+    """One warning per repair ezdxf made (the first few), then a count of the rest.
+
+    Repairs of entities that could be members come first, so that a removed
+    LINE is never hidden behind repairs of the layer table.
+    """
+    fixes = sorted(recovered["fixes"], key=lambda t: not _MEMBER_REPAIR.search(t))
+    errors = recovered["errors"]
+    how = (
+        f"damaged DXF ({recovered['reason']}), read with ezdxf.recover"
+        if recovered["reason"]
+        else "ezdxf's audit found damage in the DXF"
+    )
+    on_members = sum(1 for t in fixes if _MEMBER_REPAIR.search(t))
+    notes = [
+        f"{where}: {how}: {len(fixes)} repairs ({on_members} of line, polyline, block reference, "
+        f"point or face entities), {len(errors)} unrepaired errors; check the model"
+    ]
+    notes += [f"{where}: ezdxf repaired: {text}" for text in fixes[:_SHOW]]
+    notes += [f"{where}: ezdxf could not repair: {text}" for text in errors[:_SHOW]]
+    rest = max(len(fixes) - _SHOW, 0) + max(len(errors) - _SHOW, 0)
+    if rest:
+        notes.append(f"{where}: ... and {rest} more repairs or errors reported by ezdxf")
+    return notes
+
+
+def _removed_by_repair(recovered: dict[str, Any]) -> dict[str, int]:
+    """Entities ezdxf's repair removed, by type ("Removed entity LINE(#10) ...")."""
+    removed: dict[str, int] = {}
+    for text in recovered["fixes"]:
+        found = _REMOVED.match(text)
+        if found:
+            removed[found.group(1)] = removed.get(found.group(1), 0) + 1
+    return removed
+
+
+def _layer_zero_note(where: str, raw: RawGeometry, unit: str) -> str:
+    """A warning when some lines are on layer 0 and all the others on named layers.
+
+    A damaged file that lost an entity's layer (group code 8) puts it on
+    layer 0, where it silently gets another group, hence another section.
+    """
+    if "0" not in raw.sets or len(raw.sets) < 2 or raw.segments.shape[0] == 0:
+        return ""
+    owners0 = np.asarray(raw.sets["0"], dtype=np.int64)
+    on_zero = np.zeros(1 + max(int(raw.segment_owner.max()), int(owners0.max())), dtype=bool)
+    on_zero[owners0] = True
+    seg_on = on_zero[raw.segment_owner]
+    n0, n = int(seg_on.sum()), int(seg_on.size)
+    if n0 == 0 or n0 == n:
+        return ""
+    first = raw.points[raw.segments[np.flatnonzero(seg_on)[:3], 0]]
+    at = "; ".join("(" + ", ".join(f"{c:.6g}" for c in p) + ")" for p in first.tolist())
+    more = ", ..." if n0 > 3 else ""
+    return (
+        f"{where}: {n0} of {n} lines are on layer '0' while the others are on named layers "
+        f"(starting at {at}{more} {unit}); a damaged file puts lines that lost their "
+        "layer on '0': check the groups of these lines"
     )
 
 
