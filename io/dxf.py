@@ -17,6 +17,7 @@ panels as 3DFACE (MESH beyond four corners), with ``$INSUNITS`` set.
 from __future__ import annotations
 
 import contextlib
+import functools
 import logging
 import math
 import os
@@ -92,6 +93,14 @@ _SKIPPED_PREFIXES = ("damaged ", "INSERT of block ")
 
 # At most this many items of a list are named in a warning; the rest are counted.
 _SHOW = 5
+
+
+@functools.lru_cache(maxsize=1)
+def _broken_entity_errors() -> tuple[type[Exception], ...]:
+    """ezdxf's own error class and the plain ones a broken entity raises."""
+    from ezdxf.lldxf.const import DXFError
+
+    return (DXFError, *_ENTITY_ERRORS)
 
 
 def _kind_of(e: Any) -> str:
@@ -177,14 +186,13 @@ class _Collector:
 
     # -- traversal
     def visit(self, entities: Any, inherit: str | None, depth: int) -> None:
-        from ezdxf.lldxf.const import DXFError
-
+        broken = _broken_entity_errors()
         isfinite = math.isfinite
         for e in entities:
             try:
                 kind = e.dxftype()
                 layer = e.dxf.layer
-            except (DXFError, *_ENTITY_ERRORS) as exc:
+            except broken as exc:
                 # A damaged type name leaves an entity without DXF
                 # attributes: skipped and listed like any broken entity.
                 self._ignore(f"damaged {_kind_of(e)} ({type(exc).__name__})", _layer_of(e))
@@ -200,7 +208,7 @@ class _Collector:
                 dxf = e.dxf
                 try:
                     start, end = tuple(dxf.start), tuple(dxf.end)
-                except (DXFError, *_ENTITY_ERRORS) as exc:
+                except broken as exc:
                     self._ignore(f"damaged LINE ({type(exc).__name__})", layer)
                     continue
                 if not (isfinite(sum(start)) and isfinite(sum(end))):
@@ -223,7 +231,7 @@ class _Collector:
                 mark = self._mark()
                 try:
                     self._other(e, kind, layer, li)
-                except (DXFError, *_ENTITY_ERRORS) as exc:
+                except broken as exc:
                     # One broken entity of a damaged file is skipped and
                     # listed; the rest of the drawing is still read.  What
                     # it had added before failing is taken back.
@@ -270,7 +278,7 @@ class _Collector:
         """Take back what was added since ``mark`` (and the counts, if given)."""
         if counts is not None:
             self.ignored, self.filtered, self.zscale0 = counts
-        lists = (
+        lists: tuple[list[Any], ...] = (
             self.xyz,
             self.seg,
             self.seg_owner,
@@ -290,12 +298,11 @@ class _Collector:
         self.filtered[layer] = self.filtered.get(layer, 0) + 1
 
     def _insert(self, insert: Any, layer: str, depth: int) -> None:
-        from ezdxf.lldxf.const import DXFError
-
+        broken = _broken_entity_errors()
         try:
             name = str(insert.dxf.name)
             zscale = float(insert.dxf.zscale)
-        except (DXFError, *_ENTITY_ERRORS) as exc:
+        except broken as exc:
             self._ignore(f"damaged INSERT ({type(exc).__name__})", layer)
             return
         if depth >= _MAX_BLOCK_DEPTH:
@@ -309,7 +316,7 @@ class _Collector:
         mark, before = self._mark(), self._counts()
         try:
             self._expand(insert, layer, depth)
-        except (DXFError, *_ENTITY_ERRORS) as exc:
+        except broken as exc:
             # The whole reference is skipped (not half of a MINSERT grid).
             self._rollback(mark, before)
             self._ignore(f"INSERT of block {name!r} ({type(exc).__name__})", layer)
@@ -331,15 +338,14 @@ class _Collector:
         A block with depth would be squashed flat by z-scale 0, which is
         hardly what a frame drawing means, so it is skipped and listed.
         """
-        from ezdxf.lldxf.const import DXFError
-
+        broken = _broken_entity_errors()
         mark, before = self._mark(), self._counts()
         try:
             insert.dxf.zscale = 1.0
             origin = np.asarray(insert.ocs().to_wcs(insert.dxf.insert), dtype=float)
             normal = np.asarray(insert.dxf.extrusion, dtype=float)
             self._expand(insert, layer, depth)
-        except (DXFError, *_ENTITY_ERRORS) as exc:
+        except broken as exc:
             self._rollback(mark, before)
             self._ignore(f"INSERT of block {name!r} ({type(exc).__name__})", layer)
             return
