@@ -8,7 +8,12 @@ expanded recursively with their transforms (nested, mirrored, MINSERT grids).
 POINT becomes a marker; 3DFACE, MESH and polyface/polygon-mesh POLYLINE
 become load panels.  Layers become member (and panel) groups.  Curves (arcs,
 circles, ellipses, splines, bulged polyline segments) are not members: they
-are counted, with their layers, in ``model.meta["io:ignored"]``.
+are counted, with their layers, in ``model.meta["io:ignored"]``, as is every
+other entity that is not read (text, hatches, damaged entities, block
+references that cannot be expanded); each kind is named in a
+SpaceframeWarning.  A block reference with z-scale 0, as 2D exporters write
+them, is read with z-scale 1 when its block is flat.  ezdxf's repairs of a
+damaged file and its log messages become warnings too.
 
 Writing puts the centrelines on one layer per group, markers as POINT and
 panels as 3DFACE (MESH beyond four corners), with ``$INSUNITS`` set.
@@ -205,18 +210,20 @@ class _Collector:
                 if li < 0:
                     self._filtered(layer)
                     continue
-                dxf = e.dxf
+                dxf, xyz = e.dxf, self.xyz
+                n0 = len(xyz)
                 try:
-                    start, end = tuple(dxf.start), tuple(dxf.end)
+                    xyz.extend(dxf.start)
+                    xyz.extend(dxf.end)
                 except broken as exc:
+                    del xyz[n0:]
                     self._ignore(f"damaged LINE ({type(exc).__name__})", layer)
                     continue
-                if not (isfinite(sum(start)) and isfinite(sum(end))):
+                if not isfinite(sum(xyz[-6:])):
+                    del xyz[-6:]
                     self._ignore("damaged LINE (coordinate not a finite number)", layer)
                     continue
-                self.xyz.extend(start)
-                self.xyz.extend(end)
-                k = len(self.xyz) // 3
+                k = len(xyz) // 3
                 self.seg.extend((k - 2, k - 1))
                 self.seg_owner.append(self._owner(li))
             elif kind == "INSERT":
@@ -614,8 +621,10 @@ def read(
     ----------
     path : str or path-like
         The DXF file (ASCII or binary).  A damaged file is read through
-        ``ezdxf.recover``; what it did is in ``model.meta["dxf:recover"]``
-        and a SpaceframeWarning says so.
+        ``ezdxf.recover``; what it did is in ``model.meta["dxf:recover"]``.
+        Every drawing is checked by ezdxf's audit; its repairs are in
+        ``model.meta["dxf:audit"]``.  Each repair is named in a
+        SpaceframeWarning (the first few, then a count).
     units : str, optional
         Drawing unit ("mm", "m", "inch", "ft", ...).  Required when the header
         has ``$INSUNITS = 0`` (unitless); overrides the header otherwise.
@@ -639,7 +648,10 @@ def read(
         Members without area or E; groups from layers (the layer table's
         spelling); panels in ``panel_groups`` by layer; markers from POINT.
         ``meta`` holds "source", "units", "heal:report", "io:ignored",
-        "io:extents" and, for a damaged file, "dxf:recover".
+        "io:extents" and, when they apply, "dxf:recover" or "dxf:audit"
+        (repairs), "dxf:log" (ezdxf's log messages), "dxf:zscale0" (block
+        references with z-scale 0 read with z-scale 1, by block name) and
+        "dxf:filtered_layers".
 
     Raises
     ------
