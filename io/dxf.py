@@ -693,13 +693,13 @@ def read(
         meta["dxf:zscale0"] = dict(collector.zscale0)
         n = sum(collector.zscale0.values())
         notes.append(
-            f"{where}: {n} block reference(s) with z-scale 0, as 2D exporters write them "
+            f"{where}: {_count(n, 'block reference')} with z-scale 0, as 2D exporters write them "
             f"({_named(collector.zscale0)}): their blocks are flat and were read with z-scale 1"
         )
     skipped = {k: v for k, v in raw.ignored.items() if k.startswith(_SKIPPED_PREFIXES)}
     if skipped:
         notes.append(
-            f"{where}: {sum(v['count'] for v in skipped.values())} entities skipped "
+            f"{where}: {_count(sum(v['count'] for v in skipped.values()), 'entity')} skipped "
             f"(damaged or not expandable): {_describe(skipped)}"
         )
     curves = {k: v for k, v in raw.ignored.items() if k in CURVE_KINDS}
@@ -707,9 +707,10 @@ def read(
         notes.append(f"{where}: curves are not members and were ignored: {_describe(curves)}")
     other = {k: v for k, v in raw.ignored.items() if k not in skipped and k not in curves}
     if other:
+        n_other = sum(v["count"] for v in other.values())
         notes.append(
-            f"{where}: {sum(v['count'] for v in other.values())} entities of kinds that are not "
-            f"members were ignored: {_describe(other)}"
+            f"{where}: {_count(n_other, 'entity')} of kinds that are not members were ignored: "
+            f"{_describe(other)}"
         )
 
     for note in notes:
@@ -740,6 +741,13 @@ def read(
         meta=meta,
         no_members_hint=hint,
     )
+
+
+def _count(n: int, noun: str) -> str:
+    """'1 entity', '3 entities', '2 block references'."""
+    if n == 1:
+        return f"1 {noun}"
+    return f"{n} {noun[:-1]}ies" if noun.endswith("y") else f"{n} {noun}s"
 
 
 def _items(texts: list[str], show: int = _SHOW) -> str:

@@ -109,7 +109,7 @@ def test_zscale_zero_block_with_depth_is_skipped_and_named(tmp_path: Path) -> No
     assert model.n_members == 1
     kind = "INSERT of block 'OUTER' with z-scale 0 and depth"
     assert model.meta["io:ignored"] == {kind: {"count": 1, "layers": {"BAY": 1}}}
-    assert any(t.endswith(f"1 entities skipped (damaged or not expandable): {kind} x1 on 'BAY'")
+    assert any(t.endswith(f"1 entity skipped (damaged or not expandable): {kind} x1 on 'BAY'")
                for t in texts), texts
     assert "dxf:zscale0" not in model.meta
 
@@ -147,7 +147,7 @@ def test_failed_block_expansion_is_counted_warned_and_rolled_back(
     assert model.n_members == 1
     kind = "INSERT of block 'GRID' (DXFStructureError)"
     assert model.meta["io:ignored"][kind] == {"count": 1, "layers": {"G": 1}}
-    assert any("1 entities skipped" in t and kind in t for t in texts), texts
+    assert any("1 entity skipped" in t and kind in t for t in texts), texts
 
 
 def test_unsupported_entities_are_warned_with_counts_and_layers(tmp_path: Path) -> None:
@@ -362,11 +362,11 @@ def test_check_names_the_zscale_zero_reading_and_skipped_entities(
     assert main(["check", str(flat)]) in (0, 1)
     out = capsys.readouterr().out
     assert "5 members" in out
-    assert re.search(r"warning: .*block reference\(s\) with z-scale 0.*read with z-scale 1", out)
+    assert re.search(r"warning: .*1 block reference with z-scale 0.*read with z-scale 1", out)
     deep = _zscale_zero_drawing(tmp_path / "deep.dxf", (0, 0, 1))
     main(["check", str(deep)])
     out = capsys.readouterr().out
-    assert re.search(r"warning: .*1 entities skipped.*INSERT of block 'OUTER'", out)
+    assert re.search(r"warning: .*1 entity skipped.*INSERT of block 'OUTER'", out)
     assert "model.meta" not in out
 
 
@@ -400,6 +400,6 @@ def test_run_names_skipped_entities(tmp_path: Path, capsys: pytest.CaptureFixtur
     captured = capsys.readouterr()
     assert code == 0, captured.err
     text = captured.out + captured.err
-    assert "1 entities skipped" in text and "INSERT of block 'STAY'" in text
+    assert "1 entity skipped" in text and "INSERT of block 'STAY'" in text
     summary = json.loads((out_dir / "summary.json").read_text())
     assert any("INSERT of block 'STAY'" in w for w in summary["warnings"])
