@@ -723,6 +723,13 @@ def read(
         hints.append("the drawing has faces: read with edges_as_members=True")
     if collector.filtered:
         hints.append(f"layers filtered out: {', '.join(sorted(collector.filtered))}")
+    if not raw.segments.shape[0]:
+        paper = _paper_space_count(doc)
+        if paper:
+            hints.append(
+                f"only the model space is read, and {_count(paper, 'entity')} "
+                f"{'is' if paper == 1 else 'are'} in paper space"
+            )
     hint = "; ".join(hints)
     # Nothing to read is the first thing to say, before any question of units.
     require_members(raw, where, edges_as_members, hint)
@@ -741,6 +748,20 @@ def read(
         meta=meta,
         no_members_hint=hint,
     )
+
+
+def _paper_space_count(doc: Drawing) -> int:
+    """Entities drawn in the paper-space layouts (0 when they cannot be counted)."""
+    try:
+        return sum(
+            1
+            for layout in doc.layouts
+            if not layout.is_modelspace
+            for e in layout
+            if e.dxftype() != "VIEWPORT"  # every layout has one; it is no drawing
+        )
+    except _ENTITY_ERRORS:
+        return 0
 
 
 def _count(n: int, noun: str) -> str:

@@ -403,3 +403,13 @@ def test_run_names_skipped_entities(tmp_path: Path, capsys: pytest.CaptureFixtur
     assert "1 entity skipped" in text and "INSERT of block 'STAY'" in text
     summary = json.loads((out_dir / "summary.json").read_text())
     assert any("INSERT of block 'STAY'" in w for w in summary["warnings"])
+
+
+def test_lines_drawn_in_paper_space_are_pointed_at(tmp_path: Path) -> None:
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 6
+    doc.paperspace().add_line((0, 0, 0), (1, 0, 0))
+    doc.paperspace().add_line((1, 0, 0), (1, 1, 0))
+    doc.saveas(tmp_path / "paper.dxf")
+    with pytest.raises(sf.ReadError, match=r"no usable entities.*2 entities are in paper space"):
+        sfdxf.read(tmp_path / "paper.dxf")
