@@ -161,6 +161,8 @@ class _Collector:
         # Block references with z-scale 0 read with z-scale 1 (their block
         # is flat), by block name.
         self.zscale0: dict[str, int] = {}
+        self._nested_zero: dict[str, list[int]] = {}  # by block name, see _zero_nested
+        self._zero_ids: set[int] = set()  # nested copies whose z-scale was 0
 
     # -- helpers
     def _layer(self, name: str) -> int:
@@ -308,7 +310,7 @@ class _Collector:
         broken = _broken_entity_errors()
         try:
             name = str(insert.dxf.name)
-            zscale = float(insert.dxf.zscale)
+            zscale = 0.0 if id(insert) in self._zero_ids else float(insert.dxf.zscale)
         except broken as exc:
             self._ignore(f"damaged INSERT ({type(exc).__name__})", layer)
             return
@@ -334,7 +336,31 @@ class _Collector:
         inserts = list(insert.multi_insert()) if insert.mcount > 1 else [insert]
         for ins in inserts:
             children = list(ins.virtual_entities())
-            self.visit(children, layer, depth + 1)
+            zero = self._zero_nested(ins)
+            marked: list[int] = []
+            if zero:
+                # ezdxf's copy of a nested reference with z-scale 0 comes
+                # out with z-scale 1 (and ezdxf will not set 0): it is
+                # marked so that the rule for such references
+                # (_flat_insert) applies here too.
+                nested = [c for c in children if c.dxftype() == "INSERT"]
+                marked = [id(nested[k]) for k in zero if k < len(nested)]
+                self._zero_ids.update(marked)
+            try:
+                self.visit(children, layer, depth + 1)
+            finally:
+                self._zero_ids.difference_update(marked)
+
+    def _zero_nested(self, insert: Any) -> list[int]:
+        """Positions, among the block's nested references, of those with z-scale 0."""
+        name = str(insert.dxf.name)
+        found = self._nested_zero.get(name)
+        if found is None:
+            block = insert.block()
+            nested = [e for e in block if e.dxftype() == "INSERT"] if block is not None else []
+            found = [k for k, e in enumerate(nested) if float(e.dxf.zscale) == 0.0]
+            self._nested_zero[name] = found
+        return found
 
     def _flat_insert(self, insert: Any, name: str, layer: str, depth: int) -> None:
         """A block reference with z-scale 0, as some 2D exporters write them.
@@ -348,6 +374,7 @@ class _Collector:
         broken = _broken_entity_errors()
         mark, before = self._mark(), self._counts()
         try:
+            # Set on the document in memory, which is never saved.
             insert.dxf.zscale = 1.0
             origin = np.asarray(insert.ocs().to_wcs(insert.dxf.insert), dtype=float)
             normal = np.asarray(insert.dxf.extrusion, dtype=float)
@@ -356,8 +383,6 @@ class _Collector:
             self._rollback(mark, before)
             self._ignore(f"INSERT of block {name!r} ({type(exc).__name__})", layer)
             return
-        finally:
-            insert.dxf.zscale = 0.0
         pts = np.asarray(self.xyz[mark[0] :] + self.marker_xyz[mark[8] :], dtype=float)
         rel = pts.reshape(-1, 3) - origin
         depth_off = np.abs(rel @ (normal / np.linalg.norm(normal))) if rel.size else rel

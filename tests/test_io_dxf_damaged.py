@@ -96,9 +96,6 @@ def test_zscale_zero_flat_block_with_nested_block_keeps_all_members(tmp_path: Pa
     note = [t for t in texts if "z-scale 0" in t]
     assert len(note) == 1 and "block 'OUTER' x1" in note[0] and "read with z-scale 1" in note[0]
     assert model.meta["io:ignored"] == {}
-    # The document is left as read: the reference still has z-scale 0.
-    text = path.read_text()
-    assert "\n 43\n0.0\n" in text
 
 
 def test_zscale_zero_block_with_depth_is_skipped_and_named(tmp_path: Path) -> None:
@@ -413,3 +410,30 @@ def test_lines_drawn_in_paper_space_are_pointed_at(tmp_path: Path) -> None:
     doc.saveas(tmp_path / "paper.dxf")
     with pytest.raises(sf.ReadError, match=r"no usable entities.*2 entities are in paper space"):
         sfdxf.read(tmp_path / "paper.dxf")
+
+
+def test_nested_references_with_zscale_zero_follow_the_same_rule(tmp_path: Path) -> None:
+    # A block inserted normally holds two references with z-scale 0: one of a
+    # flat block (read with z-scale 1, counted) and one of a block with depth
+    # (skipped and named, not silently read with z-scale 1).
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 6
+    doc.blocks.new("TRI").add_line((0, 0, 0), (2, 0, 0))
+    doc.blocks.new("POST").add_line((0, 0, 0), (0, 0, 2))
+    frame = doc.blocks.new("FRAME")
+    frame.add_blockref("TRI", (0, 0, 0), dxfattribs={"zscale": 7.0})
+    frame.add_blockref("POST", (5, 0, 0), dxfattribs={"zscale": 7.0})
+    frame.add_line((0, 0, 0), (0, 3, 0))
+    doc.modelspace().add_blockref("FRAME", (0, 0, 1), dxfattribs={"layer": "F"})
+    path = tmp_path / "nested.dxf"
+    doc.saveas(path)
+    _edit(path, r"\n 43\n7\.0\n", "\n 43\n0.0\n", count=2)
+    model, texts = _caught(sfdxf.read, path)
+    assert _member_keys(model) == {
+        frozenset({(0.0, 0.0, 1.0), (2.0, 0.0, 1.0)}),
+        frozenset({(0.0, 0.0, 1.0), (0.0, 3.0, 1.0)}),
+    }
+    assert model.meta["dxf:zscale0"] == {"TRI": 1}
+    kind = "INSERT of block 'POST' with z-scale 0 and depth"
+    assert model.meta["io:ignored"] == {kind: {"count": 1, "layers": {"F": 1}}}
+    assert any("1 entity skipped" in t and kind in t for t in texts), texts
