@@ -437,3 +437,18 @@ def test_nested_references_with_zscale_zero_follow_the_same_rule(tmp_path: Path)
     kind = "INSERT of block 'POST' with z-scale 0 and depth"
     assert model.meta["io:ignored"] == {kind: {"count": 1, "layers": {"F": 1}}}
     assert any("1 entity skipped" in t and kind in t for t in texts), texts
+
+
+def test_line_with_a_non_finite_coordinate_is_skipped_and_counted(tmp_path: Path) -> None:
+    path = _grid_drawing(tmp_path / "nan.dxf")
+    text = path.read_text()
+    start, end = _nth_entity_span(text, "LINE", 6)  # CHORD from (3000, 0, 0)
+    entity = text[start:end]
+    damaged = re.sub(r"\n 10\n3000\.0\n", "\n 10\n1e999\n", entity, count=1)
+    assert damaged != entity
+    path.write_text(text[:start] + damaged + text[end:])
+    model, texts = _caught(sfdxf.read, path)
+    assert model.n_members == 7
+    kind = "damaged LINE (coordinate not a finite number)"
+    assert model.meta["io:ignored"] == {kind: {"count": 1, "layers": {"CHORD": 1}}}
+    assert any(f"{kind} x1 on 'CHORD'" in t for t in texts), texts
