@@ -228,13 +228,19 @@ class RunOutcome:
 #: is ever replaced, and only the paths it lists are ever removed.
 MARKER = ".spaceframe-results"
 
-#: Environment variable naming a point of the writer where the process kills itself
-#: (SIGKILL): the fault tests use it to stop a run at chosen moments.
+#: Environment variable for the fault tests, a comma-separated list: a point of the
+#: writer ("after-mkdtemp", "after-write", "before-swap", "mid-swap", "after-swap",
+#: "mid-merge") makes the process kill itself there (SIGKILL); "disk-full" fails the
+#: writing as a full disk would; "no-exchange" takes the two-rename swap.
 FAULT_ENV = "SPACEFRAME_FAULT"
 
 
+def _faults() -> list[str]:
+    return os.environ.get(FAULT_ENV, "").split(",")
+
+
 def _fault(point: str) -> None:
-    if os.environ.get(FAULT_ENV) == point:
+    if point in _faults():
         os.kill(os.getpid(), getattr(signal, "SIGKILL", signal.SIGTERM))
 
 
@@ -318,10 +324,12 @@ def _clean_leftovers(final: Path, notes: list[str]) -> None:
                 entry.rename(final)
                 notes.append(f"{final}: restored the results of an interrupted run")
                 continue
-            shutil.rmtree(entry)
+            errors = _rmtree_marked(entry)
         except OSError as exc:
+            errors = [str(exc.strerror or exc)]
+        if errors:
             notes.append(f"{entry}: could not remove this leftover of an interrupted run "
-                         f"({exc.strerror or exc}); remove it by hand")
+                         f"({errors[0]}); remove it by hand")
 
 
 @dataclass
@@ -409,7 +417,7 @@ _AT_FDCWD, _RENAME_EXCHANGE = -100, 2
 
 def _exchange(a: Path, b: Path) -> bool:
     """Swap two existing paths atomically; False when the system cannot."""
-    if not sys.platform.startswith("linux"):
+    if not sys.platform.startswith("linux") or "no-exchange" in _faults():
         return False
     try:
         libc = ctypes.CDLL(None, use_errno=True)
@@ -426,15 +434,37 @@ def _exchange(a: Path, b: Path) -> bool:
     raise OSError(err, os.strerror(err), str(b))
 
 
-def _remove(folder: Path, final: Path, notes: list[str]) -> None:
-    """Remove a copy of the tool's own results; a failure is reported, not ignored."""
+def _rmtree_marked(folder: Path) -> list[str]:
+    """Remove a folder of the tool's, its marker last (what cannot be removed stays
+    recognisable as the tool's, for a later run to try again); the errors."""
     errors: list[str] = []
 
     def onerror(_f: Any, path: str, exc: Any) -> None:
         err = exc[1] if isinstance(exc, tuple) else exc
         errors.append(f"{path}: {getattr(err, 'strerror', None) or err}")
 
-    shutil.rmtree(folder, onerror=onerror)
+    for entry in sorted(folder.iterdir()):
+        if entry.name == MARKER:
+            continue
+        if entry.is_dir() and not entry.is_symlink():
+            shutil.rmtree(entry, onerror=onerror)
+        else:
+            try:
+                entry.unlink()
+            except OSError as exc:
+                onerror(None, str(entry), exc)
+    if not errors:
+        try:
+            (folder / MARKER).unlink(missing_ok=True)
+            folder.rmdir()
+        except OSError as exc:
+            onerror(None, str(folder), exc)
+    return errors
+
+
+def _remove(folder: Path, final: Path, notes: list[str]) -> None:
+    """Remove a copy of the tool's own results; a failure is reported, not ignored."""
+    errors = _rmtree_marked(folder)
     if errors and folder.exists():
         notes.append(f"{final}: the old results could not all be removed ({errors[0]}); "
                      f"what is left is in {folder}: remove it by hand")
@@ -570,6 +600,8 @@ def run(
     final = target.final
     notes: list[str] = []
     _clean_leftovers(final, notes)
+    summ["warnings"] = [*summ["warnings"], *notes]
+    notes = []
     if target.mode == "new" and final.exists():
         target = _target(final, loaded, force)  # a leftover was put back
     try:
@@ -591,6 +623,9 @@ def run(
         files += _write_outputs(tmp, results, loaded, pictures, progress, extra)
         files += tables.write_envelopes(tmp, results, envelopes)
         _fault("after-write")
+        if "disk-full" in _faults():
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC),
+                          str(tmp / "vtk" / f".results.{os.getpid()}-0123456789ab.vtu"))
         _write_marker(tmp, _tree(tmp))
         timings["write"] = time.perf_counter() - t
         _replace_folder(tmp, target, notes)
