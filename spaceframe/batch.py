@@ -59,7 +59,7 @@ class Loaded:
 
 
 def load(path: str | os.PathLike[str], units: str | None = None,
-         edges_as_members: bool = False) -> Loaded:
+         edges_as_members: bool = False, override_units: bool = False) -> Loaded:
     """Load a model file (.toml) or, for checking, a bare drawing or mesh.
 
     ``units`` is the length unit of a bare drawing that declares none (a model
@@ -93,6 +93,17 @@ def load(path: str | os.PathLike[str], units: str | None = None,
             model = sio.read(p, units=units, **opts)
             loaded = Loaded(model, p, p.stem, p.with_name(p.stem + "-results"))
     caught = [str(x.message) for x in w if issubclass(x.category, SpaceframeWarning)]
+    # The reader warns when units= differs from the units a drawing declares; a
+    # drawing 1000 times too large is no warning's matter: refuse unless asked.
+    clash = next((re.search(r"overrides the header \((.*)\)", c) for c in caught
+                  if "overrides the header" in c), None)
+    if units is not None and clash is not None and not override_units:
+        from spaceframe.errors import ProjectError
+
+        raise ProjectError(
+            f"{p}: --units {units} differs from the units the drawing declares "
+            f"({clash.group(1)}); --units is for drawings that declare none: leave it out, "
+            f"or add --override-units to read the drawing in {units} anyway")
     loaded.warnings.extend(m for m in caught if m not in loaded.warnings)
     return loaded
 
@@ -137,6 +148,7 @@ def _components(model: Model) -> int:
 def check(
     path: str | os.PathLike[str], progress: Progress = _noop, units: str | None = None,
     edges_as_members: bool = False,
+    override_units: bool = False,
 ) -> CheckReport:
     """Read, heal, validate and diagnose stability without solving.
 
@@ -149,7 +161,8 @@ def check(
     from spaceframe.analysis.stability import check_stability
 
     progress("read")
-    loaded = load(path, units=units, edges_as_members=edges_as_members)
+    loaded = load(path, units=units, edges_as_members=edges_as_members,
+                  override_units=override_units)
     m = loaded.model
     progress("check")
     lo, hi = m.extents()

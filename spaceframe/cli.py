@@ -59,8 +59,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("model", type=Path, help="model file (.toml) or a drawing/mesh")
     p.add_argument("--units", help="length unit of a bare drawing that declares none, e.g. mm "
-                   "(a drawing that declares its units is read in those; a different --units "
-                   "overrides them with a warning)")
+                   "(one that differs from the units a drawing declares is refused)")
+    p.add_argument("--override-units", action="store_true",
+                   help="read the drawing in --units even though it declares other units")
     p.add_argument("--edges-as-members", action="store_true",
                    help="make members of the edges of a bare drawing's or mesh's faces")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
@@ -242,7 +243,8 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
     ctx, progress = out.progress()
     with ctx:
         rep = batch.check(args.model, progress=progress, units=args.units,
-                          edges_as_members=args.edges_as_members)
+                          edges_as_members=args.edges_as_members,
+                          override_units=args.override_units)
     # Readers advise the Python keyword; on the command line it is an option.
     rep.warnings = [w.replace("edges_as_members=True", "--edges-as-members")
                     for w in rep.warnings]
@@ -351,7 +353,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return commands[args.command](args, out)
     except SpaceframeError as exc:
-        print(f"spaceframe {args.command}: error: {exc}", file=sys.stderr)
+        msg = str(exc)
+        if args.command == "check":  # readers advise the Python keyword
+            msg = msg.replace("edges_as_members=True", "--edges-as-members")
+        print(f"spaceframe {args.command}: error: {msg}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except OSError as exc:  # a file we could not open or write
         print(f"spaceframe {args.command}: error: {exc}", file=sys.stderr)
