@@ -89,7 +89,7 @@ def load(path: str | os.PathLike[str], units: str | None = None,
         else:
             import spaceframe.io as sio
 
-            opts = {"edges_as_members": True} if edges_as_members else {}
+            opts: dict[str, Any] = {"edges_as_members": True} if edges_as_members else {}
             model = sio.read(p, units=units, **opts)
             loaded = Loaded(model, p, p.stem, p.with_name(p.stem + "-results"))
     caught = [str(x.message) for x in w if issubclass(x.category, SpaceframeWarning)]
