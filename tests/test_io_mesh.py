@@ -164,7 +164,7 @@ def test_gmsh41_physical_groups_and_an_ungrouped_curve(canopy_msh: Path) -> None
     np.testing.assert_array_equal(model.nodes[model.node_sets["SUPPORTS"]], [[0, 0, 0]])
     assert model.n_panels == 1 and model.panel_groups["ROOF"].tolist() == [0]
     assert model.meta["io:ignored"] == {
-        "Gmsh element type 4": {"count": 1, "layers": {"(no group)": 1}}
+        "tetra cells": {"count": 1, "layers": {"(no group)": 1}}
     }
     assert model.meta["units"]["source"].startswith("assumed")
 
@@ -402,7 +402,7 @@ def test_units_option_scales_a_mesh(split_line_inp: Callable[..., Path]) -> None
             "short.msh",
             "$MeshFormat\n4.1 0 8\n$EndMeshFormat\n$Entities\n0 3 0 0\n$EndEntities\n"
             "$Nodes\n0 0 0 0\n$EndNodes\n$Elements\n0 0 0 0\n$EndElements\n",
-            r"short\.msh: malformed Gmsh 4\.1 file",
+            r"short\.msh: malformed Gmsh 4\.1 ASCII file",
         ),
         ("junk.vtu", "<html>not vtk</html>", r"junk\.vtu: VTK read no points"),
         ("junk.inp", "*NODE\n1, a, b\n", r"junk\.inp: meshio could not read it"),
