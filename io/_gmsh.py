@@ -441,8 +441,7 @@ def _assemble(msh: _Msh41, where: str) -> GmshMesh:
                 f"{int(bad[0])}, which is not in $Nodes"
             )
         groups = [
-            msh.names.get((dim, p), f"physical-{dim}-{p}")
-            for p in msh.physical.get((dim, tag), [])
+            msh.names.get((dim, p), f"physical-{dim}-{p}") for p in msh.physical.get((dim, tag), [])
         ]
         known = GMSH_TYPES.get(etype)
         kind = known[0] if known else f"Gmsh element type {etype}"

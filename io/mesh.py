@@ -144,7 +144,7 @@ def _strip_triangles(strips: np.ndarray, ids: np.ndarray) -> tuple[np.ndarray, n
     (p2 p3 p4), ...: every second triangle is flipped so that all keep one
     orientation (VTK's vtkTriangleStrip).
     """
-    k, size = strips.shape
+    _, size = strips.shape
     j = np.arange(size - 2)
     tri = np.stack([strips[:, j], strips[:, j + 1], strips[:, j + 2]], axis=2)
     odd = j % 2 == 1
@@ -208,6 +208,8 @@ def _set_names_of(sets: dict[str, np.ndarray], ids: np.ndarray) -> list[str]:
 
 def _to_raw(cells: _Cells, where: str) -> RawGeometry:
     pts = np.asarray(cells.points, dtype=np.float64)
+    if pts.size == 0:
+        raise ReadError(f"{where}: the mesh holds no points")
     if pts.ndim != 2 or pts.shape[1] not in (2, 3):
         raise ReadError(f"{where}: points have shape {pts.shape}, expected (n, 3)")
     if pts.shape[1] == 2:
@@ -677,10 +679,18 @@ def read(
     suffix = p.suffix.lower()
     if group_field is not None and suffix not in _VTK_SUFFIXES:
         raise ReadError(f"{where}: group_field applies to VTK files only")
+    if p.stat().st_size == 0:
+        raise ReadError(f"{where}: the file is empty")
     if suffix == ".msh":
         header = _gmsh_header(p)
         if header is None:
-            raise ReadError(f"{where}: not a Gmsh mesh (no $MeshFormat at the start)")
+            with open(p, "rb") as fh:
+                old = fh.read(8).startswith(b"$NOD")
+            raise ReadError(
+                f"{where}: Gmsh's first file format ($NOD), not read here: save as MSH 4.1"
+                if old
+                else f"{where}: not a Gmsh mesh (no $MeshFormat at the start)"
+            )
         version, file_type = header
         if version == "4.1":
             cells = _read_gmsh41(p, where, binary=file_type == 1)
