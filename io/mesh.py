@@ -35,7 +35,7 @@ from typing import Any
 
 import numpy as np
 
-from spaceframe.errors import ReadError
+from spaceframe.errors import ReadError, SpaceframeWarning
 from spaceframe.io._common import (
     HEAL_OPTIONS,
     RawGeometry,
@@ -44,6 +44,7 @@ from spaceframe.io._common import (
     check_options,
     check_path,
     count_ignored,
+    describe_ignored,
     parse_units,
 )
 from spaceframe.io._gmsh import GMSH_TYPES, HIGH_ORDER_FACES, gmsh_dim, read_gmsh41
@@ -703,6 +704,16 @@ def read(
     else:
         cells = _read_meshio(p, where)
     raw = _to_raw(cells, where)
+    if raw.ignored and (raw.segments.shape[0] or (edges_as_members and raw.edges.shape[0])):
+        # Shown, not only kept in meta: volumes and unknown cells are skipped.
+        kinds = list(raw.ignored)
+        more = f"; and {len(kinds) - 4} more kinds" if len(kinds) > 4 else ""
+        warnings.warn(
+            f"{where}: not used (no members or panels are made of them): "
+            f"{describe_ignored(raw.ignored, kinds[:4])}{more}",
+            SpaceframeWarning,
+            stacklevel=2,
+        )
 
     if units is None:
         file_units = Units("m", 1.0, "assumed: mesh files carry no units")

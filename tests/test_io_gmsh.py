@@ -267,7 +267,8 @@ def test_vtk_volume_cells_are_named_when_ignored(tmp_path: Path) -> None:
     meshio.write(
         path, meshio.Mesh(pts, [("tetra", np.array([[0, 1, 2, 3]])), ("line", np.array([[0, 3]]))])
     )
-    model = sfmesh.read(path)
+    with pytest.warns(sf.SpaceframeWarning, match=r"tet\.vtu: not used .*: tetra cells x1"):
+        model = sfmesh.read(path)
     assert model.meta["io:ignored"] == {"tetra cells": {"count": 1, "layers": {"(no group)": 1}}}
 
 
