@@ -1,4 +1,4 @@
-"""Gmsh MSH 4.1 (ASCII and binary) and MSH 2.2 groups, read by one logic.
+"""Gmsh MSH 4.1 and 2.x files (ASCII and binary), read with one logic for groups.
 
 Hand-written because meshio 5.3 fails on 4.1 files in which some entities
 have no physical group, drops numeric physical groups of binary 4.1 files as
@@ -9,7 +9,9 @@ and "MSH file format version 2 (Legacy)".
 Both encodings of 4.1 are parsed into the same intermediate record (physical
 names, entity -> physical tags, node tags and coordinates, element blocks);
 :func:`assemble` then turns that record into cells and groups, so a mesh has
-the same groups whether it was saved as text or binary.
+the same groups whether it was saved as text or binary.  2.x files, whose
+elements carry their physical tag themselves, are read into meshio's terms
+(:class:`Msh2`) and share the meshio adapter's rules in ``io/mesh.py``.
 """
 
 from __future__ import annotations
@@ -21,7 +23,7 @@ import numpy as np
 
 from spaceframe.errors import ReadError
 
-__all__ = ["GMSH_TYPES", "GmshMesh", "read_gmsh41"]
+__all__ = ["GMSH_TYPES", "GmshMesh", "Msh2", "gmsh_dim", "read_gmsh2", "read_gmsh41"]
 
 
 def _tri(order: int, complete: bool) -> tuple[str, int]:
@@ -490,3 +492,169 @@ def gmsh_dim(kind: str) -> int:
     if kind.startswith(("triangle", "quad", "polygon")):
         return 2
     return 3
+
+
+# ---------------------------------------------------------------------------
+# 2.x (ASCII and binary)
+# ---------------------------------------------------------------------------
+
+
+@dataclass
+class _Block:
+    type: str
+    data: np.ndarray
+
+
+@dataclass
+class Msh2:
+    """A 2.x file in meshio's terms (cells, "gmsh:physical" and
+    "gmsh:geometrical" cell data, field_data name -> [tag, dim]), so that
+    one adapter gives groups for 2.x files read here or by meshio."""
+
+    points: np.ndarray
+    cells: list[_Block] = field(default_factory=list)
+    cell_data: dict[str, list[np.ndarray]] = field(default_factory=dict)
+    field_data: dict[str, np.ndarray] = field(default_factory=dict)
+    point_sets: dict[str, np.ndarray] = field(default_factory=dict)
+
+
+def _section_bytes(data: bytes, name: str, where: str) -> tuple[int, int] | None:
+    """(start of body, start of $End line) of the first section ``name``."""
+    head = data.find(f"${name}\n".encode())
+    if head < 0:
+        head = data.find(f"${name}\r\n".encode())
+        if head < 0:
+            return None
+    start = data.index(b"\n", head) + 1
+    end = data.find(f"$End{name}".encode(), start)
+    if end < 0:
+        raise ReadError(f"{where}: section ${name} has no $End{name}")
+    return start, end
+
+
+def _runs(toks: np.ndarray, count: int, where: str) -> list[np.ndarray]:
+    """Rows "number type ntags tags... nodes..." of 2.x text elements, in runs
+    of one type and tag count (one pass per run, not per element)."""
+    out, s, done = [], 0, 0
+    while done < count:
+        if s + 3 > toks.size:
+            raise ReadError(
+                f"{where}: $Elements holds fewer than the {count} elements it announces"
+            )
+        etype, ntags = int(toks[s + 1]), int(toks[s + 2])
+        known = GMSH_TYPES.get(etype)
+        if known is None:
+            raise ReadError(f"{where}: Gmsh element type {etype} in $Elements is not known here")
+        width = 3 + ntags + known[1]
+        n_max = min(count - done, (toks.size - s) // width)
+        starts = s + width * np.arange(n_max)
+        same = (toks[starts + 1] == etype) & (toks[starts + 2] == ntags)
+        n = int(np.argmin(same)) if not same.all() else n_max
+        if n == 0:
+            raise ReadError(
+                f"{where}: $Elements holds fewer than the {count} elements it announces"
+            )
+        out.append(toks[s : s + n * width].reshape(n, width))
+        s += n * width
+        done += n
+    return out
+
+
+def read_gmsh2(path: Path, where: str, binary: bool) -> Msh2:
+    """Read a Gmsh 2.x file (ASCII or binary) into cells with physical and
+    elementary tags (Gmsh reference manual, "MSH file format version 2").
+
+    Raises
+    ------
+    ReadError
+        Missing sections, counts that do not match, unknown element types.
+    """
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise ReadError(f"{where}: cannot read: {exc}") from exc
+    nodes_at = _section_bytes(data, "Nodes", where)
+    elements_at = _section_bytes(data, "Elements", where)
+    if nodes_at is None or elements_at is None:
+        missing = "$Nodes" if nodes_at is None else "$Elements"
+        raise ReadError(f"{where}: Gmsh file has no {missing} section (no mesh saved)")
+    out = Msh2(np.zeros((0, 3)))
+    names_at = _section_bytes(data, "PhysicalNames", where)
+    if names_at is not None:
+        names: dict[tuple[int, int], str] = {}
+        text = data[names_at[0] : names_at[1]].decode("utf-8", errors="replace")
+        _names_from_lines(text.splitlines(), names)
+        out.field_data = {n: np.array([t, d]) for (d, t), n in names.items()}
+    order = "<"
+    if binary:
+        fmt_at = _section_bytes(data, "MeshFormat", where)
+        if fmt_at is not None:
+            one = data[data.index(b"\n", fmt_at[0]) + 1 :][:4]
+            order = ">" if one == (1).to_bytes(4, "big") else "<"
+    try:
+        a, b = nodes_at
+        nl = data.index(b"\n", a)
+        n_nodes = int(data[a:nl])
+        if binary:
+            rec = np.dtype([("tag", order + "i4"), ("xyz", order + "f8", 3)])
+            if nl + 1 + rec.itemsize * n_nodes > len(data):
+                raise ReadError(f"{where}: binary Gmsh file ends inside $Nodes (cut short?)")
+            arr = np.frombuffer(data, dtype=rec, count=n_nodes, offset=nl + 1)
+            tags, xyz = arr["tag"].astype(np.int64), arr["xyz"].astype(np.float64)
+        else:
+            vals = np.array(data[nl + 1 : b].split(), dtype=np.float64)
+            if vals.size != 4 * n_nodes:
+                raise ReadError(
+                    f"{where}: $Nodes announces {n_nodes} nodes but holds another count"
+                )
+            vals = vals.reshape(n_nodes, 4)
+            tags, xyz = vals[:, 0].astype(np.int64), vals[:, 1:]
+        a, b = elements_at
+        nl = data.index(b"\n", a)
+        n_el = int(data[a:nl])
+        if binary:
+            rows, pos, done = [], nl + 1, 0
+            while done < n_el:  # one pass per header (block of one type), not per element
+                etype, n, ntags = np.frombuffer(data, order + "i4", 3, pos).tolist()
+                known = GMSH_TYPES.get(etype)
+                if known is None or n <= 0:
+                    raise ReadError(
+                        f"{where}: bad element block header (type {etype}, {n} elements)"
+                    )
+                width = 1 + ntags + known[1]
+                block = np.frombuffer(data, order + "i4", n * width, pos + 12).reshape(n, width)
+                # Same layout as text rows: number, type, ntags, tags, nodes.
+                rows.append(
+                    np.column_stack([block[:, :1], np.full((n, 2), (etype, ntags)), block[:, 1:]])
+                )
+                pos += 12 + 4 * n * width
+                done += n
+        else:
+            rows = _runs(np.array(data[nl + 1 : b].split(), dtype=np.int64), n_el, where)
+    except (ValueError, IndexError) as exc:
+        raise ReadError(
+            f"{where}: malformed Gmsh 2 file ({type(exc).__name__}: {str(exc)[:120]})"
+        ) from None
+    if tags.size and tags.min() < 0:
+        raise ReadError(f"{where}: negative node number {int(tags.min())} in $Nodes")
+    lookup = np.full(int(tags.max()) + 1 if tags.size else 1, -1, dtype=np.int64)
+    lookup[tags] = np.arange(tags.size)
+    out.points = xyz
+    physical, elementary = [], []
+    for r in rows:  # one pass per run of one element type
+        etype, ntags = int(r[0, 1]), int(r[0, 2])
+        node_nums = r[:, 3 + ntags :].astype(np.int64)
+        mapped = np.full(node_nums.shape, -1, dtype=np.int64)
+        inside = (node_nums >= 0) & (node_nums < lookup.size)
+        mapped[inside] = lookup[node_nums[inside]]
+        if np.any(mapped < 0):
+            bad = node_nums[mapped < 0]
+            raise ReadError(
+                f"{where}: an element refers to node {int(bad[0])}, which is not in $Nodes"
+            )
+        out.cells.append(_Block(GMSH_TYPES[etype][0], mapped))
+        zero = np.zeros(r.shape[0], dtype=np.int64)
+        physical.append(r[:, 3].astype(np.int64) if ntags >= 1 else zero)
+        elementary.append(r[:, 4].astype(np.int64) if ntags >= 2 else zero)
+    out.cell_data = {"gmsh:physical": physical, "gmsh:geometrical": elementary}
+    return out

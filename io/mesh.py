@@ -3,8 +3,11 @@
 One adapter for several formats, each read by the library that keeps what a
 frame needs:
 
-- ``.msh`` Gmsh 4.1 ASCII is read here (meshio 5.3 fails on a file in which
-  some entities have no physical group); other Gmsh versions go to meshio.
+- ``.msh`` Gmsh 4.1 (text and binary) and 2.x are read here, by
+  :mod:`spaceframe.io._gmsh` (meshio 5.3 fails on 4.1 files in which some
+  entities have no physical group or that are partitioned, and loses
+  numeric groups of binary files); Gmsh 4.0 goes to meshio.  Groups follow
+  the same rules whatever the save format.
 - ``.vtu``, ``.vtk``, ``.vtp`` are read through VTK (pyvista): meshio drops
   VTK poly-line cells from ``.vtu`` and stops the interpreter on legacy
   POLYDATA ``.vtk`` files.
@@ -47,7 +50,13 @@ from spaceframe.io._common import (
     describe_ignored,
     parse_units,
 )
-from spaceframe.io._gmsh import GMSH_TYPES, HIGH_ORDER_FACES, gmsh_dim, read_gmsh41
+from spaceframe.io._gmsh import (
+    GMSH_TYPES,
+    HIGH_ORDER_FACES,
+    gmsh_dim,
+    read_gmsh2,
+    read_gmsh41,
+)
 from spaceframe.model import Model
 
 __all__ = ["FACE_CELLS", "LINE_CELLS", "read"]
@@ -316,7 +325,7 @@ def _read_gmsh41(path: Path, where: str, binary: bool) -> _Cells:
 
 
 def _gmsh_cells_from_meshio(mesh: Any, cells: _Cells) -> None:
-    """Gmsh 2.2 / 4.0 cells and groups from meshio, with the 4.1 reader's rules.
+    """Gmsh 2.x / 4.0 cells and groups (read by read_gmsh2 or by meshio), by the 4.1 rules.
 
     Groups come from the "gmsh:physical" tags (named by $PhysicalNames, else
     "physical-<dim>-<tag>"), named or not; tag 0 means no physical group.
@@ -326,13 +335,20 @@ def _gmsh_cells_from_meshio(mesh: Any, cells: _Cells) -> None:
     physical = (mesh.cell_data or {}).get("gmsh:physical")
     entity = (mesh.cell_data or {}).get("gmsh:geometrical")
     by_tag = {(int(v[1]), int(v[0])): name for name, v in (mesh.field_data or {}).items()}
-    sets: dict[str, list[np.ndarray]] = {}
+    # Blocks of one kind together: MSH 2 may write an element's copies in
+    # different blocks (binary files start a block per physical group).
+    parts: dict[str, list[tuple[np.ndarray, np.ndarray, np.ndarray]]] = {}
     for b, block in enumerate(mesh.cells):  # one pass per block of cells
-        kind = str(block.type)
         conn = np.asarray(block.data, dtype=np.int64).reshape(len(block.data), -1)
         k = conn.shape[0]
         tags = np.asarray(physical[b], dtype=np.int64) if physical else np.zeros(k, np.int64)
         ent = np.asarray(entity[b], dtype=np.int64) if entity else np.zeros(k, np.int64)
+        parts.setdefault(str(block.type), []).append((conn, tags, ent))
+    sets: dict[str, list[np.ndarray]] = {}
+    for kind, pieces in parts.items():  # one pass per kind of cell
+        conn = np.concatenate([c for c, _, _ in pieces])
+        tags = np.concatenate([t for _, t, _ in pieces])
+        ent = np.concatenate([e for _, _, e in pieces])
         key = np.column_stack([ent, conn])
         _, first, inverse = np.unique(key, axis=0, return_index=True, return_inverse=True)
         inverse = inverse.reshape(-1)
@@ -344,7 +360,7 @@ def _gmsh_cells_from_meshio(mesh: Any, cells: _Cells) -> None:
         for t in np.unique(tags[tags != 0]).tolist():
             name = by_tag.get((dim, int(t)), f"physical-{dim}-{int(t)}")
             sets.setdefault(name, []).append(np.unique(ids[rank[inverse[tags == t]]]))
-    cells.sets = {name: np.unique(np.concatenate(parts)) for name, parts in sets.items()}
+    cells.sets = {name: np.unique(np.concatenate(chunks)) for name, chunks in sets.items()}
 
 
 def _read_meshio(path: Path, where: str, gmsh: bool = False) -> _Cells:
@@ -695,7 +711,11 @@ def read(
         version, file_type = header
         if version == "4.1":
             cells = _read_gmsh41(p, where, binary=file_type == 1)
-        else:
+        elif version.startswith("2"):
+            msh2 = read_gmsh2(p, where, binary=file_type == 1)
+            cells = _Cells(np.asarray(msh2.points, dtype=np.float64))
+            _gmsh_cells_from_meshio(msh2, cells)
+        else:  # 4.0 and any other version meshio knows
             cells = _read_meshio(p, where, gmsh=True)
     elif suffix in _VTK_SUFFIXES:
         cells = _read_vtk(p, where, group_field)

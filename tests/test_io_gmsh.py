@@ -126,7 +126,11 @@ def test_binary_41_cut_short_is_a_read_error(tmp_path: Path) -> None:
 
 
 def _gmsh22(
-    tmp_path: Path, physical: list[int], roof: list[int], names: dict[str, list[int]]
+    tmp_path: Path,
+    physical: list[int],
+    roof: list[int],
+    names: dict[str, list[int]],
+    binary: bool = False,
 ) -> Path:
     """2.2 text file of the gantry's three line elements and roof triangle
     written by meshio; the post and the triangle are listed twice (once per
@@ -135,22 +139,24 @@ def _gmsh22(
     lines = np.array([[0, 1], [1, 2], [2, 3], [2, 3]])
     mesh = meshio.Mesh(
         pts,
-        [("line", lines), ("triangle", np.array([[0, 2, 3], [0, 2, 3]]))],
+        # the roof's copies in two blocks, as Gmsh's binary writer leaves them
+        [("line", lines), ("triangle", np.array([[0, 2, 3]])), ("triangle", np.array([[0, 2, 3]]))],
         cell_data={
-            "gmsh:physical": [np.array(physical), np.array(roof)],
-            "gmsh:geometrical": [np.array([1, 1, 2, 2]), np.array([1, 1])],
+            "gmsh:physical": [np.array(physical), np.array(roof[:1]), np.array(roof[1:])],
+            "gmsh:geometrical": [np.array([1, 1, 2, 2]), np.array([1]), np.array([1])],
         },
         field_data={name: np.array(v) for name, v in names.items()},
     )
     path = tmp_path / "old.msh"
-    meshio.write(path, mesh, file_format="gmsh22", binary=False)
+    meshio.write(path, mesh, file_format="gmsh22", binary=binary)
     return path
 
 
-def test_gmsh22_groups_follow_the_41_rules(tmp_path: Path) -> None:
+@pytest.mark.parametrize("binary", [False, True])
+def test_gmsh22_groups_follow_the_41_rules(tmp_path: Path, binary: bool) -> None:
     # the post (elementary curve 2) is in physical 7 "POST" and physical 8:
     # MSH 2 writes it twice; numeric 5 has no name
-    path = _gmsh22(tmp_path, [5, 5, 7, 8], [9, 11], {"POST": [7, 1], "ROOF": [9, 2]})
+    path = _gmsh22(tmp_path, [5, 5, 7, 8], [9, 11], {"POST": [7, 1], "ROOF": [9, 2]}, binary)
     model = sfmesh.read(path)
     assert groups_of(model) == {"physical-1-5": 2, "POST": 1, "physical-1-8": 1}
     assert model.n_members == 3  # the copy is one member in both groups
@@ -162,8 +168,9 @@ def test_gmsh22_groups_follow_the_41_rules(tmp_path: Path) -> None:
     }  # fmt: skip
 
 
-def test_gmsh22_without_physical_groups_has_no_groups(tmp_path: Path) -> None:
-    path = _gmsh22(tmp_path, [0, 0, 0, 0], [0, 0], {})
+@pytest.mark.parametrize("binary", [False, True])
+def test_gmsh22_without_physical_groups_has_no_groups(tmp_path: Path, binary: bool) -> None:
+    path = _gmsh22(tmp_path, [0, 0, 0, 0], [0, 0], {}, binary)
     model = sfmesh.read(path)
     assert model.groups == {}  # not a made-up "physical-1-0"
     assert model.n_members == 3
@@ -370,3 +377,21 @@ def test_mesh_at_site_coordinates_reads_and_heals_like_at_the_origin(tmp_path: P
     assert member_keys(near, near.groups["RAFTER"]) == {
         key((0, 0, 0), tuple(near.nodes[1])), key(tuple(near.nodes[1]), (6, 0, 0))
     }  # fmt: skip
+
+
+def test_gmsh2_node_numbers_from_zero_and_cut_files(tmp_path: Path) -> None:
+    # node number 0 (Gmsh's own benchmark files have it); three tags per
+    # element: physical, elementary, and a partition count of 0
+    text = (
+        "$MeshFormat\n2 0 8\n$EndMeshFormat\n$Nodes\n3\n0 0 0 0\n1 4 0 0\n2 4 0 3\n"
+        "$EndNodes\n$Elements\n2\n1 1 3 6 1 0 0 1\n2 1 3 6 1 0 1 2\n$EndElements\n"
+    )
+    path = tmp_path / "zero.msh"
+    path.write_text(text)
+    model = sfmesh.read(path)
+    assert model.n_members == 2 and groups_of(model) == {"physical-1-6": 2}
+    assert member_keys(model) == {key((0, 0, 0), (4, 0, 0)), key((4, 0, 0), (4, 0, 3))}
+    cut = tmp_path / "cut.msh"
+    cut.write_text(text.replace("2 1 3 6 1 0 1 2\n", ""))
+    with pytest.raises(sf.ReadError, match=r"cut\.msh: \$Elements holds fewer than the 2"):
+        sfmesh.read(cut)
