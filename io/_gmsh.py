@@ -412,6 +412,28 @@ def _parse41_binary(data: bytes, where: str) -> _Msh41:
 # ---------------------------------------------------------------------------
 
 
+def _tag_table(tags: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted node tags and their positions in file order, for :func:`_find_tags`.
+
+    Sorting, not a table as long as the largest tag: tags may be sparse (the
+    format allows it) or, in a damaged file, astronomically large.
+    """
+    order = np.argsort(tags, kind="stable")
+    return tags[order], order.astype(np.int64)
+
+
+def _find_tags(table: tuple[np.ndarray, np.ndarray], query: np.ndarray) -> np.ndarray:
+    """Point index of each node tag in ``query``; -1 where the tag is not in $Nodes."""
+    ordered, order = table
+    out = np.full(query.shape, -1, dtype=np.int64)
+    if ordered.size == 0:
+        return out
+    pos = np.minimum(np.searchsorted(ordered, query), ordered.size - 1)
+    hit = ordered[pos] == query
+    out[hit] = order[pos[hit]]
+    return out
+
+
 def _assemble(msh: _Msh41, where: str) -> GmshMesh:
     if not msh.has_nodes or not msh.has_elements:
         missing = "$Nodes" if not msh.has_nodes else "$Elements"
@@ -425,17 +447,14 @@ def _assemble(msh: _Msh41, where: str) -> GmshMesh:
         raise ReadError(f"{where}: $Nodes announces {msh.n_nodes} nodes but holds {tags.size}")
     if tags.size and tags.min() < 0:
         raise ReadError(f"{where}: negative node tag {int(tags.min())} in $Nodes")
-    lookup = np.full(int(tags.max()) + 1 if tags.size else 1, -1, dtype=np.int64)
-    lookup[tags] = np.arange(tags.size)
+    lookup = _tag_table(tags)
 
     mesh = GmshMesh(points)
     sets: dict[str, list[np.ndarray]] = {}
     n_cells = 0
     for dim, tag, etype, rows in msh.elements:  # one pass per entity block
         node_tags = rows[:, 1:]
-        mapped = np.full(node_tags.shape, -1, dtype=np.int64)
-        inside = (node_tags >= 0) & (node_tags < lookup.size)
-        mapped[inside] = lookup[node_tags[inside]]
+        mapped = _find_tags(lookup, node_tags)
         if np.any(mapped < 0):
             bad = node_tags[mapped < 0]
             raise ReadError(
@@ -637,16 +656,13 @@ def read_gmsh2(path: Path, where: str, binary: bool) -> Msh2:
         ) from None
     if tags.size and tags.min() < 0:
         raise ReadError(f"{where}: negative node number {int(tags.min())} in $Nodes")
-    lookup = np.full(int(tags.max()) + 1 if tags.size else 1, -1, dtype=np.int64)
-    lookup[tags] = np.arange(tags.size)
+    lookup = _tag_table(tags)
     out.points = xyz
     physical, elementary = [], []
     for r in rows:  # one pass per run of one element type
         etype, ntags = int(r[0, 1]), int(r[0, 2])
         node_nums = r[:, 3 + ntags :].astype(np.int64)
-        mapped = np.full(node_nums.shape, -1, dtype=np.int64)
-        inside = (node_nums >= 0) & (node_nums < lookup.size)
-        mapped[inside] = lookup[node_nums[inside]]
+        mapped = _find_tags(lookup, node_nums)
         if np.any(mapped < 0):
             bad = node_nums[mapped < 0]
             raise ReadError(

@@ -395,3 +395,30 @@ def test_gmsh2_node_numbers_from_zero_and_cut_files(tmp_path: Path) -> None:
     cut.write_text(text.replace("2 1 3 6 1 0 1 2\n", ""))
     with pytest.raises(sf.ReadError, match=r"cut\.msh: \$Elements holds fewer than the 2"):
         sfmesh.read(cut)
+
+
+def test_sparse_node_tags_need_no_table_as_long_as_the_largest(tmp_path: Path) -> None:
+    # Tags need not be dense (Gmsh reference manual, "MSH file format"); a
+    # tag of 10^15 must not ask for a 10^15-entry lookup table.
+    big = 10**15
+    text = gmsh41(
+        names=[],
+        entities={1: [(1, [])]},
+        nodes=[(1, 1, [(1, (0.0, 0.0, 0.0)), (big, (5.0, 0.0, 0.0))])],
+        elements=[(1, 1, 1, [(1, [1, big])])],
+    )
+    path = tmp_path / "sparse.msh"
+    path.write_text(text)
+    model = sfmesh.read(path)
+    assert member_keys(model) == {key((0, 0, 0), (5, 0, 0))}
+    binary = tmp_path / "sparse-bin.msh"
+    binary.write_bytes(
+        gmsh41_binary(
+            names=[],
+            entities={1: [(1, [])]},
+            nodes=[(1, 1, [(1, (0.0, 0.0, 0.0)), (big, (5.0, 0.0, 0.0))])],
+            elements=[(1, 1, 1, [(1, [1, big + 1])])],  # a tag not in $Nodes
+        )
+    )
+    with pytest.raises(sf.ReadError, match=rf"refers to node tag {big + 1}, which is not in"):
+        sfmesh.read(binary)
