@@ -59,6 +59,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("model", type=Path, help="model file (.toml) or a drawing/mesh")
     p.add_argument("--units", help="length unit of a bare drawing that declares none, e.g. mm")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
+    p.add_argument("--quick", action="store_true",
+                   help="cheap stability checks only, without factorising the stiffness")
 
     p = sub.add_parser(
         "run", parents=[common],
@@ -144,6 +146,8 @@ def _fmt(v: float, unit: str, scale: float = 1.0, digits: int = 4) -> str:
 
 
 def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
+    from spaceframe.summary import supports_text
+
     if as_json:
         print(json.dumps(rep.as_dict(), indent=2))
         return
@@ -165,7 +169,7 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
     out.line(f"connected parts: {rep.components}")
     if rep.groups:
         out.table("groups", ["group", "members"], [[g, str(n)] for g, n in rep.groups.items()])
-    out.line("supports: " + ", ".join(f"{v} {k}" for k, v in rep.supports.items()))
+    out.line("supports: " + supports_text(rep.supports))
     if rep.healing:
         out.line("healing:")
         for h in rep.healing:
@@ -181,7 +185,7 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
     if rep.stable is None:
         out.line(f"stability: {rep.mechanism}")
     elif rep.stable:
-        out.line("stability: no mechanism found")
+        out.line(f"stability: {rep.mechanism or 'no mechanism found'}")
     else:
         out.line("stability: UNSTABLE")
         print(f"mechanism: {rep.mechanism}", file=sys.stderr)
@@ -228,7 +232,7 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
 
     ctx, progress = out.progress()
     with ctx:
-        rep = batch.check(args.model, progress=progress, units=args.units)
+        rep = batch.check(args.model, progress=progress, units=args.units, quick=args.quick)
     _print_check(out, rep, args.json)
     return EXIT_UNSTABLE if rep.stable is False else 0
 
