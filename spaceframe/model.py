@@ -836,9 +836,9 @@ class Model:
             if wrong.size:
                 i = int(wrong[0])
                 raise ModelError(f"member {i}: {name} = {float(arr[i])} is not allowed")
-        wrong = np.argwhere(~(np.isfinite(self.springs) & (self.springs >= 0)))
-        if wrong.size:
-            i, j = (int(v) for v in wrong[0])
+        bad_k = np.argwhere(~(np.isfinite(self.springs) & (self.springs >= 0)))
+        if bad_k.size:
+            i, j = (int(v) for v in bad_k[0])
             raise ModelError(
                 f"node {i}: spring along {_AXES[j]} is {float(self.springs[i, j])} N/m "
                 "(must be finite and not negative)"
@@ -860,9 +860,9 @@ class Model:
                         f"load case {cname!r}: {what} has {arr.shape[0]} rows for {rows} "
                         f"{'nodes' if rows == n else 'members'}"
                     )
-                wrong = np.argwhere(~np.isfinite(arr))
-                if wrong.size:
-                    i = int(wrong[0][0])
+                where = np.argwhere(~np.isfinite(arr))
+                if where.size:
+                    i = int(where[0][0])
                     raise ModelError(
                         f"load case {cname!r}: {what} of {'node' if rows == n else 'member'} "
                         f"{i} is not finite"

@@ -217,11 +217,10 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
         w = np.zeros(m)
         for case, f in factors.items():
             w[names.index(case)] += f
-        with np.errstate(over="ignore", invalid="ignore"):
-            uc = U @ w
-        items[cname] = _make_result(model, cname, "combination", uc, T @ w, R @ w, F @ w,
-                                    elong @ w, E0 @ w, A, absA, spring, restrained,
-                                    factors=factors)
+        with np.errstate(over="ignore", invalid="ignore"):  # checked in _make_result
+            uc, tc, rc, fc, ec, e0c = U @ w, T @ w, R @ w, F @ w, elong @ w, E0 @ w
+        items[cname] = _make_result(model, cname, "combination", uc, tc, rc, fc, ec, e0c,
+                                    A, absA, spring, restrained, factors=factors)
         all_u.append(uc[:, None])
     _warn_large(model, names + list(model.combinations), np.concatenate(all_u, axis=1))
     timings["recover"] = time.perf_counter() - t
