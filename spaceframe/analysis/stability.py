@@ -29,7 +29,7 @@ from scipy.sparse.csgraph import connected_components
 
 from spaceframe.assembly import equilibrium_matrix
 from spaceframe.errors import MechanismError, ModelError, SolverError
-from spaceframe.solvers import SingularFactor
+from spaceframe.solvers import PIVOT_TOLERANCE, SingularFactor
 from spaceframe.tolerances import MAX_STIFFNESS_RATIO, NODE_STIFFNESS_RATIO, RANK_TOLERANCE
 
 if TYPE_CHECKING:
@@ -347,26 +347,36 @@ def mechanism_modes(
     Returns
     -------
     energies : (j,) float
-        Relative eigenvalues (lambda / max diagonal) of the modes found near zero.
+        Eigenvalues of the diagonally scaled stiffness (order one for a stiff
+        direction) of the modes found near zero.
     dofs : list of (p,) int
         For each mode, the global dofs that move most (>= 10 % of its peak).
     """
     m = K.shape[0]
-    scale = float(np.abs(K.diagonal()).max(initial=1.0))
+    # Symmetric diagonal (Jacobi) scaling S K S with S = diag(K)^-1/2: each
+    # direction is judged against its own stiffness, as the pivot test of the
+    # factorisation does, so a soft member beside stiff ones is not a "mode"
+    # and a modulus of 1e-300 is not either.  A pivot below PIVOT_TOLERANCE
+    # of its diagonal implies an eigenvalue of S K S below it (Schur
+    # complements interlace), so a mechanism the factorisation found is named.
+    diag = np.abs(K.diagonal())
+    s = 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0))
+    S = sp.diags(s)
+    Ks = sp.csc_matrix(S @ K @ S)
     k = max(1, min(k, m - 1))
     if m <= 3000:
-        w, V = np.linalg.eigh(K.toarray() / scale)
+        w, V = np.linalg.eigh(Ks.toarray())
         w, V = w[:k], V[:, :k]
     else:
         from scipy.sparse.linalg import eigsh
 
         # Shift-invert about a small negative value: (K - sigma I) is then
         # positive definite and factorisable even though K is singular.
-        w, V = eigsh(sp.csc_matrix(K) / scale, k=k, sigma=-1e-6, which="LM")
-    zero = np.flatnonzero(w < 1e-9)
+        w, V = eigsh(Ks, k=k, sigma=-1e-6, which="LM")
+    zero = np.flatnonzero(w < PIVOT_TOLERANCE)
     out = []
     for j in zero:
-        vec = np.abs(V[:, j])
+        vec = np.abs(s * V[:, j])  # back to displacements
         out.append(free_dofs[vec >= 0.1 * vec.max()])
     return w[zero], out
 
