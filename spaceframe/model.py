@@ -179,7 +179,7 @@ class Model:
     def __repr__(self) -> str:
         return (
             f"Model({self.n_nodes} nodes, {self.n_members} members, "
-            f"{int(self.restraint.any(axis=1).sum())} supported nodes, "
+            f"{int((self.restraint | (self.springs > 0)).any(axis=1).sum())} supported nodes, "
             f"{len(self.cases)} cases, {len(self.combinations)} combinations)"
         )
 
@@ -509,7 +509,19 @@ class Model:
         ids : (k,) int
             The new panel ids.
         """
-        polys = [np.asarray(p, dtype=np.int64).ravel() for p in polygons]
+        polys = []
+        for k, p in enumerate(polygons):
+            try:
+                arr = np.asarray(p)
+            except (ValueError, TypeError) as exc:
+                raise ModelError(
+                    f"add_panels: polygon {k} is not a list of node ids ({exc})"
+                ) from None
+            if arr.size and arr.dtype.kind not in "iu":
+                raise ModelError(
+                    f"add_panels: polygon {k}: node ids must be integers, got {arr.dtype} values"
+                )
+            polys.append(arr.astype(np.int64).ravel())
         sizes = np.array([p.size for p in polys], dtype=np.int64)
         flat = np.concatenate(polys) if polys else np.zeros(0, dtype=np.int64)
         return self.add_panels_flat(flat, np.concatenate([[0], np.cumsum(sizes)]), group=group)
@@ -541,8 +553,16 @@ class Model:
             On a panel of fewer than three nodes, a missing node, or offsets that
             do not describe ``panel_nodes``.
         """
-        flat = np.asarray(panel_nodes).ravel()
-        offs = np.asarray(offsets, dtype=np.int64).ravel()
+        try:
+            flat = np.asarray(panel_nodes).ravel()
+            offs_raw = np.asarray(offsets).ravel()
+        except (ValueError, TypeError) as exc:
+            raise ModelError(
+                f"add_panels: node ids and offsets must be 1-D integer lists ({exc})"
+            ) from None
+        if offs_raw.size and offs_raw.dtype.kind not in "iu":
+            raise ModelError(f"add_panels: offsets must be integers, got {offs_raw.dtype} values")
+        offs = offs_raw.astype(np.int64)
         if flat.size and not np.issubdtype(flat.dtype, np.integer):
             raise ModelError(f"add_panels: node ids must be integers, got {flat.dtype}")
         flat = flat.astype(np.int64)
@@ -693,8 +713,15 @@ class Model:
             if members is None
             else self._member_ids(members, f"add_self_weight({case!r})")
         )
+        g_val = float(self._per_item(g, 1, f"add_self_weight({case!r}): g")[0])
+        if not g_val > 0:
+            raise ModelError(
+                f"add_self_weight({case!r}): g = {g_val} m/s² must be positive (self-weight "
+                "acts along -z by definition; use nodal loads for another direction)"
+            )
+        f_val = float(self._per_item(factor, 1, f"add_self_weight({case!r}): factor")[0])
         lc = self.case(case)
-        w = 0.5 * factor * g * self.mass[ids]
+        w = 0.5 * f_val * g_val * self.mass[ids]
         fz = np.bincount(self.members[ids, 0], w, self.n_nodes) + np.bincount(
             self.members[ids, 1], w, self.n_nodes
         )

@@ -294,6 +294,21 @@ def test_loads_and_properties_refuse_strings_and_complex() -> None:
         m.add_combination("c", {"P": "1.35"})
 
 
+def test_self_weight_and_panels_refuse_bad_values() -> None:
+    m = tripod()
+    m.set_member_properties([0, 1, 2], density=7850.0)
+    with pytest.raises(sf.ModelError, match=r"g = -9\.81 m/s² must be positive"):
+        m.add_self_weight("G", g=-9.81)
+    with pytest.raises(sf.ModelError, match="factor: expected real numbers, got text"):
+        m.add_self_weight("G", factor="1.1")
+    assert "G" not in m.cases  # nothing changed
+    with pytest.raises(sf.ModelError, match="add_panels: polygon 1: node ids must be integers"):
+        m.add_panels([[0, 1, 2], ["0", "1", "3"]])
+    with pytest.raises(sf.ModelError, match="add_panels: offsets must be integers"):
+        m.add_panels_flat([0, 1, 2], [0.0, 3.0])
+    assert m.n_panels == 0
+
+
 def test_validate_catches_arrays_changed_after_add() -> None:
     m = tripod()
     m.add_load("P", [3], (0, 0, -1e3))
