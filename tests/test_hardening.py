@@ -134,6 +134,30 @@ def test_settlement_of_determinate_tripod_gives_zero_forces(backend: str) -> Non
     np.testing.assert_allclose(res["S+P"].axial_forces, t_statics, rtol=1e-12)
 
 
+def test_free_thermal_expansion_reports_exact_zero_forces(backend: str) -> None:
+    # A wheel (rim and spokes, 1 state of self-stress) heated uniformly,
+    # supported so that it may grow: it grows into a similar shape without
+    # stress, every node moving radially by alpha dT r (common practice:
+    # uniform heating of a freely supported frame).  Round-off of the forces
+    # must come out as 0, not as forces of 1e-10 N.
+    m = sf.Model()
+    a = np.linspace(0, 2 * np.pi, 12, endpoint=False)
+    m.add_nodes(np.c_[20 * np.cos(a), 20 * np.sin(a), np.zeros(12)])
+    m.add_nodes([[0, 0, 0]])
+    rim = np.c_[np.arange(12), (np.arange(12) + 1) % 12]
+    spokes = np.c_[np.arange(12), np.full(12, 12)]
+    m.add_members(np.r_[rim, spokes], area=2e-3, E=2.1e11, alpha=1.2e-5)
+    m.add_support(np.arange(13), x=False, y=False, z=True)
+    m.add_support([12])
+    m.add_support([0], x=False, y=True, z=True)
+    m.add_temperature("T", np.arange(24), 40.0)
+    r = m.solve(solver=backend)["T"]
+    np.testing.assert_array_equal(r.axial_forces, 0.0)
+    np.testing.assert_array_equal(r.reactions, 0.0)
+    radial = np.einsum("ij,ij->i", r.displacements[:12, :2], m.nodes[:12, :2] / 20.0)
+    np.testing.assert_allclose(radial, 1.2e-5 * 40.0 * 20.0, rtol=1e-12)
+
+
 # --------------------------------------------------------- springs and counts
 def test_add_spring_takes_array_likes() -> None:
     m = pyramid_model()  # add_spring([2], (0, 0, 2e6)) inside
