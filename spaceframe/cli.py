@@ -65,6 +65,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--edges-as-members", action="store_true",
                    help="make members of the edges of a bare drawing's or mesh's faces")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
+    p.add_argument("--quick", action="store_true",
+                   help="cheap stability checks only, without factorising the stiffness")
 
     p = sub.add_parser(
         "run", parents=[common],
@@ -158,6 +160,8 @@ def _fmt(v: float, unit: str, scale: float = 1.0, digits: int = 4) -> str:
 
 
 def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
+    from spaceframe.summary import supports_text
+
     if as_json:
         print(json.dumps(rep.as_dict(), indent=2))
         return
@@ -179,7 +183,7 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
     out.line(f"connected parts: {rep.components}")
     if rep.groups:
         out.table("groups", ["group", "members"], [[g, str(n)] for g, n in rep.groups.items()])
-    out.line("supports: " + ", ".join(f"{v} {k}" for k, v in rep.supports.items()))
+    out.line("supports: " + supports_text(rep.supports))
     if rep.healing:
         out.line("healing:")
         for h in rep.healing:
@@ -195,7 +199,7 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
     if rep.stable is None:
         out.line(f"stability: {rep.mechanism}")
     elif rep.stable:
-        out.line("stability: no mechanism found")
+        out.line(f"stability: {rep.mechanism or 'no mechanism found'}")
     else:
         out.line("stability: UNSTABLE")
         print(f"mechanism: {rep.mechanism}", file=sys.stderr)
@@ -244,7 +248,7 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
     with ctx:
         rep = batch.check(args.model, progress=progress, units=args.units,
                           edges_as_members=args.edges_as_members,
-                          override_units=args.override_units)
+                          override_units=args.override_units, quick=args.quick)
     # Readers advise the Python keyword; on the command line it is an option.
     rep.warnings = [w.replace("edges_as_members=True", "--edges-as-members")
                     for w in rep.warnings]

@@ -15,6 +15,7 @@ Python scripts all end in the same arrays:
 
 from __future__ import annotations
 
+import numbers
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -76,6 +77,38 @@ class LoadCase:
             or np.any(self.initial_strain)
             or np.any(self.settlement_mask)
         )
+
+
+def _real_array(value: Any, name: str) -> np.ndarray:
+    """``value`` as a float64 array, or ModelError naming ``name``.
+
+    Refuses what numpy would turn into numbers silently or with a warning:
+    strings (even "1.5"), complex numbers, booleans, None; and ragged nested
+    lists, which numpy refuses with a message that names no argument.
+    """
+    try:
+        arr = np.asarray(value)
+    except (ValueError, TypeError) as exc:
+        raise ModelError(f"{name}: not a rectangular array of numbers ({exc})") from None
+    kind = arr.dtype.kind
+    if kind == "O":
+        flat = arr.ravel()
+        # Object arrays only come from mixed Python lists (rare, small): look
+        # at each entry to name the first that is not a real number.
+        for i, v in enumerate(flat):
+            if isinstance(v, bool | np.bool_) or not isinstance(v, numbers.Real):
+                where = np.unravel_index(i, arr.shape) if arr.ndim else ()
+                raise ModelError(
+                    f"{name}: entry {tuple(int(j) for j in where)} is {v!r}, not a real number"
+                )
+        try:
+            return arr.astype(float)
+        except (ValueError, TypeError, OverflowError) as exc:
+            raise ModelError(f"{name}: not an array of real numbers ({exc})") from None
+    if kind not in "iuf":
+        what = {"c": "complex", "U": "text", "S": "text", "b": "boolean"}.get(kind, arr.dtype.name)
+        raise ModelError(f"{name}: expected real numbers, got {what} values ({arr.dtype})")
+    return arr.astype(float)
 
 
 def _grow(a: np.ndarray, n: int) -> np.ndarray:
@@ -175,7 +208,7 @@ class Model:
     def __repr__(self) -> str:
         return (
             f"Model({self.n_nodes} nodes, {self.n_members} members, "
-            f"{int(self.restraint.any(axis=1).sum())} supported nodes, "
+            f"{int((self.restraint | (self.springs > 0)).any(axis=1).sum())} supported nodes, "
             f"{len(self.cases)} cases, {len(self.combinations)} combinations)"
         )
 
@@ -226,7 +259,10 @@ class Model:
 
     # ------------------------------------------------------------ validation
     def _node_ids(self, node_ids: Any, what: str) -> np.ndarray:
-        ids = np.atleast_1d(np.asarray(node_ids))
+        try:
+            ids = np.atleast_1d(np.asarray(node_ids))
+        except (ValueError, TypeError) as exc:
+            raise ModelError(f"{what}: ids must be a 1-D list of integers ({exc})") from None
         if ids.ndim != 1:
             raise ModelError(f"{what}: node ids must be a 1-D list, got shape {ids.shape}")
         if ids.size and not np.issubdtype(ids.dtype, np.integer):
@@ -244,7 +280,10 @@ class Model:
         return ids
 
     def _member_ids(self, member_ids: Any, what: str) -> np.ndarray:
-        ids = np.atleast_1d(np.asarray(member_ids))
+        try:
+            ids = np.atleast_1d(np.asarray(member_ids))
+        except (ValueError, TypeError) as exc:
+            raise ModelError(f"{what}: ids must be a 1-D list of integers ({exc})") from None
         if ids.ndim != 1:
             raise ModelError(f"{what}: member ids must be a 1-D list, got shape {ids.shape}")
         if ids.size and not np.issubdtype(ids.dtype, np.integer):
@@ -261,7 +300,7 @@ class Model:
 
     @staticmethod
     def _per_item(value: Any, k: int, name: str, *, positive: bool = False) -> np.ndarray:
-        arr = np.asarray(value, dtype=float)
+        arr = _real_array(value, name)
         if arr.ndim == 0:
             arr = np.full(k, float(arr))
         if arr.shape != (k,):
@@ -275,7 +314,7 @@ class Model:
 
     @staticmethod
     def _vector(value: Any, name: str) -> np.ndarray:
-        vec = np.asarray(value, dtype=float)
+        vec = _real_array(value, name)
         if vec.ndim == 1:
             if vec.shape != (3,):
                 raise ModelError(f"{name}: expected 3 components, got {vec.shape[0]}")
@@ -309,7 +348,7 @@ class Model:
         ModelError
             If the array is not (k, 3) or holds NaN or infinity.
         """
-        pts = np.asarray(xyz, dtype=float)
+        pts = _real_array(xyz, "add_nodes: xyz")
         if pts.ndim == 1 and pts.shape == (3,):
             pts = pts[None, :]
         if pts.ndim != 2 or pts.shape[1] != 3:
@@ -370,7 +409,12 @@ class Model:
             member, a duplicate (same node pair, either way round, also against
             existing members), non-positive area or E, or a shape mismatch.
         """
-        p = np.asarray(pairs)
+        try:
+            p = np.asarray(pairs)
+        except (ValueError, TypeError) as exc:
+            raise ModelError(f"add_members: pairs must be (k, 2) node ids ({exc})") from None
+        if p.dtype.kind not in "iuf" and p.size:
+            raise ModelError(f"add_members: node ids must be integers, got {p.dtype} values")
         if p.ndim == 1 and p.shape == (2,):
             p = p[None, :]
         if p.ndim != 2 or p.shape[1] != 2:
@@ -589,7 +633,19 @@ class Model:
         ids : (k,) int
             The new panel ids.
         """
-        polys = [np.asarray(p, dtype=np.int64).ravel() for p in polygons]
+        polys = []
+        for k, p in enumerate(polygons):
+            try:
+                arr = np.asarray(p)
+            except (ValueError, TypeError) as exc:
+                raise ModelError(
+                    f"add_panels: polygon {k} is not a list of node ids ({exc})"
+                ) from None
+            if arr.size and arr.dtype.kind not in "iu":
+                raise ModelError(
+                    f"add_panels: polygon {k}: node ids must be integers, got {arr.dtype} values"
+                )
+            polys.append(arr.astype(np.int64).ravel())
         sizes = np.array([p.size for p in polys], dtype=np.int64)
         flat = np.concatenate(polys) if polys else np.zeros(0, dtype=np.int64)
         return self.add_panels_flat(flat, np.concatenate([[0], np.cumsum(sizes)]), group=group)
@@ -621,8 +677,16 @@ class Model:
             On a panel of fewer than three nodes, a missing node, or offsets that
             do not describe ``panel_nodes``.
         """
-        flat = np.asarray(panel_nodes).ravel()
-        offs = np.asarray(offsets, dtype=np.int64).ravel()
+        try:
+            flat = np.asarray(panel_nodes).ravel()
+            offs_raw = np.asarray(offsets).ravel()
+        except (ValueError, TypeError) as exc:
+            raise ModelError(
+                f"add_panels: node ids and offsets must be 1-D integer lists ({exc})"
+            ) from None
+        if offs_raw.size and offs_raw.dtype.kind not in "iu":
+            raise ModelError(f"add_panels: offsets must be integers, got {offs_raw.dtype} values")
+        offs = offs_raw.astype(np.int64)
         if flat.size and not np.issubdtype(flat.dtype, np.integer):
             raise ModelError(f"add_panels: node ids must be integers, got {flat.dtype}")
         flat = flat.astype(np.int64)
@@ -659,7 +723,12 @@ class Model:
 
     def add_markers(self, xyz: Any, layers: Any) -> None:
         """Add marker points (metres) with a layer name each."""
-        pts = np.asarray(xyz, dtype=float).reshape(-1, 3)
+        pts = _real_array(xyz, "add_markers: xyz")
+        if pts.size % 3 or not np.all(np.isfinite(pts)):
+            raise ModelError(
+                f"add_markers: expected finite (k, 3) positions, got shape {pts.shape}"
+            )
+        pts = pts.reshape(-1, 3)
         names = np.asarray(layers, dtype=object).ravel()
         if names.size == 1 and pts.shape[0] != 1:
             names = np.full(pts.shape[0], names[0], dtype=object)
@@ -671,20 +740,54 @@ class Model:
         self.marker_layers = np.concatenate([self.marker_layers, names])
 
     # -------------------------------------------------------------- supports
-    def add_support(self, node_ids: Any, x: bool = True, y: bool = True, z: bool = True) -> None:
-        """Restrain translations of nodes (a roller restrains fewer directions)."""
-        ids = self._node_ids(node_ids, "add_support")
-        self.restraint[ids] |= np.array([x, y, z], dtype=bool)
+    def add_support(self, node_ids: Any, x: Any = True, y: bool = True, z: bool = True) -> None:
+        """Restrain translations of nodes (a roller restrains fewer directions).
 
-    def add_spring(
-        self, node_ids: Any, kx: float = 0.0, ky: float = 0.0, kz: float = 0.0
-    ) -> None:
-        """Add elastic supports, N/m, to nodes (adds to any spring already there)."""
+        ``x``, ``y``, ``z`` say which directions are held; ``x`` may instead be
+        the three flags at once, ``add_support(ids, (False, True, True))``.
+        """
+        ids = self._node_ids(node_ids, "add_support")
+        flags = np.asarray(x, dtype=object)
+        if flags.ndim == 0:
+            flags = np.array([x, y, z], dtype=object)
+        elif flags.shape != (3,):
+            raise ModelError(f"add_support: expected three flags (x, y, z), got {x!r}")
+        for axis, f in zip(_AXES, flags, strict=True):
+            if not isinstance(f, bool | np.bool_ | int | np.integer) or f not in (0, 1):
+                raise ModelError(f"add_support: flag {axis} is {f!r}; use True or False")
+        self.restraint[ids] |= flags.astype(bool)
+
+    def add_spring(self, node_ids: Any, kx: Any = 0.0, ky: Any = 0.0, kz: Any = 0.0) -> None:
+        """Add elastic supports, N/m, to nodes (adds to any spring already there).
+
+        Either ``kx``, ``ky``, ``kz`` (each a number or one per node), or the
+        stiffnesses as one array-like in ``kx``: ``(kx, ky, kz)`` for every
+        node or ``(k, 3)``, one row per node, as :meth:`add_load` takes forces.
+        """
         ids = self._node_ids(node_ids, "add_spring")
-        k = self._vector([kx, ky, kz], "add_spring: stiffness")
+        kx_a = _real_array(kx, "add_spring: kx")
+        if kx_a.ndim >= 1 and kx_a.shape[-1] == 3 and kx_a.ndim <= 2 and kx_a.size != 1:
+            if np.any(_real_array(ky, "add_spring: ky")) or np.any(
+                _real_array(kz, "add_spring: kz")
+            ):
+                raise ModelError(
+                    "add_spring: give the stiffness either as (kx, ky, kz) in one argument or "
+                    "as kx=, ky=, kz=, not both"
+                )
+            k = self._vector(kx_a, "add_spring: stiffness")
+        else:
+            k = np.stack(
+                [self._per_item(v, ids.size, f"add_spring: {a}") for a, v in
+                 zip(("kx", "ky", "kz"), (kx, ky, kz), strict=True)],
+                axis=1,
+            )
+        if k.ndim == 2 and k.shape[0] != ids.size:
+            raise ModelError(f"add_spring: {ids.size} nodes but {k.shape[0]} stiffness rows")
         if np.any(k < 0):
-            raise ModelError(f"add_spring: stiffness {k.tolist()} must not be negative")
-        np.add.at(self.springs, ids, k)
+            i = tuple(int(v) for v in np.argwhere(k < 0)[0])
+            raise ModelError(f"add_spring: stiffness component {i} = {float(k[i])} must not "
+                             "be negative")
+        np.add.at(self.springs, ids, np.broadcast_to(k, (ids.size, 3)))
 
     # ----------------------------------------------------------------- loads
     def case(self, name: str) -> LoadCase:
@@ -739,8 +842,15 @@ class Model:
             if members is None
             else self._member_ids(members, f"add_self_weight({case!r})")
         )
+        g_val = float(self._per_item(g, 1, f"add_self_weight({case!r}): g")[0])
+        if not g_val > 0:
+            raise ModelError(
+                f"add_self_weight({case!r}): g = {g_val} m/s² must be positive (self-weight "
+                "acts along -z by definition; use nodal loads for another direction)"
+            )
+        f_val = float(self._per_item(factor, 1, f"add_self_weight({case!r}): factor")[0])
         lc = self.case(case)
-        w = 0.5 * factor * g * self.mass[ids]
+        w = 0.5 * f_val * g_val * self.mass[ids]
         fz = np.bincount(self.members[ids, 0], w, self.n_nodes) + np.bincount(
             self.members[ids, 1], w, self.n_nodes
         )
@@ -796,6 +906,10 @@ class Model:
                 raise ModelError(
                     f"combination {name!r} refers to unknown load case {case!r} (cases: {known})"
                 )
+            if isinstance(factor, bool) or not isinstance(factor, numbers.Real):
+                raise ModelError(
+                    f"combination {name!r}: factor for {case!r} is {factor!r}, not a number"
+                )
             f = float(factor)
             if not np.isfinite(f):
                 raise ModelError(f"combination {name!r}: factor for {case!r} is {factor!r}")
@@ -811,29 +925,111 @@ class Model:
         ModelError
             On any inconsistency of shapes, ids or values.
         """
+        # Arrays are public and may have been changed in place after add_*:
+        # check them all again (vectorised) and drop cached lengths.
+        self._invalidate()
+        nodes = self.nodes
+        if not (isinstance(nodes, np.ndarray) and nodes.ndim == 2 and nodes.shape[1] == 3
+                and nodes.dtype.kind == "f"):
+            raise ModelError(
+                f"nodes must be an (n, 3) float array, got {getattr(nodes, 'shape', nodes)!r}"
+            )
+        bad = np.argwhere(~np.isfinite(nodes))
+        if bad.size:
+            i, j = (int(v) for v in bad[0])
+            raise ModelError(f"node {i}: coordinate {_AXES[j]} is {float(nodes[i, j])}")
+        n = self.n_nodes
+        mem = self.members
+        if not (isinstance(mem, np.ndarray) and mem.ndim == 2 and mem.shape[1] == 2
+                and mem.dtype.kind in "iu"):
+            raise ModelError(
+                f"members must be a (b, 2) integer array, got {getattr(mem, 'shape', mem)!r}"
+            )
         b = self.n_members
+        out = np.argwhere((mem < 0) | (mem >= n))
+        if out.size:
+            i, j = (int(v) for v in out[0])
+            raise ModelError(
+                f"member {i} refers to node {int(mem[i, j])}, which does not exist "
+                f"(the model has nodes 0..{n - 1})"
+            )
         for name in ("area", "E", "density", "alpha"):
             arr = getattr(self, name)
-            if arr.shape != (b,):
-                raise ModelError(f"{name} has shape {arr.shape}, expected ({b},)")
-        if self.restraint.shape != (self.n_nodes, 3) or self.springs.shape != (self.n_nodes, 3):
+            if not isinstance(arr, np.ndarray) or arr.shape != (b,):
+                raise ModelError(
+                    f"{name} has shape {getattr(arr, 'shape', None)}, expected ({b},)"
+                )
+        if self.restraint.shape != (n, 3) or self.springs.shape != (n, 3):
             raise ModelError("restraint and springs must be (n, 3) arrays")
         if b == 0:
             raise ModelError("the model has no members")
+        same = np.flatnonzero(mem[:, 0] == mem[:, 1])
+        if same.size:
+            i = int(same[0])
+            raise ModelError(f"member {i} runs from node {int(mem[i, 0])} to itself")
+        zero = np.flatnonzero(~(self.lengths > 0))
+        if zero.size:
+            i = int(zero[0])
+            raise ModelError(
+                f"member {i} between nodes {int(mem[i, 0])} and {int(mem[i, 1])} has zero length"
+            )
         for name in ("area", "E"):
-            missing = np.flatnonzero(~np.isfinite(getattr(self, name)))
+            arr = getattr(self, name)
+            missing = np.flatnonzero(np.isnan(arr))
             if missing.size:
                 i = int(missing[0])
                 raise ModelError(
                     f"member {i}{self._group_text(i)} has no {name} assigned "
                     f"({missing.size} members without one)"
                 )
+            wrong = np.flatnonzero(~(np.isfinite(arr) & (arr > 0)))
+            if wrong.size:
+                i = int(wrong[0])
+                raise ModelError(f"member {i}: {name} = {float(arr[i])} must be a positive "
+                                 "finite number")
+        for name, lowest in (("density", 0.0), ("alpha", -np.inf)):
+            arr = getattr(self, name)
+            wrong = np.flatnonzero(~(np.isfinite(arr) & (arr >= lowest)))
+            if wrong.size:
+                i = int(wrong[0])
+                raise ModelError(f"member {i}: {name} = {float(arr[i])} is not allowed")
+        bad_k = np.argwhere(~(np.isfinite(self.springs) & (self.springs >= 0)))
+        if bad_k.size:
+            i, j = (int(v) for v in bad_k[0])
+            raise ModelError(
+                f"node {i}: spring along {_AXES[j]} is {float(self.springs[i, j])} N/m "
+                "(must be finite and not negative)"
+            )
         for name, ids in self.groups.items():
             self._member_ids(ids, f"group {name!r}")
+        for name, ids in self.node_sets.items():
+            self._node_ids(ids, f"node set {name!r}")
+        if self.panel_nodes.size:
+            self._node_ids(self.panel_nodes, "panels")
+        for cname, lc in self.cases.items():
+            lc.resize(n, b)
+            for what, arr, rows in (
+                ("forces", lc.forces, n), ("settlement", lc.settlement, n),
+                ("temperature", lc.temperature, b), ("initial_strain", lc.initial_strain, b),
+            ):
+                if arr.shape[0] != rows:
+                    raise ModelError(
+                        f"load case {cname!r}: {what} has {arr.shape[0]} rows for {rows} "
+                        f"{'nodes' if rows == n else 'members'}"
+                    )
+                where = np.argwhere(~np.isfinite(arr))
+                if where.size:
+                    i = int(where[0][0])
+                    raise ModelError(
+                        f"load case {cname!r}: {what} of {'node' if rows == n else 'member'} "
+                        f"{i} is not finite"
+                    )
         for cname, factors in self.combinations.items():
-            for case in factors:
+            for case, f in factors.items():
                 if case not in self.cases:
                     raise ModelError(f"combination {cname!r} refers to unknown load case {case!r}")
+                if not np.isfinite(f):
+                    raise ModelError(f"combination {cname!r}: factor for {case!r} is {f!r}")
 
     def solve(self, solver: str = "auto") -> Results:
         """Linear static analysis of every load case and combination.

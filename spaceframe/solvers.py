@@ -32,11 +32,17 @@ __all__ = ["Factor", "SingularFactor", "available_backends", "factorize", "resol
 
 Backend = Literal["auto", "scipy", "pardiso"]
 
-#: Pivot size, relative to the largest diagonal entry of the matrix, below
-#: which a pivot is taken as zero (a mechanism).  Round-off in a sound
-#: factorisation stays near 1e-16 times the diagonal; genuine stiffness
-#: ratios in frames (a slack cable beside a main chord) stay above 1e-9.
-PIVOT_TOLERANCE = 1.0e-11
+#: Pivot size, relative to the diagonal entry of the same degree of freedom
+#: (the stiffness that direction had before elimination), below which a pivot
+#: is taken as zero (a mechanism).  Judging each pivot against its own
+#: diagonal, not against the largest one, makes the test independent of the
+#: units and of the stiffness scale: a frame with E = 1e-300 or a chord 1e10
+#: times stiffer than the diagonals is judged by its geometry.  The pivot of a
+#: mechanism is round-off, of order 1e-16 to 1e-14 of its diagonal; a stiffness
+#: contrast up to MAX_STIFFNESS_RATIO (1e10, checked before factorising) leaves
+#: relative pivots of about 1e-10 or more, and members 1e-5 rad from a line
+#: about 1e-10.
+PIVOT_TOLERANCE = 1.0e-12
 
 
 class SingularFactor(SolverError):
@@ -88,13 +94,9 @@ class _SuperLUFactor:
     def __init__(self, K: sp.spmatrix) -> None:
         import scipy.sparse.linalg as spla
 
-        Kc = sp.csc_matrix(K)
-        diag = np.abs(Kc.diagonal())
-        scale = float(diag.max(initial=0.0))
-        if scale > 0:
-            zero = np.flatnonzero(diag <= PIVOT_TOLERANCE * scale)
-        else:
-            zero = np.arange(K.shape[0])
+        Kc, self._scale = _scaled(sp.csc_matrix(K))
+        diag = Kc.diagonal()
+        zero = np.flatnonzero(~(diag > 0))
         if zero.size:
             raise SingularFactor(f"{zero.size} zero diagonal entries", zero)
         try:
@@ -106,15 +108,18 @@ class _SuperLUFactor:
             )
         except RuntimeError as exc:  # "Factor is exactly singular"
             raise SingularFactor(f"SuperLU: {exc}") from exc
-        udiag = np.abs(self._lu.U.diagonal())
-        small = np.flatnonzero(udiag <= PIVOT_TOLERANCE * scale)
+        # U's column j is the original column i with perm_c[i] == j (diagonal
+        # pivoting in symmetric mode: perm_r == perm_c).
+        inv = np.argsort(self._lu.perm_c)
+        udiag = self._lu.U.diagonal()
+        small = np.flatnonzero(~(udiag > PIVOT_TOLERANCE * diag[inv]))
         if small.size:
-            # U's column j is the original column i with perm_c[i] == j.
-            inv = np.argsort(self._lu.perm_c)
             raise SingularFactor(f"{small.size} zero pivots", inv[small])
 
     def solve(self, rhs: np.ndarray) -> np.ndarray:
-        return np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
+        x = np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
+        with np.errstate(over="ignore"):
+            return x / self._scale
 
 
 class _PardisoFactor:
@@ -123,7 +128,7 @@ class _PardisoFactor:
     def __init__(self, K_upper: sp.spmatrix) -> None:
         import pypardiso
 
-        self._A = sp.csr_matrix(K_upper)
+        self._A, self._scale = _scaled(sp.csr_matrix(K_upper))
         self._A.sort_indices()
         solver = pypardiso.PyPardisoSolver(mtype=2)
         # pypardiso searches for the MKL runtime (a linker query and a
@@ -179,8 +184,9 @@ class _PardisoFactor:
         )
         if error.value != 0:
             return  # pivots unavailable: the caller's residual checks remain
-        scale = float(np.abs(diag).max(initial=0.0))
-        small = np.flatnonzero(pivots <= PIVOT_TOLERANCE * scale)
+        # Both arrays come in PARDISO's own (permuted) order, so each pivot is
+        # judged against the diagonal of its own degree of freedom.
+        small = np.flatnonzero(~(pivots > PIVOT_TOLERANCE * diag))
         if small.size:
             solver.free_memory(everything=True)
             # Pivots come in PARDISO's fill-reducing order, so their dofs are
@@ -192,7 +198,9 @@ class _PardisoFactor:
 
         b = np.asfortranarray(np.asarray(rhs, dtype=float))
         try:
-            return np.asarray(self._solver.solve(self._A, b))
+            x = np.asarray(self._solver.solve(self._A, b))
+            with np.errstate(over="ignore"):
+                return x / self._scale
         except pypardiso.pardiso_wrapper.PyPardisoError as exc:
             raise SolverError(f"PARDISO solve failed: {exc}") from exc
 
@@ -201,6 +209,26 @@ class _PardisoFactor:
             self._solver.free_memory(everything=True)
         except Exception:
             pass
+
+
+def _scaled(K: sp.spmatrix) -> tuple[sp.spmatrix, float]:
+    """K divided by its largest diagonal entry, and that entry.
+
+    Factorising a matrix of order one keeps every product inside the range of
+    float64 whatever the units or the size of E (a modulus of 1e300 or 1e-300
+    would otherwise overflow or underflow in the elimination).
+    """
+    diag = np.abs(K.diagonal())
+    scale = float(diag.max(initial=0.0))
+    if not (np.isfinite(scale) and scale > 0):
+        if not np.isfinite(scale):
+            raise SolverError("the stiffness matrix holds non-finite entries")
+        return K.copy(), 1.0
+    out = K.copy()
+    out.data = out.data / scale
+    if not np.all(np.isfinite(out.data)):
+        raise SolverError("the stiffness matrix holds non-finite entries")
+    return out, scale
 
 
 def needs_upper(backend: str) -> bool:

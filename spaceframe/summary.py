@@ -30,8 +30,11 @@ __all__ = [
     "member_group_index",
     "member_group_labels",
     "panel_group_index",
+    "plural",
     "summary",
+    "support_counts",
     "supported_nodes",
+    "supports_text",
 ]
 
 #: Version tag of the dictionary returned by :func:`summary`; bump it when a
@@ -146,6 +149,37 @@ def supported_nodes(model: Model) -> np.ndarray:
     return np.flatnonzero(model.restraint.any(axis=1) | (model.springs > 0).any(axis=1))
 
 
+def support_counts(model: Model) -> dict[str, int]:
+    """Supports in numbers: nodes held (restrained or sprung), restrained and sprung directions.
+
+    A node on a spring only is a supported node: it is held, elastically.
+    """
+    return {
+        "supported nodes": int(supported_nodes(model).size),
+        "restrained directions": int(model.restraint.sum()),
+        "sprung directions": int((model.springs > 0).sum()),
+    }
+
+
+def plural(count: int, singular: str, plural_form: str | None = None) -> str:
+    """'1 sprung direction', '2 sprung directions' (``plural_form`` for irregular words)."""
+    word = singular if count == 1 else (plural_form or singular + "s")
+    return f"{count} {word}"
+
+
+def supports_text(counts: dict[str, int]) -> str:
+    """One line from :func:`support_counts`, each count with its word in the right number.
+
+    >>> supports_text({"supported nodes": 4, "restrained directions": 5, "sprung directions": 1})
+    '4 supported nodes, 5 restrained directions, 1 sprung direction'
+    """
+    parts = []
+    for key, n in counts.items():
+        words = key[:-1] if key.endswith("s") else key
+        parts.append(plural(int(n), words, key))
+    return ", ".join(parts)
+
+
 def _vec(a: np.ndarray) -> list[float]:
     return [float(v) for v in np.asarray(a, dtype=float).ravel()]
 
@@ -175,9 +209,18 @@ def critical_members(model: Model, result: CaseResult, n: int = 5) -> list[dict[
     if k <= 0:
         return []
     top = np.argpartition(-a, k - 1)[:k]
-    # Stable order: by decreasing |N|, ties by member id.
-    top = top[np.lexsort((top, -a[top]))]
+    # Stable order: by decreasing |N|, ties by member id; forces equal to 12
+    # significant digits are ties (equal in closed form, apart in round-off).
+    top = top[np.lexsort((top, -_tie_key(a)[top]))]
     return [_member_entry(model, result, int(i)) for i in top]
+
+
+def _tie_key(a: np.ndarray) -> np.ndarray:
+    """|values| rounded to 12 significant digits of the largest, for ordering with ties."""
+    peak = float(a.max(initial=0.0))
+    if not (peak > 0 and np.isfinite(peak)):
+        return a
+    return np.round(a / peak, 12)
 
 
 def case_summary(model: Model, result: CaseResult, n_critical: int = 5) -> dict[str, Any]:
@@ -236,7 +279,7 @@ def _governing(results: Results, n: int) -> list[dict[str, Any]]:
     if k <= 0 or not names:
         return []
     top = np.argpartition(-best, k - 1)[:k]
-    top = top[np.lexsort((top, -best[top]))]
+    top = top[np.lexsort((top, -_tie_key(best)[top]))]
     out = []
     for i in top:
         name = names[int(which[i])]

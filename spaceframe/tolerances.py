@@ -38,3 +38,12 @@ RANK_TOLERANCE = 1.0e-9
 #: on purpose, yet far above the ~1e-16 left by round-off in a rotated flat
 #: truss.
 NODE_STIFFNESS_RATIO = 1.0e-10
+
+#: Largest ratio of member axial stiffnesses EA/L that a solve accepts.
+#: Round-off in the force of a stiff member grows as (stiffness ratio) x
+#: 1e-16 of the load (unit round-off of float64, common practice for the
+#: forward error of a linear solve, cf. Higham, "Accuracy and Stability of
+#: Numerical Algorithms", 2nd ed., ch. 7); 1e10 keeps forces good to about
+#: 1e-6 and covers any real contrast (a 1 mm² tie beside a 1 m² chord of a
+#: tenth of its length is 1e7).
+MAX_STIFFNESS_RATIO = 1.0e10

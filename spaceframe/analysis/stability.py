@@ -27,19 +27,23 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from spaceframe.assembly import equilibrium_matrix, nodal_blocks
-from spaceframe.errors import MechanismError, ModelError
-from spaceframe.tolerances import NODE_STIFFNESS_RATIO, RANK_TOLERANCE
+from spaceframe.assembly import equilibrium_matrix
+from spaceframe.errors import MechanismError, ModelError, SolverError
+from spaceframe.solvers import PIVOT_TOLERANCE, SingularFactor
+from spaceframe.tolerances import MAX_STIFFNESS_RATIO, NODE_STIFFNESS_RATIO, RANK_TOLERANCE
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
 
 __all__ = [
     "Determinacy",
+    "check_conditioning",
     "check_stability",
     "describe_dofs",
     "determinacy",
+    "full_stability",
     "mechanism_modes",
+    "name_singular",
     "solve_determinate",
 ]
 
@@ -82,15 +86,115 @@ def _plane_text(model: Model, node: int, normal: np.ndarray) -> str:
     return f"the plane through ({p[0]:.6g}, {p[1]:.6g}, {p[2]:.6g}) with normal {name}"
 
 
-def _nodal_stiffness(model: Model) -> np.ndarray:
-    """(n, 3, 3): sum over each node's members of (EA/L) c c^T, plus springs."""
-    _, node = nodal_blocks(model)
+def _nodal_directions(model: Model) -> np.ndarray:
+    """(n, 3, 3): sum over each node's members of c c^T (unit weights), plus springs.
+
+    The geometric counterpart of the nodal stiffness: its eigenvalues say how
+    the members' directions span space at each node, whatever their EA/L.
+    """
+    c = model.directions
     iu, ju = np.triu_indices(3)
-    S = np.empty((model.n_nodes, 3, 3))
-    S[:, iu, ju] = node
-    S[:, ju, iu] = node
-    S[:, [0, 1, 2], [0, 1, 2]] += model.springs
+    member = c[:, iu] * c[:, ju]
+    n = model.n_nodes
+    i, j = model.members[:, 0], model.members[:, 1]
+    S = np.empty((n, 3, 3))
+    for a in range(6):
+        col = np.bincount(i, member[:, a], n) + np.bincount(j, member[:, a], n)
+        S[:, iu[a], ju[a]] = col
+        S[:, ju[a], iu[a]] = col
+    S[:, [0, 1, 2], [0, 1, 2]] += model.springs > 0
     return S
+
+
+def check_conditioning(model: Model) -> None:
+    """Refuse member stiffnesses EA/L further apart than MAX_STIFFNESS_RATIO.
+
+    Beyond that ratio float64 cannot promise the member forces: round-off in
+    the stiff members' forces grows as ratio x 1e-16 of the load, so the
+    answer would be refused by the self-checks or, worse, be wrong in the
+    last digits that matter.  The message names the two members.
+
+    Raises
+    ------
+    SolverError
+        With the ratio and the stiffest and softest members.
+    """
+    k = model.axial_stiffness
+    if k.size == 0:
+        return
+    bad = np.flatnonzero(~(np.isfinite(k) & (k > 0)))
+    if bad.size:
+        i = int(bad[0])
+        raise SolverError(
+            f"member {i}: axial stiffness EA/L = {float(k[i]):.3g} N/m is not a positive "
+            f"finite number (E = {float(model.E[i]):.3g} Pa, A = {float(model.area[i]):.3g} m², "
+            f"L = {float(model.lengths[i]):.3g} m)"
+        )
+    hi, lo = int(np.argmax(k)), int(np.argmin(k))
+    ratio = float(k[hi] / k[lo])
+    if not ratio <= MAX_STIFFNESS_RATIO:
+        raise SolverError(
+            f"ill-conditioned: stiffness ratio {ratio:.3g} between member {hi} "
+            f"(EA/L = {float(k[hi]):.3g} N/m) and member {lo} (EA/L = {float(k[lo]):.3g} N/m) "
+            f"exceeds {MAX_STIFFNESS_RATIO:.0e}, beyond which float64 cannot promise the forces"
+        )
+
+
+def name_singular(model: Model, K: sp.spmatrix, free: np.ndarray, exc: SingularFactor) -> None:
+    """Raise MechanismError naming the zero-energy modes of a singular reduced stiffness.
+
+    ``K`` is the full (not triangular) reduced stiffness, ``free`` the global
+    dof of each row, ``exc`` the factorisation's complaint.
+    """
+    try:
+        _, modes = mechanism_modes(K, free)
+    except Exception:
+        modes = []
+    if modes:
+        text = "; ".join(f"mode {j + 1} moves {describe_dofs(d)}" for j, d in enumerate(modes))
+        dofs = np.unique(np.concatenate(modes))
+    else:
+        dofs = free[exc.dofs] if exc.dofs.size else np.zeros(0, dtype=np.int64)
+        text = f"zero stiffness at {describe_dofs(dofs)}" if dofs.size else str(exc)
+        text += f" ({exc})" if dofs.size else ""
+    nodes, axes = np.divmod(dofs, 3)
+    raise MechanismError(
+        f"the frame is a mechanism (singular stiffness): {text}",
+        nodes=nodes,
+        directions=["xyz"[a] for a in axes],
+    ) from exc
+
+
+def full_stability(model: Model, solver: str = "auto", quick: bool = False) -> None:
+    """The whole stability test that a solve relies on, without solving.
+
+    The cheap checks (:func:`check_stability`), the stiffness-ratio limit
+    (:func:`check_conditioning`) and, unless ``quick``, a factorisation of the
+    reduced stiffness by the same back-end and pivot test as the solve: a
+    frame that passes here is not refused as a mechanism by the solve.
+
+    Raises
+    ------
+    MechanismError
+        Naming nodes and directions (from the zero-energy modes).
+    SolverError
+        On a stiffness ratio the solver cannot promise.
+    """
+    from spaceframe.analysis.static import full_matrix, reduced_system
+    from spaceframe.solvers import factorize, resolve_backend
+
+    check_stability(model)
+    check_conditioning(model)
+    if quick:
+        return
+    backend = resolve_backend(solver)
+    K, free = reduced_system(model, backend)
+    if free.size == 0:
+        return
+    try:
+        factorize(K, backend)
+    except SingularFactor as exc:
+        name_singular(model, full_matrix(K, backend), free, exc)
 
 
 def check_stability(model: Model) -> None:
@@ -121,12 +225,14 @@ def check_stability(model: Model) -> None:
             directions=dirs,
         )
 
-    # 2. collinear / coplanar members at free nodes
-    S = _nodal_stiffness(model)
-    scale = np.abs(S).max(axis=(1, 2))
+    # 2. collinear / coplanar members at free nodes.  A geometric test: each
+    # member counts with unit weight (only its direction matters), so a soft
+    # member beside stiff ones, or a modulus of 1e-300, is never mistaken for
+    # a missing one; what this test reports about lines and planes is true of
+    # the drawn geometry.  Springs hold their direction like a member along it.
+    S = _nodal_directions(model)
     # Restrained directions cannot move: make them stiff before looking.
-    big = np.where(scale > 0, scale, 1.0)
-    S[:, [0, 1, 2], [0, 1, 2]] += model.restraint * big[:, None]
+    S[:, [0, 1, 2], [0, 1, 2]] += model.restraint * (degree[:, None] + 1.0)
     w, v = np.linalg.eigh(S)
     weak = w[:, 0] <= NODE_STIFFNESS_RATIO * np.maximum(w[:, 2], 1e-300)
     weak &= degree > 0
@@ -144,6 +250,8 @@ def check_stability(model: Model) -> None:
                 why = f"all its members lie on one line (along {line})"
             else:
                 why = f"all its members lie in {_plane_text(model, int(i), vec)}"
+            if np.any(model.restraint[i] | (model.springs[i] > 0)):
+                why += " and its supports do not hold that direction"
             msgs.append(f"node {int(i)} has no stiffness along {name}: {why}")
         more = f" (and {bad.size - _LIST} more nodes)" if bad.size > _LIST else ""
         raise MechanismError("; ".join(msgs) + more, nodes=bad, directions=dirs)
@@ -239,26 +347,36 @@ def mechanism_modes(
     Returns
     -------
     energies : (j,) float
-        Relative eigenvalues (lambda / max diagonal) of the modes found near zero.
+        Eigenvalues of the diagonally scaled stiffness (order one for a stiff
+        direction) of the modes found near zero.
     dofs : list of (p,) int
         For each mode, the global dofs that move most (>= 10 % of its peak).
     """
     m = K.shape[0]
-    scale = float(np.abs(K.diagonal()).max(initial=1.0))
+    # Symmetric diagonal (Jacobi) scaling S K S with S = diag(K)^-1/2: each
+    # direction is judged against its own stiffness, as the pivot test of the
+    # factorisation does, so a soft member beside stiff ones is not a "mode"
+    # and a modulus of 1e-300 is not either.  A pivot below PIVOT_TOLERANCE
+    # of its diagonal implies an eigenvalue of S K S below it (Schur
+    # complements interlace), so a mechanism the factorisation found is named.
+    diag = np.abs(K.diagonal())
+    s = 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0))
+    S = sp.diags(s)
+    Ks = sp.csc_matrix(S @ K @ S)
     k = max(1, min(k, m - 1))
     if m <= 3000:
-        w, V = np.linalg.eigh(K.toarray() / scale)
+        w, V = np.linalg.eigh(Ks.toarray())
         w, V = w[:k], V[:, :k]
     else:
         from scipy.sparse.linalg import eigsh
 
         # Shift-invert about a small negative value: (K - sigma I) is then
         # positive definite and factorisable even though K is singular.
-        w, V = eigsh(sp.csc_matrix(K) / scale, k=k, sigma=-1e-6, which="LM")
-    zero = np.flatnonzero(w < 1e-9)
+        w, V = eigsh(Ks, k=k, sigma=-1e-6, which="LM")
+    zero = np.flatnonzero(w < PIVOT_TOLERANCE)
     out = []
     for j in zero:
-        vec = np.abs(V[:, j])
+        vec = np.abs(s * V[:, j])  # back to displacements
         out.append(free_dofs[vec >= 0.1 * vec.max()])
     return w[zero], out
 
