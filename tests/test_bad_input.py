@@ -13,14 +13,13 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+import _bad_cases as bc
 import pytest
 
 import spaceframe as sf
 from spaceframe.cli import main
 from spaceframe.errors import ModelError, ProjectError, ReadError, SpaceframeError
 from spaceframe.project import load_project
-
-import _bad_cases as bc
 
 # Longest message accepted from a reader or the command line (characters).
 MESSAGE_CAP = 1000
