@@ -320,7 +320,8 @@ def atomic_write(path: str | os.PathLike[str], save: Callable[[Path], None]) -> 
     try:
         fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
     except OSError as exc:
-        raise WriteError(f"{target}: cannot create a file in {folder}: {exc}") from exc
+        raise WriteError(
+            f"{target}: cannot create a file in {folder}: {exc.strerror or exc}") from exc
     os.close(fd)
     tmp = Path(tmp_name)
     try:
@@ -331,7 +332,8 @@ def atomic_write(path: str | os.PathLike[str], save: Callable[[Path], None]) -> 
         os.replace(tmp, target)
     except OSError as exc:
         tmp.unlink(missing_ok=True)
-        raise WriteError(f"{target}: could not be written: {exc}") from exc
+        # strerror, not str(exc): the latter names the hidden temporary file.
+        raise WriteError(f"{target}: could not be written: {exc.strerror or exc}") from exc
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise

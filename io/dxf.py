@@ -8,7 +8,12 @@ expanded recursively with their transforms (nested, mirrored, MINSERT grids).
 POINT becomes a marker; 3DFACE, MESH and polyface/polygon-mesh POLYLINE
 become load panels.  Layers become member (and panel) groups.  Curves (arcs,
 circles, ellipses, splines, bulged polyline segments) are not members: they
-are counted, with their layers, in ``model.meta["io:ignored"]``.
+are counted, with their layers, in ``model.meta["io:ignored"]``, as is every
+other entity that is not read (text, hatches, damaged entities, block
+references that cannot be expanded); each kind is named in a
+SpaceframeWarning.  A block reference with z-scale 0, as 2D exporters write
+them, is read with z-scale 1 when its block is flat.  ezdxf's repairs of a
+damaged file and its log messages become warnings too.
 
 Writing puts the centrelines on one layer per group, markers as POINT and
 panels as 3DFACE (MESH beyond four corners), with ``$INSUNITS`` set.
@@ -16,9 +21,14 @@ panels as 3DFACE (MESH beyond four corners), with ``$INSUNITS`` set.
 
 from __future__ import annotations
 
+import contextlib
+import functools
+import logging
 import math
 import os
+import re
 import warnings
+from collections.abc import Iterator
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -69,6 +79,57 @@ _MAX_BLOCK_DEPTH = 32
 # without being listed as ignored (they are annotation or structure).
 _SILENT = frozenset({"ATTDEF", "ATTRIB", "VIEWPORT", "SEQEND", "VERTEX"})
 
+# What a broken entity of a damaged file raises inside ezdxf: besides its
+# own DXFError (which includes DXFAttributeError for an entity whose type
+# name was damaged), the plain errors of bad values, missing tags and
+# degenerate transforms.
+_ENTITY_ERRORS: tuple[type[Exception], ...] = (
+    AttributeError,
+    ArithmeticError,
+    IndexError,
+    KeyError,
+    TypeError,
+    ValueError,
+)
+
+# Ignored-table kinds that mean "an entity was lost" rather than "an entity
+# of a kind that is not a member": they start with these words.
+_SKIPPED_PREFIXES = ("damaged ", "INSERT of block ")
+
+# At most this many items of a list are named in a warning; the rest are counted.
+_SHOW = 5
+
+
+@functools.lru_cache(maxsize=1)
+def _broken_entity_errors() -> tuple[type[Exception], ...]:
+    """ezdxf's own error class and the plain ones a broken entity raises."""
+    from ezdxf.lldxf.const import DXFError
+
+    return (DXFError, *_ENTITY_ERRORS)
+
+
+def _kind_of(e: Any) -> str:
+    """The type name of an entity that may be damaged."""
+    try:
+        return str(e.dxftype())
+    except _ENTITY_ERRORS:
+        return type(e).__name__
+
+
+def _layer_of(e: Any) -> str:
+    """The layer of an entity that may be damaged ("?" when it has none)."""
+    try:
+        return str(e.dxf.layer)
+    except _ENTITY_ERRORS:
+        pass
+    # An entity with a damaged type name is kept by ezdxf as raw tags.
+    with contextlib.suppress(*_ENTITY_ERRORS):
+        for tags in e.xtags.subclasses:
+            for tag in tags:
+                if tag.code == 8:
+                    return str(tag.value)
+    return "?"
+
 
 class _Collector:
     """Walks the model space once, appending coordinates to flat Python lists.
@@ -97,6 +158,11 @@ class _Collector:
         self._canon_index: dict[str, int] = {}
         self.ignored: dict[str, dict[str, Any]] = {}
         self.filtered: dict[str, int] = {}
+        # Block references with z-scale 0 read with z-scale 1 (their block
+        # is flat), by block name.
+        self.zscale0: dict[str, int] = {}
+        self._nested_zero: dict[str, list[int]] = {}  # by block name, see _zero_nested
+        self._zero_ids: set[int] = set()  # nested copies whose z-scale was 0
 
     # -- helpers
     def _layer(self, name: str) -> int:
@@ -127,11 +193,17 @@ class _Collector:
 
     # -- traversal
     def visit(self, entities: Any, inherit: str | None, depth: int) -> None:
-        from ezdxf.lldxf.const import DXFError
-
+        broken = _broken_entity_errors()
+        isfinite = math.isfinite
         for e in entities:
-            kind = e.dxftype()
-            layer = e.dxf.layer
+            try:
+                kind = e.dxftype()
+                layer = e.dxf.layer
+            except broken as exc:
+                # A damaged type name leaves an entity without DXF
+                # attributes: skipped and listed like any broken entity.
+                self._ignore(f"damaged {_kind_of(e)} ({type(exc).__name__})", _layer_of(e))
+                continue
             if inherit is not None and layer == "0":
                 # Entities on layer 0 inside a block take the insert's layer.
                 layer = inherit
@@ -140,10 +212,20 @@ class _Collector:
                 if li < 0:
                     self._filtered(layer)
                     continue
-                dxf = e.dxf
-                self.xyz.extend(dxf.start)
-                self.xyz.extend(dxf.end)
-                k = len(self.xyz) // 3
+                dxf, xyz = e.dxf, self.xyz
+                n0 = len(xyz)
+                try:
+                    xyz.extend(dxf.start)
+                    xyz.extend(dxf.end)
+                except broken as exc:
+                    del xyz[n0:]
+                    self._ignore(f"damaged LINE ({type(exc).__name__})", layer)
+                    continue
+                if not isfinite(sum(xyz[-6:])):
+                    del xyz[-6:]
+                    self._ignore("damaged LINE (coordinate not a finite number)", layer)
+                    continue
+                k = len(xyz) // 3
                 self.seg.extend((k - 2, k - 1))
                 self.seg_owner.append(self._owner(li))
             elif kind == "INSERT":
@@ -155,34 +237,161 @@ class _Collector:
                 if li < 0:
                     self._filtered(layer)
                     continue
+                mark = self._mark()
                 try:
                     self._other(e, kind, layer, li)
-                except (DXFError, ValueError, IndexError) as exc:
+                except broken as exc:
                     # One broken entity of a damaged file is skipped and
-                    # listed; the rest of the drawing is still read.
+                    # listed; the rest of the drawing is still read.  What
+                    # it had added before failing is taken back.
+                    self._rollback(mark)
                     self._ignore(f"damaged {kind} ({type(exc).__name__})", layer)
+                    continue
+                if not self._finite_since(mark):
+                    self._rollback(mark)
+                    self._ignore(f"damaged {kind} (coordinate not a finite number)", layer)
+
+    def _mark(self) -> tuple[int, ...]:
+        return (
+            len(self.xyz),
+            len(self.seg),
+            len(self.seg_owner),
+            len(self.face_nodes),
+            len(self.face_sizes),
+            len(self.face_owner),
+            len(self.edges),
+            len(self.edge_face),
+            len(self.marker_xyz),
+            len(self.marker_layer),
+            len(self.owner_layer),
+        )
+
+    def _finite_since(self, mark: tuple[int, ...]) -> bool:
+        # A sum is finite only if every term is (short of overflow near
+        # 1e308, which a drawing of a frame does not reach).
+        return math.isfinite(sum(self.xyz[mark[0] :])) and math.isfinite(
+            sum(self.marker_xyz[mark[8] :])
+        )
+
+    def _counts(self) -> tuple[dict[str, Any], dict[str, int], dict[str, int]]:
+        ignored = {
+            k: {"count": v["count"], "layers": dict(v["layers"])} for k, v in self.ignored.items()
+        }
+        return ignored, dict(self.filtered), dict(self.zscale0)
+
+    def _rollback(
+        self,
+        mark: tuple[int, ...],
+        counts: tuple[dict[str, Any], dict[str, int], dict[str, int]] | None = None,
+    ) -> None:
+        """Take back what was added since ``mark`` (and the counts, if given)."""
+        if counts is not None:
+            self.ignored, self.filtered, self.zscale0 = counts
+        lists: tuple[list[Any], ...] = (
+            self.xyz,
+            self.seg,
+            self.seg_owner,
+            self.face_nodes,
+            self.face_sizes,
+            self.face_owner,
+            self.edges,
+            self.edge_face,
+            self.marker_xyz,
+            self.marker_layer,
+            self.owner_layer,
+        )
+        for values, n in zip(lists, mark, strict=True):
+            del values[n:]
 
     def _filtered(self, layer: str) -> None:
         self.filtered[layer] = self.filtered.get(layer, 0) + 1
 
     def _insert(self, insert: Any, layer: str, depth: int) -> None:
-        name = insert.dxf.name
+        broken = _broken_entity_errors()
+        try:
+            name = str(insert.dxf.name)
+            zscale = 0.0 if id(insert) in self._zero_ids else float(insert.dxf.zscale)
+        except broken as exc:
+            self._ignore(f"damaged INSERT ({type(exc).__name__})", layer)
+            return
         if depth >= _MAX_BLOCK_DEPTH:
             raise ReadError(
                 f"{self.where}: block {name!r} is nested more than {_MAX_BLOCK_DEPTH} levels "
                 "deep (a block that inserts itself?)"
             )
-        from ezdxf.lldxf.const import DXFError
-
+        if zscale == 0.0:
+            self._flat_insert(insert, name, layer, depth)
+            return
+        mark, before = self._mark(), self._counts()
         try:
-            # MINSERT grids expand to one virtual INSERT per cell; a plain
-            # virtual_entities() call would give only the first cell.
-            inserts = list(insert.multi_insert()) if insert.mcount > 1 else [insert]
-            for ins in inserts:
-                children = list(ins.virtual_entities())
-                self.visit(children, layer, depth + 1)
-        except (DXFError, KeyError, ValueError, ZeroDivisionError, ArithmeticError) as exc:
+            self._expand(insert, layer, depth)
+        except broken as exc:
+            # The whole reference is skipped (not half of a MINSERT grid).
+            self._rollback(mark, before)
             self._ignore(f"INSERT of block {name!r} ({type(exc).__name__})", layer)
+
+    def _expand(self, insert: Any, layer: str, depth: int) -> None:
+        # MINSERT grids expand to one virtual INSERT per cell; a plain
+        # virtual_entities() call would give only the first cell.
+        inserts = list(insert.multi_insert()) if insert.mcount > 1 else [insert]
+        for ins in inserts:
+            children = list(ins.virtual_entities())
+            zero = self._zero_nested(ins)
+            marked: list[int] = []
+            if zero:
+                # ezdxf's copy of a nested reference with z-scale 0 comes
+                # out with z-scale 1 (and ezdxf will not set 0): it is
+                # marked so that the rule for such references
+                # (_flat_insert) applies here too.
+                nested = [c for c in children if c.dxftype() == "INSERT"]
+                marked = [id(nested[k]) for k in zero if k < len(nested)]
+                self._zero_ids.update(marked)
+            try:
+                self.visit(children, layer, depth + 1)
+            finally:
+                self._zero_ids.difference_update(marked)
+
+    def _zero_nested(self, insert: Any) -> list[int]:
+        """Positions, among the block's nested references, of those with z-scale 0."""
+        name = str(insert.dxf.name)
+        found = self._nested_zero.get(name)
+        if found is None:
+            block = insert.block()
+            nested = [e for e in block if e.dxftype() == "INSERT"] if block is not None else []
+            found = [k for k, e in enumerate(nested) if float(e.dxf.zscale) == 0.0]
+            self._nested_zero[name] = found
+        return found
+
+    def _flat_insert(self, insert: Any, name: str, layer: str, depth: int) -> None:
+        """A block reference with z-scale 0, as some 2D exporters write them.
+
+        The transform is singular (ezdxf cannot expand a nested reference
+        through it), but for a flat block (every point at the base point's
+        z) the z-scale changes nothing: such a block is read with z-scale 1.
+        A block with depth would be squashed flat by z-scale 0, which is
+        hardly what a frame drawing means, so it is skipped and listed.
+        """
+        broken = _broken_entity_errors()
+        mark, before = self._mark(), self._counts()
+        try:
+            # Set on the document in memory, which is never saved.
+            insert.dxf.zscale = 1.0
+            origin = np.asarray(insert.ocs().to_wcs(insert.dxf.insert), dtype=float)
+            normal = np.asarray(insert.dxf.extrusion, dtype=float)
+            self._expand(insert, layer, depth)
+        except broken as exc:
+            self._rollback(mark, before)
+            self._ignore(f"INSERT of block {name!r} ({type(exc).__name__})", layer)
+            return
+        pts = np.asarray(self.xyz[mark[0] :] + self.marker_xyz[mark[8] :], dtype=float)
+        rel = pts.reshape(-1, 3) - origin
+        depth_off = np.abs(rel @ (normal / np.linalg.norm(normal))) if rel.size else rel
+        size = float(np.abs(rel).max()) if rel.size else 0.0
+        if rel.size and not float(depth_off.max()) <= 1e-9 * max(size, 1e-300):
+            self._rollback(mark, before)
+            self._ignore(f"INSERT of block {name!r} with z-scale 0 and depth", layer)
+            return
+        self.zscale0[name] = self.zscale0.get(name, 0) + 1
 
     def _other(self, e: Any, kind: str, layer: str, li: int) -> None:
         if kind == "LWPOLYLINE":
@@ -340,23 +549,84 @@ def _open(path: Path) -> tuple[Drawing, dict[str, Any] | None]:
             f"{path}: is not a DXF file (a DXF starts with group code 0 and SECTION; "
             f"this one starts with {head!r})"
         )
+    # Any exception of ezdxf's parser means a damaged file here (the file is
+    # known to exist and to look like DXF): it goes to the recover reader.
     try:
-        return ezdxf.readfile(str(path)), None
+        doc = ezdxf.readfile(str(path))
     except Exception as exc:
         first = exc
+    else:
+        # A file that parses may still hold broken structure (pointers to
+        # missing layers or blocks, invalid values): ezdxf's audit repairs
+        # it, and every repair is reported.
+        try:
+            auditor = doc.audit()
+        except Exception as exc:
+            raise ReadError(
+                f"{path}: damaged DXF: ezdxf's audit failed ({_exc_text(exc)})"
+            ) from exc
+        if auditor.fixes or auditor.errors:
+            return doc, _repairs(auditor, None)
+        return doc, None
     try:
         doc, auditor = recover.readfile(str(path))
     except Exception as exc:
         raise ReadError(
             f"{path}: damaged DXF that ezdxf.recover could not read either "
-            f"({type(first).__name__}: {first}; then {type(exc).__name__}: {exc})"
+            f"({_exc_text(first)}; then {_exc_text(exc)})"
         ) from exc
-    info = {
-        "reason": f"{type(first).__name__}: {first}".rstrip(": "),
+    return doc, _repairs(auditor, _exc_text(first))
+
+
+def _exc_text(exc: BaseException) -> str:
+    """ "Type: message", without the type twice (ezdxf repeats it in some texts)."""
+    name, text = type(exc).__name__, str(exc).strip()
+    while text.startswith(name + ":"):
+        text = text[len(name) + 1 :].strip()
+    return f"{name}: {text}" if text else name
+
+
+def _repairs(auditor: Any, reason: str | None) -> dict[str, Any]:
+    """What ezdxf's recover (``reason`` given) or audit (None) did, for ``model.meta``."""
+    return {
+        "reason": reason,
         "fixes": [str(entry.message) for entry in auditor.fixes],
         "errors": [str(entry.message) for entry in auditor.errors],
     }
-    return doc, info
+
+
+class _LogRecords(logging.Handler):
+    """Keeps ezdxf's log records (warnings and worse) of one read."""
+
+    def __init__(self) -> None:
+        super().__init__(logging.WARNING)
+        self.messages: list[str] = []
+
+    def emit(self, record: logging.LogRecord) -> None:
+        with contextlib.suppress(Exception):
+            self.messages.append(record.getMessage())
+
+
+@contextlib.contextmanager
+def _ezdxf_log() -> Iterator[_LogRecords]:
+    """Collect what ezdxf logs while reading, so it does not reach stderr bare.
+
+    A handler on the "ezdxf" logger means Python's last-resort handler (which
+    prints to stderr) is no longer used; an application that set up its own
+    logging still gets the records.
+    """
+    logger = logging.getLogger("ezdxf")
+    handler = _LogRecords()
+    logger.addHandler(handler)
+    try:
+        yield handler
+    finally:
+        logger.removeHandler(handler)
+
+
+# ezdxf log messages that say nothing about the drawing's members (ezdxf
+# copying dimension associations while expanding a block, for example).
+_LOG_NOISE = ("copy process ignored",)
 
 
 def read(
@@ -376,8 +646,10 @@ def read(
     ----------
     path : str or path-like
         The DXF file (ASCII or binary).  A damaged file is read through
-        ``ezdxf.recover``; what it did is in ``model.meta["dxf:recover"]``
-        and a SpaceframeWarning says so.
+        ``ezdxf.recover``; what it did is in ``model.meta["dxf:recover"]``.
+        Every drawing is checked by ezdxf's audit; its repairs are in
+        ``model.meta["dxf:audit"]``.  Each repair is named in a
+        SpaceframeWarning (the first few, then a count).
     units : str, optional
         Drawing unit ("mm", "m", "inch", "ft", ...).  Required when the header
         has ``$INSUNITS = 0`` (unitless); overrides the header otherwise.
@@ -401,7 +673,10 @@ def read(
         Members without area or E; groups from layers (the layer table's
         spelling); panels in ``panel_groups`` by layer; markers from POINT.
         ``meta`` holds "source", "units", "heal:report", "io:ignored",
-        "io:extents" and, for a damaged file, "dxf:recover".
+        "io:extents" and, when they apply, "dxf:recover" or "dxf:audit"
+        (repairs), "dxf:log" (ezdxf's log messages), "dxf:zscale0" (block
+        references with z-scale 0 read with z-scale 1, by block name) and
+        "dxf:filtered_layers".
 
     Raises
     ------
@@ -413,44 +688,80 @@ def read(
     where = str(p)
     check_options(where, heal_options, HEAL_OPTIONS)
     keep_layer = layer_filter(where, layers, exclude_layers)
-    doc, recovered = _open(p)
-
-    layer_names = {entry.dxf.name.lower(): entry.dxf.name for entry in doc.layers}
-    collector = _Collector(where, keep_layer, layer_names)
-    collector.visit(doc.modelspace(), None, 0)
-    raw = collector.raw()
+    with _ezdxf_log() as log:
+        doc, recovered = _open(p)
+        try:
+            layer_names = {entry.dxf.name.lower(): entry.dxf.name for entry in doc.layers}
+        except _ENTITY_ERRORS:
+            layer_names = {}
+        collector = _Collector(where, keep_layer, layer_names)
+        collector.visit(doc.modelspace(), None, 0)
+        raw = collector.raw()
 
     meta: dict[str, Any] = {}
+    notes: list[str] = []  # warnings, issued below in this order
     if recovered is not None:
-        meta["dxf:recover"] = recovered
-        warnings.warn(
-            f"{where}: damaged DXF ({recovered['reason']}), read with ezdxf.recover: "
-            f"{len(recovered['fixes'])} fixes, {len(recovered['errors'])} unfixed errors; "
-            "check the model (details in model.meta['dxf:recover'])",
-            SpaceframeWarning,
-            stacklevel=2,
-        )
+        # A file that needed the recover reader is "dxf:recover" (with the
+        # reason); one that only needed the audit's repairs is "dxf:audit".
+        meta["dxf:recover" if recovered["reason"] else "dxf:audit"] = recovered
+        notes += _repair_notes(where, recovered)
+        for kind, n in _removed_by_repair(recovered).items():
+            # Gone from the drawing before it was read: counted as skipped.
+            count_ignored(raw.ignored, f"damaged {kind} (removed by ezdxf's repair)", "unknown", n)
+    logged = [m for m in log.messages if not m.startswith(_LOG_NOISE)]
+    if logged:
+        meta["dxf:log"] = logged
+        notes.append(f"{where}: ezdxf reported {_items(logged, 3)} while reading")
     if collector.filtered:
         meta["dxf:filtered_layers"] = dict(collector.filtered)
-
-    curves = describe_ignored(raw.ignored, CURVE_KINDS)
-    if curves:
-        warnings.warn(
-            f"{where}: curves are not members and were ignored: {curves}",
-            SpaceframeWarning,
-            stacklevel=2,
+    if collector.zscale0:
+        meta["dxf:zscale0"] = dict(collector.zscale0)
+        n = sum(collector.zscale0.values())
+        notes.append(
+            f"{where}: {_count(n, 'block reference')} with z-scale 0, as 2D exporters write them "
+            f"({_named(collector.zscale0)}): their blocks are flat and were read with z-scale 1"
         )
+    skipped = {k: v for k, v in raw.ignored.items() if k.startswith(_SKIPPED_PREFIXES)}
+    if skipped:
+        notes.append(
+            f"{where}: {_count(sum(v['count'] for v in skipped.values()), 'entity')} skipped "
+            f"(damaged or not expandable): {_describe(skipped)}"
+        )
+    curves = {k: v for k, v in raw.ignored.items() if k in CURVE_KINDS}
+    if curves:
+        notes.append(f"{where}: curves are not members and were ignored: {_describe(curves)}")
+    other = {k: v for k, v in raw.ignored.items() if k not in skipped and k not in curves}
+    if other:
+        n_other = sum(v["count"] for v in other.values())
+        notes.append(
+            f"{where}: {_count(n_other, 'entity')} of kinds that are not members were ignored: "
+            f"{_describe(other)}"
+        )
+
+    for note in notes:
+        warnings.warn(note, SpaceframeWarning, stacklevel=2)
+
     hints = []
-    if recovered is not None:
+    if recovered is not None and recovered["reason"]:
         hints.append(f"the file is damaged ({recovered['reason']})")
     if raw.n_faces and not edges_as_members:
         hints.append("the drawing has faces: read with edges_as_members=True")
     if collector.filtered:
         hints.append(f"layers filtered out: {', '.join(sorted(collector.filtered))}")
+    if not raw.segments.shape[0]:
+        paper = _paper_space_count(doc)
+        if paper:
+            hints.append(
+                f"only the model space is read, and {_count(paper, 'entity')} "
+                f"{'is' if paper == 1 else 'are'} in paper space"
+            )
     hint = "; ".join(hints)
     # Nothing to read is the first thing to say, before any question of units.
     require_members(raw, where, edges_as_members, hint)
     file_units = _file_units(doc, where, units, raw)
+    on_zero = _layer_zero_note(where, raw, file_units.name)
+    if on_zero:
+        warnings.warn(on_zero, SpaceframeWarning, stacklevel=2)
     return build_model(
         raw,
         where=where,
@@ -461,6 +772,128 @@ def read(
         edges_as_members=edges_as_members,
         meta=meta,
         no_members_hint=hint,
+    )
+
+
+def _paper_space_count(doc: Drawing) -> int:
+    """Entities drawn in the paper-space layouts (0 when they cannot be counted)."""
+    try:
+        return sum(
+            1
+            for layout in doc.layouts
+            if not layout.is_modelspace
+            for e in layout
+            if e.dxftype() != "VIEWPORT"  # every layout has one; it is no drawing
+        )
+    except _ENTITY_ERRORS:
+        return 0
+
+
+def _count(n: int, noun: str) -> str:
+    """'1 entity', '3 entities', '2 block references'."""
+    if n == 1:
+        return f"1 {noun}"
+    return f"{n} {noun[:-1]}ies" if noun.endswith("y") else f"{n} {noun}s"
+
+
+def _items(texts: list[str], show: int = _SHOW) -> str:
+    """'3 problems: "a"; "b" and 1 more' for a list of messages."""
+    shown = "; ".join(repr(t) for t in texts[:show])
+    more = f" and {len(texts) - show} more" if len(texts) > show else ""
+    return f"{len(texts)} problem(s): {shown}{more}"
+
+
+def _named(counts: dict[str, int], show: int = _SHOW) -> str:
+    """ "block 'A' x2, block 'B' x1" for a name -> count table."""
+    parts = [f"block {k!r} x{v}" for k, v in list(counts.items())[:show]]
+    more = f", {len(counts) - show} more blocks" if len(counts) > show else ""
+    return ", ".join(parts) + more
+
+
+def _describe(ignored: dict[str, dict[str, Any]], show: int = _SHOW) -> str:
+    """Like :func:`describe_ignored`, naming at most a few kinds and layers each."""
+    kinds = list(ignored)
+    text = describe_ignored({k: _few_layers(ignored[k], show) for k in kinds[:show]}, kinds[:show])
+    if len(kinds) > show:
+        rest = sum(ignored[k]["count"] for k in kinds[show:])
+        text += f"; {rest} more of {len(kinds) - show} other kinds"
+    return text
+
+
+def _few_layers(entry: dict[str, Any], show: int) -> dict[str, Any]:
+    layers = dict(entry["layers"])
+    if len(layers) <= show:
+        return entry
+    kept = dict(list(layers.items())[:show])
+    kept[f"{len(layers) - show} more layers"] = 0
+    return {"count": entry["count"], "layers": kept}
+
+
+# A repair message of ezdxf that concerns an entity that can become a
+# member, a marker or a panel, e.g. "Removed entity LINE(#10) with a
+# conflicting handle ...": such repairs are named first.
+_MEMBER_REPAIR = re.compile(r"\b(LINE|LWPOLYLINE|POLYLINE|VERTEX|INSERT|POINT|3DFACE|MESH)\(#")
+_REMOVED = re.compile(r"^Removed (?:entity )?([A-Z0-9_]+)\(#")
+
+
+def _repair_notes(where: str, recovered: dict[str, Any]) -> list[str]:
+    """One warning per repair ezdxf made (the first few), then a count of the rest.
+
+    Repairs of entities that could be members come first, so that a removed
+    LINE is never hidden behind repairs of the layer table.
+    """
+    fixes = sorted(recovered["fixes"], key=lambda t: not _MEMBER_REPAIR.search(t))
+    errors = recovered["errors"]
+    how = (
+        f"damaged DXF ({recovered['reason']}), read with ezdxf.recover"
+        if recovered["reason"]
+        else "ezdxf's audit found damage in the DXF"
+    )
+    on_members = sum(1 for t in fixes if _MEMBER_REPAIR.search(t))
+    notes = [
+        f"{where}: {how}: {len(fixes)} repairs ({on_members} of line, polyline, block reference, "
+        f"point or face entities), {len(errors)} unrepaired errors; check the model"
+    ]
+    notes += [f"{where}: ezdxf repaired: {text}" for text in fixes[:_SHOW]]
+    notes += [f"{where}: ezdxf could not repair: {text}" for text in errors[:_SHOW]]
+    rest = max(len(fixes) - _SHOW, 0) + max(len(errors) - _SHOW, 0)
+    if rest:
+        notes.append(f"{where}: ... and {rest} more repairs or errors reported by ezdxf")
+    return notes
+
+
+def _removed_by_repair(recovered: dict[str, Any]) -> dict[str, int]:
+    """Entities ezdxf's repair removed, by type ("Removed entity LINE(#10) ...")."""
+    removed: dict[str, int] = {}
+    for text in recovered["fixes"]:
+        found = _REMOVED.match(text)
+        if found:
+            removed[found.group(1)] = removed.get(found.group(1), 0) + 1
+    return removed
+
+
+def _layer_zero_note(where: str, raw: RawGeometry, unit: str) -> str:
+    """A warning when some lines are on layer 0 and all the others on named layers.
+
+    A damaged file that lost an entity's layer (group code 8) puts it on
+    layer 0, where it silently gets another group, hence another section.
+    """
+    if "0" not in raw.sets or len(raw.sets) < 2 or raw.segments.shape[0] == 0:
+        return ""
+    owners0 = np.asarray(raw.sets["0"], dtype=np.int64)
+    on_zero = np.zeros(1 + max(int(raw.segment_owner.max()), int(owners0.max())), dtype=bool)
+    on_zero[owners0] = True
+    seg_on = on_zero[raw.segment_owner]
+    n0, n = int(seg_on.sum()), int(seg_on.size)
+    if n0 == 0 or n0 == n:
+        return ""
+    first = raw.points[raw.segments[np.flatnonzero(seg_on)[:3], 0]]
+    at = "; ".join("(" + ", ".join(f"{c:.6g}" for c in p) + ")" for p in first.tolist())
+    more = ", ..." if n0 > 3 else ""
+    return (
+        f"{where}: {n0} of {n} lines are on layer '0' while the others are on named layers "
+        f"(starting at {at}{more} {unit}); a damaged file puts lines that lost their "
+        "layer on '0': check the groups of these lines"
     )
 
 

@@ -23,6 +23,15 @@ from spaceframe.analysis.stability import (
     solve_determinate,
 )
 from spaceframe.assembly import equilibrium_matrix, stiffness_matrix
+from spaceframe.design import (
+    Action,
+    buckling_reduction,
+    check_deflection,
+    check_members,
+    check_results,
+    generate_combinations,
+    size_groups,
+)
 from spaceframe.errors import (
     MechanismError,
     ModelError,
@@ -65,6 +74,7 @@ __version__ = "0.1.0"
 
 __all__ = [
     "STANDARD_GRAVITY",
+    "Action",
     "CaseResult",
     "Determinacy",
     "Envelope",
@@ -80,9 +90,15 @@ __all__ = [
     "SpaceframeError",
     "SpaceframeWarning",
     "__version__",
+    "buckling_reduction",
+    "check_deflection",
+    "check_members",
+    "check_results",
     "check_stability",
     "determinacy",
     "equilibrium_matrix",
+    "generate_combinations",
+    "size_groups",
     "solve_determinate",
     "solve_nonlinear",
     "stiffness_matrix",

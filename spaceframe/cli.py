@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from collections.abc import Sequence
 from contextlib import AbstractContextManager, nullcontext
@@ -57,7 +58,12 @@ def build_parser() -> argparse.ArgumentParser:
         help="read, heal and check a model without solving",
     )
     p.add_argument("model", type=Path, help="model file (.toml) or a drawing/mesh")
-    p.add_argument("--units", help="length unit of a bare drawing that declares none, e.g. mm")
+    p.add_argument("--units", help="length unit of a bare drawing that declares none, e.g. mm "
+                   "(one that differs from the units a drawing declares is refused)")
+    p.add_argument("--override-units", action="store_true",
+                   help="read the drawing in --units even though it declares other units")
+    p.add_argument("--edges-as-members", action="store_true",
+                   help="make members of the edges of a bare drawing's or mesh's faces")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
 
     p = sub.add_parser(
@@ -66,13 +72,21 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("model", type=Path, help="model file (.toml)")
     p.add_argument("-o", "--output", type=Path, help="results folder (default from the file)")
-    p.add_argument("--solver", default="auto", choices=["auto", "scipy", "pardiso"])
+    p.add_argument("--solver", default="auto", choices=["auto", "scipy", "pardiso"],
+                   help="sparse solver: auto (PARDISO when installed, else SciPy), scipy or "
+                   "pardiso (default: auto)")
+    p.add_argument("--force", action="store_true",
+                   help="write into an existing folder that spaceframe did not write (its "
+                   "other files are kept; the model file's own folder is always refused)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--no-pictures", action="store_true", help="skip pictures and report")
 
+    from spaceframe.demos import DEMOS
+
     p = sub.add_parser("new", parents=[common], help="write a starter project from a demo scenario")
     p.add_argument("folder", type=Path)
-    p.add_argument("--demo", default="canopy", help="demo scenario (default: canopy)")
+    p.add_argument("--demo", default="canopy", metavar="NAME",
+                   help=f"demo scenario: {', '.join(DEMOS)} (default: canopy)")
     p.add_argument("--force", action="store_true", help="write into a non-empty folder")
 
     p = sub.add_parser(
@@ -228,7 +242,13 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
 
     ctx, progress = out.progress()
     with ctx:
-        rep = batch.check(args.model, progress=progress, units=args.units)
+        rep = batch.check(args.model, progress=progress, units=args.units,
+                          edges_as_members=args.edges_as_members,
+                          override_units=args.override_units)
+    # Readers advise the Python keyword; on the command line it is an option.
+    rep.warnings = [w.replace("edges_as_members=True", "--edges-as-members")
+                    for w in rep.warnings]
+    rep.mechanism = rep.mechanism.replace("edges_as_members=True", "--edges-as-members")
     _print_check(out, rep, args.json)
     return EXIT_UNSTABLE if rep.stable is False else 0
 
@@ -239,7 +259,8 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
     ctx, progress = out.progress()
     with ctx:
         outcome = batch.run(args.model, args.output, solver=args.solver,
-                            pictures=not args.no_pictures, progress=progress)
+                            pictures=not args.no_pictures, progress=progress,
+                            force=args.force)
     if args.json:
         print(json.dumps(outcome.summary, indent=2))
         return 0
@@ -281,6 +302,13 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
     from spaceframe.errors import ProjectError
 
     path: Path = args.model
+    if not args.screenshot and not _has_display():
+        # Before pyvista starts: VTK would print X-server warnings and show nothing.
+        raise ProjectError("no display to open a window on (DISPLAY and WAYLAND_DISPLAY are "
+                           "not set); use --screenshot out.png to render a picture off-screen")
+    if args.screenshot and not args.screenshot.parent.is_dir():
+        raise ProjectError(f"--screenshot {args.screenshot}: folder {args.screenshot.parent} "
+                           "does not exist")
     if path.is_dir():
         summ = path / "summary.json"
         if not summ.exists():
@@ -303,6 +331,14 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
     return 0
 
 
+def _has_display() -> bool:
+    """Whether a window can be opened: on Linux and other X11/Wayland systems an
+    X or Wayland display must be named in the environment."""
+    if sys.platform in ("win32", "darwin"):
+        return True
+    return bool(os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the `spaceframe` command; returns the exit code."""
     from spaceframe.errors import SpaceframeError
@@ -313,11 +349,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     commands = {"check": _cmd_check, "run": _cmd_run, "new": _cmd_new, "view": _cmd_view}
     if args.command is None:
         parser.print_help(sys.stdout)
-        return 0
+        return EXIT_BAD_INPUT
     try:
         return commands[args.command](args, out)
     except SpaceframeError as exc:
-        print(f"spaceframe {args.command}: error: {exc}", file=sys.stderr)
+        msg = str(exc)
+        if args.command == "check":  # readers advise the Python keyword
+            msg = msg.replace("edges_as_members=True", "--edges-as-members")
+        print(f"spaceframe {args.command}: error: {msg}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except OSError as exc:  # a file we could not open or write
         print(f"spaceframe {args.command}: error: {exc}", file=sys.stderr)

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = [
+    "MESSAGE_LIMIT",
     "MechanismError",
     "ModelError",
     "ProjectError",
@@ -17,11 +18,56 @@ __all__ = [
     "SolverError",
     "SpaceframeError",
     "SpaceframeWarning",
+    "one_line",
 ]
+
+#: Longest message, in characters, that an error or warning shows; longer
+#: ones keep their beginning and end.  A message is read on one terminal
+#: line or a few; a reader that quotes a whole damaged file (one "line" of a
+#: binary file can be 100,000 characters) must not flood the screen.
+MESSAGE_LIMIT = 600
+
+# Control characters (line breaks, tabs, escape sequences, C1 controls) are
+# shown escaped, so that a message is one line and a damaged file cannot
+# drive the terminal.
+_ESCAPES = {c: f"\\x{c:02x}" for c in (*range(0x20), 0x7F, *range(0x80, 0xA0))}
+_ESCAPES.update({ord("\n"): "\\n", ord("\r"): "\\r", ord("\t"): "\\t"})
+
+
+def one_line(text: object, limit: int = MESSAGE_LIMIT) -> str:
+    """``text`` as one line of at most about ``limit`` characters.
+
+    Surrounding white space is dropped, line breaks and other control
+    characters inside are shown escaped (``\\n``, ``\\x1b``), and a text
+    longer than ``limit`` keeps its first and last parts with the number of
+    characters left out between them.
+
+    Examples
+    --------
+    >>> one_line('Invalid group code "$DIMGAP\\n"\\n')
+    'Invalid group code "$DIMGAP\\\\n"'
+    >>> len(one_line("x" * 100_000)) <= MESSAGE_LIMIT
+    True
+    """
+    flat = str(text).strip().translate(_ESCAPES)
+    if len(flat) <= limit:
+        return flat
+    tail = limit // 4
+    frame = " ...[ characters left out]... "
+    head = max(limit - tail - len(frame) - len(str(len(flat))), 0)
+    cut = f" ...[{len(flat) - head - tail} characters left out]... "
+    return flat[:head] + cut + flat[len(flat) - tail :]
 
 
 class SpaceframeError(Exception):
-    """Root of every exception raised on purpose by spaceframe."""
+    """Root of every exception raised on purpose by spaceframe.
+
+    Its text is always one line of at most :data:`MESSAGE_LIMIT` characters
+    (see :func:`one_line`), whatever library text it quotes.
+    """
+
+    def __str__(self) -> str:
+        return one_line(super().__str__())
 
 
 class ModelError(SpaceframeError, ValueError):
@@ -37,7 +83,7 @@ class ReadError(SpaceframeError, OSError):
         super().__init__(message)
 
     def __str__(self) -> str:
-        return str(self.args[0]) if self.args else ""
+        return one_line(self.args[0]) if self.args else ""
 
 
 class WriteError(SpaceframeError, OSError):
@@ -47,7 +93,7 @@ class WriteError(SpaceframeError, OSError):
         super().__init__(message)  # one argument: see ReadError
 
     def __str__(self) -> str:
-        return str(self.args[0]) if self.args else ""
+        return one_line(self.args[0]) if self.args else ""
 
 
 class MechanismError(SpaceframeError, np.linalg.LinAlgError):
@@ -82,4 +128,10 @@ class ProjectError(SpaceframeError, ValueError):
 
 
 class SpaceframeWarning(UserWarning):
-    """Warnings issued by spaceframe (e.g. a model in several parts)."""
+    """Warnings issued by spaceframe (e.g. a model in several parts).
+
+    Like the errors, its text is one line of limited length.
+    """
+
+    def __str__(self) -> str:
+        return one_line(super().__str__())

@@ -86,6 +86,21 @@ def _grow(a: np.ndarray, n: int) -> np.ndarray:
     return out
 
 
+#: Design properties per member: name -> (default, dtype).  NaN means "not given".
+MEMBER_DESIGN_DEFAULTS: dict[str, tuple[Any, Any]] = {
+    "second_moment": (np.nan, float),
+    "yield_strength": (np.nan, float),
+    "ultimate_strength": (np.nan, float),
+    "buckling_curve": ("", object),
+    "buckling_length_factor": (1.0, float),
+    "net_area_factor": (1.0, float),
+    "slenderness_limit": (np.nan, float),
+    "tension_only": (False, bool),
+    "breaking_force": (np.nan, float),
+    "pretension": (0.0, float),
+}
+
+
 class Model:
     """A three-dimensional pin-jointed frame.
 
@@ -110,6 +125,20 @@ class Model:
         self.E = np.zeros(0)
         self.density = np.zeros(0)
         self.alpha = np.zeros(0)
+        # Design properties per member (defaults in MEMBER_DESIGN_DEFAULTS; NaN: not given).
+        self.second_moment = np.zeros(0)
+        self.yield_strength = np.zeros(0)
+        self.ultimate_strength = np.zeros(0)
+        self.buckling_curve = np.zeros(0, dtype=object)
+        self.buckling_length_factor = np.zeros(0)
+        self.net_area_factor = np.zeros(0)
+        self.slenderness_limit = np.zeros(0)
+        self.tension_only = np.zeros(0, dtype=bool)
+        self.breaking_force = np.zeros(0)
+        self.pretension = np.zeros(0)
+        #: Self-weight applied with add_self_weight: (case, g, factor, member ids),
+        #: so that the loads follow later changes of area or density.
+        self.self_weight_records: list[tuple[str, float, float, np.ndarray]] = []
         self.restraint = np.zeros((0, 3), dtype=bool)
         self.springs = np.zeros((0, 3))
         self.groups: dict[str, np.ndarray] = {}
@@ -404,6 +433,8 @@ class Model:
         self.E = np.concatenate([self.E, e_a])
         self.density = np.concatenate([self.density, rho_a])
         self.alpha = np.concatenate([self.alpha, alpha_a])
+        for name, (default, dtype) in MEMBER_DESIGN_DEFAULTS.items():
+            setattr(self, name, np.concatenate([getattr(self, name), np.full(k, default, dtype)]))
         ids = np.arange(start, start + k, dtype=np.int64)
         if group is not None:
             self.add_group(group, ids)
@@ -440,21 +471,114 @@ class Model:
         E: Any = None,
         density: Any = None,
         alpha: Any = None,
+        second_moment: Any = None,
+        yield_strength: Any = None,
+        ultimate_strength: Any = None,
+        buckling_curve: Any = None,
+        buckling_length_factor: Any = None,
+        net_area_factor: Any = None,
+        slenderness_limit: Any = None,
+        tension_only: Any = None,
+        breaking_force: Any = None,
+        pretension: Any = None,
     ) -> None:
-        """Overwrite section and material properties of existing members."""
+        """Overwrite section, material and design properties of existing members (SI).
+
+        Parameters
+        ----------
+        member_ids : int or (k,) int
+        area, E, density, alpha : float or (k,) float
+            m², Pa, kg/m³, 1/K.  Self-weight added with :meth:`add_self_weight`
+            follows a change of area or density.
+        second_moment : float or (k,) float
+            Smallest second moment of area, m⁴ (flexural buckling).
+        yield_strength, ultimate_strength : float or (k,) float
+            f_y and f_u, Pa.
+        buckling_curve : str or (k,) str
+            "a0", "a", "b", "c" or "d" (EN 1993-1-1 Table 6.2).
+        buckling_length_factor : float or (k,) float
+            L_cr / L (1.0 for pin-ended members).
+        net_area_factor : float or (k,) float
+            A_net / A at holes, for EN 1993-1-1 (6.7); 1.0 for none.
+        slenderness_limit : float or (k,) float
+            Limit on L_cr / i in compression (NaN for the default).
+        tension_only : bool or (k,) bool
+            Cables and slender braces that carry no compression.
+        breaking_force : float or (k,) float
+            Minimum breaking force of a cable or rod, N.
+        pretension : float or (k,) float
+            Tension in the drawn (straight) geometry, N.
+
+        Raises
+        ------
+        ModelError
+            Naming the keyword and the first bad value; nothing changes then.
+        """
         ids = self._member_ids(member_ids, "set_member_properties")
         k = ids.size
-        if area is not None:
-            self.area[ids] = self._per_item(area, k, "area", positive=True)
-        if E is not None:
-            self.E[ids] = self._per_item(E, k, "E", positive=True)
-        if density is not None:
-            rho = self._per_item(density, k, "density")
-            if np.any(rho < 0):
-                raise ModelError(f"density = {float(rho[rho < 0][0])}: must not be negative")
-            self.density[ids] = rho
-        if alpha is not None:
-            self.alpha[ids] = self._per_item(alpha, k, "alpha")
+        new: dict[str, np.ndarray] = {}
+        for name, value, positive in (
+            ("area", area, True), ("E", E, True), ("density", density, False),
+            ("alpha", alpha, False), ("second_moment", second_moment, False),
+            ("yield_strength", yield_strength, True),
+            ("ultimate_strength", ultimate_strength, True),
+            ("buckling_length_factor", buckling_length_factor, True),
+            ("net_area_factor", net_area_factor, True),
+            ("slenderness_limit", slenderness_limit, True),
+            ("breaking_force", breaking_force, True), ("pretension", pretension, False),
+        ):
+            if value is not None:
+                new[name] = self._per_item(value, k, f"set_member_properties: {name}",
+                                           positive=positive)
+        for name in ("density", "second_moment"):
+            if name in new and np.any(new[name] < 0):
+                j = int(np.flatnonzero(new[name] < 0)[0])
+                raise ModelError(
+                    f"set_member_properties: {name}[{j}] = {float(new[name][j])}: "
+                    "must not be negative"
+                )
+        if "net_area_factor" in new and np.any(new["net_area_factor"] > 1):
+            j = int(np.flatnonzero(new["net_area_factor"] > 1)[0])
+            raise ModelError(
+                f"set_member_properties: net_area_factor[{j}] = "
+                f"{float(new['net_area_factor'][j])}: must not exceed 1"
+            )
+        if buckling_curve is not None:
+            curves = np.asarray(buckling_curve, dtype=object)
+            curves = np.full(k, curves.item(), dtype=object) if curves.ndim == 0 else curves
+            if curves.shape != (k,):
+                raise ModelError(
+                    f"set_member_properties: buckling_curve: expected one or {k} curves, "
+                    f"got shape {curves.shape}"
+                )
+            bad = [c for c in curves.tolist() if c not in ("a0", "a", "b", "c", "d")]
+            if bad:
+                raise ModelError(
+                    f"set_member_properties: buckling_curve {bad[0]!r} must be one of "
+                    "a0, a, b, c, d"
+                )
+            new["buckling_curve"] = curves
+        if tension_only is not None:
+            flags = np.asarray(tension_only)
+            if flags.dtype != bool:
+                raise ModelError("set_member_properties: tension_only must be True or False")
+            new["tension_only"] = np.broadcast_to(flags, (k,)).copy()
+        old_mass = self.mass.copy() if ("area" in new or "density" in new) else None
+        for name, arr in new.items():
+            getattr(self, name)[ids] = arr
+        if old_mass is not None:
+            self._follow_self_weight(old_mass)
+        self._invalidate()
+
+    def _follow_self_weight(self, old_mass: np.ndarray) -> None:
+        """Move recorded self-weight loads by the change of member mass."""
+        delta = self.mass - old_mass
+        for case, g, factor, ids in self.self_weight_records:
+            w = 0.5 * factor * g * delta[ids]
+            fz = np.bincount(self.members[ids, 0], w, self.n_nodes) + np.bincount(
+                self.members[ids, 1], w, self.n_nodes
+            )
+            self.cases[case].forces[:, 2] -= fz
 
     # --------------------------------------------------------------- panels
     def add_panels(self, polygons: Iterable[Any], group: str | None = None) -> np.ndarray:
@@ -605,6 +729,11 @@ class Model:
         members : (k,) int, optional
             Only these members (default all).
         """
+        if isinstance(g, bool) or not isinstance(g, int | float) or not (np.isfinite(g) and g > 0):
+            raise ModelError(
+                f"add_self_weight({case!r}): g = {g!r} must be a positive acceleration "
+                "(self-weight acts along -z; use nodal loads for any other direction)"
+            )
         ids = (
             np.arange(self.n_members)
             if members is None
@@ -616,6 +745,7 @@ class Model:
             self.members[ids, 1], w, self.n_nodes
         )
         lc.forces[:, 2] -= fz
+        self.self_weight_records.append((case, float(g), float(factor), ids.copy()))
 
     def add_temperature(self, case: str, member_ids: Any, dT: Any) -> None:
         """Add a uniform temperature change, K, to members (free strain alpha*dT)."""
@@ -726,7 +856,12 @@ class Model:
             On inconsistent input.
         """
         from spaceframe.analysis.static import solve_static
+        from spaceframe.analysis.tension_only import needs_load_sets, solve_tension_only
 
+        if needs_load_sets(self):
+            # Tension-only members or pretension: no superposition; every case
+            # and combination is solved as its own load set.
+            return solve_tension_only(self, solver=solver)
         return solve_static(self, solver=solver)
 
 

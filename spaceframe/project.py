@@ -110,6 +110,7 @@ class Project:
     heal_report: Any = None
     sections: dict[str, Section] = field(default_factory=dict)
     materials: dict[str, Material] = field(default_factory=dict)
+    design: Any = None
 
     def solve(self, solver: str = "auto") -> Results:
         """Linear static analysis of every case and combination; see :meth:`Model.solve`."""
@@ -274,6 +275,8 @@ class _Spec:
     combinations: dict[str, dict[str, float]]
     envelopes: dict[str, list[str]]
     warnings: list[str]
+    design: Any = None
+    section_extras: dict[str, dict[str, Any]] = field(default_factory=dict)
 
 
 # ================================================================== reading
@@ -296,6 +299,8 @@ class _Ctx:
         self.path = path
         self.units = InputUnits()
         self.warnings: list[str] = []
+        #: Design data of sections (buckling curve, fabrication, breaking force) by name.
+        self.section_extras: dict[str, dict[str, Any]] = {}
 
     def fail(self, where: str, value: Any, problem: str) -> NoReturn:
         if value is _MISSING:
@@ -564,7 +569,7 @@ def _plane(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Plane:
 # ----------------------------------------------------------------- parsing
 _TOP_KEYS = {
     "title", "output", "units", "geometry", "materials", "sections", "assign",
-    "selections", "supports", "loads", "combinations", "envelopes",
+    "selections", "supports", "loads", "combinations", "envelopes", "design", "actions",
 }
 
 
@@ -604,6 +609,9 @@ def _parse(text: str, path: Path) -> _Spec:
     cases = _parse_loads(ctx, top.table("loads", None))
     combinations = _parse_combinations(ctx, top.table("combinations", None), cases)
     envelopes = _parse_envelopes(ctx, top.table("envelopes", None), cases, combinations)
+    from spaceframe.project_design import parse_design
+
+    design = parse_design(ctx, top.table("design", None), top.table("actions", None), _selector)
 
     # Every reference to a named selection must resolve, without cycles.
     _check_references(ctx, selections, rules, supports, cases)
@@ -616,7 +624,7 @@ def _parse(text: str, path: Path) -> _Spec:
         path=path, title=title, output=output, units=ctx.units, geometry=geometry,
         materials=materials, sections=sections, rules=rules, selections=selections,
         supports=supports, cases=cases, combinations=combinations, envelopes=envelopes,
-        warnings=ctx.warnings,
+        warnings=ctx.warnings, design=design, section_extras=ctx.section_extras,
     )
 
 
@@ -776,7 +784,24 @@ def _parse_sections(ctx: _Ctx, t: _Table | None) -> dict[str, Section]:
         s = t.sub(name)
         shape = s.text("shape", choices=tuple(_SECTION_KEYS))
         extra = {"corners"} if shape in ("shs", "rhs") else {"fill"} if shape == "cable" else set()
-        s.expect({"shape", *_SECTION_KEYS[shape], *extra})
+        design_keys = {"breaking_force"} if shape == "cable" else {"buckling_curve", "fabrication"}
+        s.expect({"shape", *_SECTION_KEYS[shape], *extra, *design_keys})
+        ex: dict[str, Any] = {}
+        if shape == "cable":
+            if s.has("breaking_force"):
+                ex["breaking_force"] = s.quantity("breaking_force", "force")
+                if ex["breaking_force"] <= 0:
+                    ctx.fail(s.path("breaking_force"), s.data["breaking_force"],
+                             "must be positive")
+        else:
+            if s.has("buckling_curve"):
+                ex["buckling_curve"] = s.text("buckling_curve",
+                                              choices=("a0", "a", "b", "c", "d"))
+            if s.has("fabrication"):
+                ex["fabrication"] = s.text("fabrication", choices=("hot", "cold"))
+            elif shape in ("shs", "rhs") and s.data.get("corners") == "cold-formed":
+                ex["fabrication"] = "cold"
+        ctx.section_extras[name] = ex
         dims: dict[str, float] = {}
         for key, (role, required) in _SECTION_KEYS[shape].items():
             value = s.quantity(key, role, _MISSING if required else None)
@@ -1207,6 +1232,19 @@ def _build(spec: _Spec) -> Project:
         except ModelError as exc:
             fail(_key("combinations", cname), exc)
 
+    envelopes = dict(spec.envelopes)
+    if spec.design is not None:
+        from spaceframe.project_design import apply_design
+
+        try:
+            generated = apply_design(spec.design, model, name)
+        except ModelError as exc:
+            raise ProjectError(str(exc)) from None
+        for label in ("ULS", "SLS"):
+            members = [c for c in generated if c.startswith(label)]
+            if members and f"{label} envelope" not in envelopes:
+                envelopes[f"{label} envelope"] = members
+
     model.meta["project:file"] = str(spec.path)
     model.meta.setdefault("source", str(geo.file) if geo.file else str(spec.path))
     own += [f"{name}: {text}" for text in notes]
@@ -1218,12 +1256,13 @@ def _build(spec: _Spec) -> Project:
         model=model,
         path=spec.path,
         output=spec.output,
-        envelopes=spec.envelopes,
+        envelopes=envelopes,
         title=spec.title,
         warnings=reader_notes + own,
         heal_report=model.meta.get("heal:report"),
         sections=spec.sections,
         materials={**PRESETS, **spec.materials},
+        design=spec.design,
     )
 
 
@@ -1332,9 +1371,12 @@ def _assign(spec: _Spec, model: Model,
     cables = sorted({sections[i].name for i in np.unique(sec_of) if sections[i].shape == "cable"})
     if cables:
         warnings_out.append(
-            f"sections {', '.join(repr(c) for c in cables)} are cables, "
-            "analysed as bars that also take compression: check they stay in tension"
+            f"sections {', '.join(repr(c) for c in cables)} are cables: analysed as "
+            "tension-only members, each case and combination solved as its own load set"
         )
+    from spaceframe.project_design import member_design_properties
+
+    member_design_properties(model, sections, sec_of, materials, mat_of, spec.section_extras)
     model.meta["project:sections"] = sections
     model.meta["project:section_index"] = sec_of
     model.meta["project:materials"] = materials

@@ -152,7 +152,12 @@ def write_charts(
         label = "(no group)" if groups else "all members"
         groups.append((label, np.flatnonzero(~in_group)))
     paths: list[Path] = []
+    used: set[str] = set()  # "heat x" and "heat_x" must not share a file
     for name in names:
+        stem, n = _safe(name), 2
+        while stem.lower() in used:
+            stem, n = f"{_safe(name)}_{n}", n + 1
+        used.add(stem.lower())
         res = results[name]
         kn = res.axial_forces / 1e3
         k = min(int(top), kn.size)
@@ -168,7 +173,7 @@ def write_charts(
         ax.set_xlabel("member")
         ax.set_ylabel("axial force [kN] (tension +)")
         ax.set_title(f"{name}: {k} most loaded members")
-        paths.append(_save_figure(fig, out / f"{_safe(name)}_members.png"))
+        paths.append(_save_figure(fig, out / f"{stem}_members.png"))
 
         fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
         ax = fig.add_subplot()
@@ -184,7 +189,7 @@ def write_charts(
         ax.yaxis.set_major_locator(MaxNLocator(integer=True))
         ax.set_title(f"{name}: axial forces by group")
         ax.legend(fontsize=8)
-        paths.append(_save_figure(fig, out / f"{_safe(name)}_groups.png"))
+        paths.append(_save_figure(fig, out / f"{stem}_groups.png"))
     return paths
 
 

@@ -36,6 +36,9 @@ class CaseResult:
         Relative equilibrium residual ||A t - f - R|| / (|| |A| |t| || + ||f|| + ||R||).
     factors : dict
         For a combination, its case factors.
+    slack : (b,) bool or None
+        Tension-only members carrying no force in this result (None when the
+        model has none).
     """
 
     name: str
@@ -48,6 +51,7 @@ class CaseResult:
     residual: float
     area: np.ndarray = field(repr=False)
     factors: dict[str, float] = field(default_factory=dict)
+    slack: np.ndarray | None = field(default=None, repr=False)
 
     @property
     def stress(self) -> np.ndarray:

@@ -179,3 +179,54 @@ def test_results_folder_gets_ordinary_permissions(canopy: Path, tmp_path: Path) 
         assert (out / "results.dxf").stat().st_mode & 0o777 == 0o644
     finally:
         os.umask(mask)
+
+
+def test_no_command_prints_help_and_exits_2(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main([]) == 2
+    assert "COMMAND" in capsys.readouterr().out
+
+
+def test_help_lists_demos_and_solver(capsys: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(SystemExit):
+        main(["new", "--help"])
+    assert "canopy, mast, dome" in capsys.readouterr().out
+    with pytest.raises(SystemExit):
+        main(["run", "--help"])
+    assert "sparse solver" in capsys.readouterr().out
+
+
+def test_view_without_display_and_screenshot_into_missing_folder(
+        canopy: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+        capsys: pytest.CaptureFixture[str]) -> None:
+    monkeypatch.delenv("DISPLAY", raising=False)
+    monkeypatch.delenv("WAYLAND_DISPLAY", raising=False)
+    assert main(["view", str(canopy)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "no display" in err[0] and "--screenshot" in err[0]
+    assert main(["view", str(canopy), "--screenshot", str(tmp_path / "no" / "x.png")]) == 2
+    err = capsys.readouterr().err
+    assert "does not exist" in err and ".tmp" not in err and not (tmp_path / "no").exists()
+
+
+def test_units_differing_from_the_drawing_are_refused(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    import ezdxf
+
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4  # millimetres
+    doc.modelspace().add_line((0, 0, 0), (1000, 0, 0))
+    path = tmp_path / "mm.dxf"
+    doc.saveas(path)
+    assert main(["check", str(path), "--units", "m"]) == 2
+    assert "--override-units" in capsys.readouterr().err
+    assert main(["check", str(path), "--units", "m", "--override-units", "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["extents"][1][0] == 1000.0
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 6
+    doc.modelspace().add_3dface([(0, 0, 0), (1, 0, 0), (0, 1, 0)])
+    face = tmp_path / "face.dxf"
+    doc.saveas(face)
+    assert main(["check", str(face)]) == 2
+    assert "--edges-as-members" in capsys.readouterr().err
+    assert main(["check", str(face), "--edges-as-members", "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["counts"]["members"] == 3

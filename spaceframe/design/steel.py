@@ -1,0 +1,467 @@
+"""Axial resistance of steel members to EN 1993-1-1:2005 (tension, compression, buckling).
+
+Every formula names its clause.  The partial factors default to the
+recommended values of EN 1993-1-1 §6.1 Note 2B (γ_M0 = γ_M1 = 1.00,
+γ_M2 = 1.25); national annexes change them, so they are arguments and every
+report states the values used.
+
+Only member resistance to axial force is checked.  Joints, connections, local
+effects, fatigue, fire and the national annex are the engineer's, and the
+results must be checked by a qualified engineer.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from spaceframe.errors import ModelError
+
+if TYPE_CHECKING:
+    from spaceframe.model import Model
+
+__all__ = [
+    "IMPERFECTION_FACTORS",
+    "SLENDERNESS_COMPRESSION",
+    "SLENDERNESS_TENSION",
+    "MemberCheck",
+    "buckling_curve_for",
+    "buckling_reduction",
+    "check_members",
+]
+
+#: Imperfection factor α per buckling curve, EN 1993-1-1 Table 6.1.
+IMPERFECTION_FACTORS: dict[str, float] = {"a0": 0.13, "a": 0.21, "b": 0.34, "c": 0.49, "d": 0.76}
+
+#: Default slenderness limits λ = L_cr/i (common practice, not a clause of
+#: EN 1993-1-1): struts 180, ties and tension-only members 400.
+SLENDERNESS_COMPRESSION = 180.0
+SLENDERNESS_TENSION = 400.0
+
+#: Check names, in the order of the ``governing`` codes.
+CHECKS = (
+    "none",
+    "tension (6.6)",
+    "net section (6.7)",
+    "compression (6.10)",
+    "flexural buckling (6.47)",
+    "cable tension",
+    "cable in compression",
+    "compression, buckling not checked: no second moment",
+)
+
+
+def buckling_reduction(lambda_bar: Any, curve: Any) -> np.ndarray:
+    """Reduction factor χ for flexural buckling, EN 1993-1-1 Eq. (6.49).
+
+    χ = 1 / (Φ + sqrt(Φ² − λ̄²)) with Φ = 0.5 [1 + α (λ̄ − 0.2) + λ̄²] and
+    χ ≤ 1, α from Table 6.1 for the curve.
+
+    Parameters
+    ----------
+    lambda_bar : float or array
+        Non-dimensional slenderness λ̄ ≥ 0.
+    curve : str or array of str
+        Buckling curve "a0", "a", "b", "c" or "d" (one, or one per λ̄).
+
+    Returns
+    -------
+    chi : ndarray
+        Same shape as ``lambda_bar`` broadcast against ``curve``.
+
+    Raises
+    ------
+    ModelError
+        On an unknown curve or a negative or non-finite slenderness.
+    """
+    lam = np.asarray(lambda_bar, dtype=float)
+    curves = np.asarray(curve, dtype=object)
+    names = np.unique(curves.ravel()) if curves.size else np.zeros(0, dtype=object)
+    unknown = [c for c in names.tolist() if c not in IMPERFECTION_FACTORS]
+    if unknown:
+        raise ModelError(
+            f"buckling curve {unknown[0]!r} is not one of {', '.join(IMPERFECTION_FACTORS)} "
+            "(EN 1993-1-1 Table 6.1)"
+        )
+    bad = ~np.isfinite(lam) | (lam < 0)
+    if np.any(bad):
+        raise ModelError(
+            f"slenderness {float(lam[bad].ravel()[0])!r} must be a non-negative finite number"
+        )
+    alpha = np.vectorize(IMPERFECTION_FACTORS.__getitem__, otypes=[float])(curves)
+    phi = 0.5 * (1.0 + alpha * (lam - 0.2) + lam**2)
+    chi = 1.0 / (phi + np.sqrt(np.maximum(phi**2 - lam**2, 0.0)))
+    return np.minimum(chi, 1.0)
+
+
+def buckling_curve_for(shape: str, fabrication: str = "hot", yield_strength: float = 355e6) -> str:
+    """Buckling curve of a section, EN 1993-1-1 Table 6.2 (shapes this tool builds).
+
+    Hollow sections (chs, rhs, shs): hot finished "a" for S235 to S420 and
+    "a0" for S460; cold formed "c" for any grade.  Solid bars: "c".
+
+    Raises
+    ------
+    ModelError
+        For a shape Table 6.2 does not cover here (user sections, cables):
+        the user states the curve.
+    """
+    if shape in ("chs", "rhs", "shs"):
+        if fabrication == "cold":
+            return "c"
+        if fabrication != "hot":
+            raise ModelError(
+                f"fabrication {fabrication!r} must be 'hot' (hot finished) or 'cold' (cold formed)"
+            )
+        return "a0" if yield_strength >= 460e6 else "a"
+    if shape == "bar":
+        return "c"
+    raise ModelError(
+        f"no buckling curve for a {shape!r} section from EN 1993-1-1 Table 6.2: give one "
+        "of a0, a, b, c, d"
+    )
+
+
+@dataclass
+class MemberCheck:
+    """Axial checks of every member for one result (SI, tension positive).
+
+    Attributes
+    ----------
+    result : str
+        Name of the result checked.
+    utilisation : (b,) float
+        Demand over design resistance of the governing check.
+    resistance : (b,) float
+        Design resistance, N, for the member's governing force sign
+        (N_t,Rd or N_b,Rd; the cable resistance for tension-only members).
+    governing : (b,) int
+        Index into :data:`CHECKS` of the governing check.
+    demand : (b,) float
+        The governing axial force, N (signed).
+    chi : (b,) float
+        Buckling reduction χ (NaN where I is unknown).
+    lambda_bar : (b,) float
+        Non-dimensional slenderness λ̄ (§6.3.1.3 (6.50)).
+    slenderness : (b,) float
+        λ = L_cr / i.
+    slenderness_limit : (b,) float
+        The limit applied for the governing force sign.
+    gamma : dict
+        Partial factors used.
+    """
+
+    result: str
+    utilisation: np.ndarray
+    resistance: np.ndarray
+    governing: np.ndarray
+    demand: np.ndarray
+    chi: np.ndarray
+    lambda_bar: np.ndarray
+    slenderness: np.ndarray
+    slenderness_limit: np.ndarray
+    gamma: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def slenderness_ok(self) -> np.ndarray:
+        """(b,) bool: λ within its limit (members with no limit pass)."""
+        with np.errstate(invalid="ignore"):
+            return ~(self.slenderness > self.slenderness_limit)
+
+    @property
+    def unchecked(self) -> np.ndarray:
+        """(b,) bool: members in compression whose buckling could not be checked."""
+        return self.governing == CHECKS.index(
+            "compression, buckling not checked: no second moment"
+        )
+
+    @property
+    def passes(self) -> np.ndarray:
+        """(b,) bool: every check passed (unchecked buckling and cable compression fail)."""
+        cable_c = self.governing == CHECKS.index("cable in compression")
+        return (self.utilisation <= 1.0) & self.slenderness_ok & ~self.unchecked & ~cable_c
+
+    @property
+    def failing(self) -> np.ndarray:
+        """Member ids that fail any check."""
+        return np.flatnonzero(~self.passes)
+
+    def check_name(self, member: int) -> str:
+        """The governing check of one member, in words."""
+        return CHECKS[int(self.governing[member])]
+
+
+def _demands(result: Any) -> tuple[np.ndarray, np.ndarray]:
+    """Largest tension and largest compression (both ≥ 0) per member of a result."""
+    if hasattr(result, "axial_max"):
+        tension = np.maximum(np.asarray(result.axial_max, dtype=float), 0.0)
+        compression = np.maximum(-np.asarray(result.axial_min, dtype=float), 0.0)
+    elif hasattr(result, "axial_forces"):
+        n = np.asarray(result.axial_forces, dtype=float)
+        tension, compression = np.maximum(n, 0.0), np.maximum(-n, 0.0)
+    else:
+        raise ModelError(
+            f"check_members: {type(result).__name__} is not a static result or an envelope"
+        )
+    if not (np.all(np.isfinite(tension)) and np.all(np.isfinite(compression))):
+        raise ModelError("check_members: the result holds non-finite axial forces")
+    return tension, compression
+
+
+def _member_property(model: Model, name: str, default: float) -> np.ndarray:
+    value = getattr(model, name, None)
+    if value is None:
+        return np.full(model.n_members, default)
+    return np.asarray(value)
+
+
+def check_members(
+    model: Model,
+    result: Any,
+    *,
+    gamma_M0: float = 1.0,
+    gamma_M1: float = 1.0,
+    gamma_M2: float = 1.25,
+    gamma_cable: float = 1.5,
+) -> MemberCheck:
+    """Check every member's axial resistance for one result.
+
+    Tension, §6.2.3: N_t,Rd = A f_y / γ_M0 (6.6), and where the member has a
+    net-area factor below 1, N_u,Rd = 0.9 A_net f_u / γ_M2 (6.7); the smaller.
+    Compression, §6.2.4 (6.10): N_c,Rd = A f_y / γ_M0, and flexural buckling
+    §6.3.1.1 (6.47): N_b,Rd = χ A f_y / γ_M1 with χ from (6.49) and
+    λ̄ = L_cr / (i λ_1), λ_1 = π sqrt(E / f_y) (§6.3.1.3 (6.50)); L_cr is the
+    member's buckling-length factor times its length.  Tension-only members
+    and cables: tension only, against breaking force / γ_cable (γ_cable = 1.5
+    by default, from memory of EN 1993-1-11 §6.2 with γ_R = 1.0: check it);
+    compression in one of them is its own failure, "cable in compression".
+
+    Parameters
+    ----------
+    model : Model
+        With area, E and, per member, yield strength (and second moment for
+        members that may be in compression), set by
+        :meth:`Model.set_member_properties` or the model file.
+    result : CaseResult or Envelope
+        One case, combination or envelope result of ``model``.
+    gamma_M0, gamma_M1, gamma_M2 : float
+        Partial factors; defaults are the recommended values of EN 1993-1-1
+        §6.1 Note 2B, which national annexes change.
+    gamma_cable : float
+        Factor on a cable's breaking force.
+
+    Returns
+    -------
+    MemberCheck
+
+    Raises
+    ------
+    ModelError
+        When a member lacks the yield strength (or a cable its breaking force),
+        naming it, or the result does not belong to the model.
+    """
+    for label, g in (("gamma_M0", gamma_M0), ("gamma_M1", gamma_M1), ("gamma_M2", gamma_M2),
+                     ("gamma_cable", gamma_cable)):
+        if not (np.isfinite(g) and g > 0):
+            raise ModelError(f"check_members: {label} = {g!r} must be a positive number")
+    b = model.n_members
+    tension, compression = _demands(result)
+    if tension.shape != (b,):
+        raise ModelError(
+            f"check_members: the result has {tension.size} members, the model {b}"
+        )
+    area = np.asarray(model.area, dtype=float)
+    e_mod = np.asarray(model.E, dtype=float)
+    length = model.lengths
+    fy = _member_property(model, "yield_strength", np.nan).astype(float)
+    fu = _member_property(model, "ultimate_strength", np.nan).astype(float)
+    inertia = _member_property(model, "second_moment", np.nan).astype(float)
+    factor = _member_property(model, "buckling_length_factor", 1.0).astype(float)
+    net = _member_property(model, "net_area_factor", 1.0).astype(float)
+    tension_only = _member_property(model, "tension_only", 0.0).astype(bool)
+    breaking = _member_property(model, "breaking_force", np.nan).astype(float)
+    curve = _member_property(model, "buckling_curve", np.nan).astype(object)
+    limit_c = _member_property(model, "slenderness_limit", np.nan).astype(float)
+
+    steel = ~tension_only
+    no_fy = np.flatnonzero(steel & ~np.isfinite(fy))
+    if no_fy.size:
+        i = int(no_fy[0])
+        raise ModelError(
+            f"check_members: member {i}{model._group_text(i)} has no yield strength "
+            f"({no_fy.size} members without one); set it with set_member_properties("
+            "yield_strength=...) or a material with a yield strength"
+        )
+    no_break = np.flatnonzero(tension_only & ~np.isfinite(breaking))
+    if no_break.size:
+        i = int(no_break[0])
+        raise ModelError(
+            f"check_members: tension-only member {i}{model._group_text(i)} has no breaking "
+            f"force ({no_break.size} members without one); set breaking_force"
+        )
+
+    with np.errstate(invalid="ignore", divide="ignore"):
+        # Tension: (6.6) and, with a net-area factor below 1, (6.7).
+        n_pl = area * fy / gamma_M0
+        n_u = 0.9 * net * area * fu / gamma_M2
+        use_net = steel & (net < 1.0) & np.isfinite(n_u)
+        n_t = np.where(use_net, np.minimum(n_pl, n_u), n_pl)
+        net_governs = use_net & (n_u < n_pl)
+        # Compression: (6.10) cross-section and (6.47) flexural buckling.
+        radius = np.sqrt(inertia / area)
+        l_cr = factor * length
+        lam = l_cr / radius
+        lambda_1 = np.pi * np.sqrt(e_mod / fy)
+        lam_bar = lam / lambda_1
+    has_i = np.isfinite(inertia) & (inertia > 0) & steel
+    chi = np.full(b, np.nan)
+    if np.any(has_i):
+        curves_known = np.array([c in IMPERFECTION_FACTORS for c in curve[has_i].tolist()])
+        if not np.all(curves_known):
+            i = int(np.flatnonzero(has_i)[np.flatnonzero(~curves_known)[0]])
+            raise ModelError(
+                f"check_members: member {i}{model._group_text(i)} has no buckling curve "
+                f"(got {curve[i]!r}); set buckling_curve to one of a0, a, b, c, d"
+            )
+        chi[has_i] = buckling_reduction(lam_bar[has_i], curve[has_i])
+    n_b = chi * area * fy / gamma_M1
+    n_c = np.where(has_i, np.minimum(n_b, n_pl), n_pl)
+    buckling_governs = has_i & (n_b < n_pl)
+    f_rd = breaking / gamma_cable
+
+    with np.errstate(invalid="ignore", divide="ignore"):
+        u_t = np.where(tension_only, tension / f_rd, tension / n_t)
+        u_c = np.where(tension_only, compression / f_rd, compression / n_c)
+    u_t = np.nan_to_num(u_t, nan=0.0)
+    u_c = np.nan_to_num(u_c, nan=0.0)
+    comp_governs = (u_c > u_t) | ((compression > 0) & (tension == 0))
+    utilisation = np.where(comp_governs, u_c, u_t)
+    resistance = np.where(
+        tension_only, f_rd, np.where(comp_governs, n_c, n_t)
+    )
+    demand = np.where(comp_governs, -compression, tension)
+
+    governing = np.zeros(b, dtype=np.int8)
+    active = (tension > 0) | (compression > 0)
+    ten = active & ~comp_governs
+    governing[ten & steel] = CHECKS.index("tension (6.6)")
+    governing[ten & steel & net_governs] = CHECKS.index("net section (6.7)")
+    comp = active & comp_governs & steel
+    governing[comp] = CHECKS.index("compression (6.10)")
+    governing[comp & buckling_governs] = CHECKS.index("flexural buckling (6.47)")
+    governing[comp & ~has_i] = CHECKS.index(
+        "compression, buckling not checked: no second moment"
+    )
+    governing[ten & tension_only] = CHECKS.index("cable tension")
+    governing[active & comp_governs & tension_only] = CHECKS.index("cable in compression")
+
+    # Slenderness λ = L_cr/i against the limit for the governing sign
+    # (common-practice defaults where the user gave none); cables are exempt.
+    limit = np.where(
+        comp_governs,
+        np.where(np.isfinite(limit_c), limit_c, SLENDERNESS_COMPRESSION),
+        SLENDERNESS_TENSION,
+    )
+    limit = np.where(tension_only | ~has_i, np.inf, limit)
+    if not np.all(np.isfinite(utilisation)):
+        raise ModelError("check_members: a utilisation is not finite (zero resistance?)")
+    return MemberCheck(
+        result=str(getattr(result, "name", "")),
+        utilisation=utilisation,
+        resistance=resistance,
+        governing=governing,
+        demand=demand,
+        chi=chi,
+        lambda_bar=np.where(has_i, lam_bar, np.nan),
+        slenderness=np.where(has_i, lam, np.nan),
+        slenderness_limit=limit,
+        gamma={"gamma_M0": gamma_M0, "gamma_M1": gamma_M1, "gamma_M2": gamma_M2,
+               "gamma_cable": gamma_cable},
+    )
+
+
+@dataclass
+class GoverningCheck:
+    """The worst of several results per member.
+
+    Attributes
+    ----------
+    names : list of str
+        The results checked, in order.
+    utilisation : (b,) float
+        Largest utilisation over the results.
+    result_index : (b,) int
+        Index into ``names`` of the governing result.
+    checks : dict
+        Result name → :class:`MemberCheck`.
+    """
+
+    names: list[str]
+    utilisation: np.ndarray
+    result_index: np.ndarray
+    checks: dict[str, MemberCheck]
+
+    @property
+    def passes(self) -> np.ndarray:
+        """(b,) bool: every check of every result passed."""
+        ok = np.ones(self.utilisation.shape, dtype=bool)
+        for c in self.checks.values():
+            ok &= c.passes
+        return ok
+
+    @property
+    def failing(self) -> np.ndarray:
+        """Member ids that fail a check in any result."""
+        return np.flatnonzero(~self.passes)
+
+    def governing_result(self, member: int) -> str:
+        """Name of the result that governs one member."""
+        return self.names[int(self.result_index[member])]
+
+    def governing_check(self, member: int) -> str:
+        """The governing check of one member, in words."""
+        return self.checks[self.governing_result(member)].check_name(member)
+
+    def worst_per_group(self, groups: dict[str, np.ndarray]) -> dict[str, tuple[int, float]]:
+        """Group name → (member id, utilisation) of the group's most utilised member."""
+        out: dict[str, tuple[int, float]] = {}
+        for name, ids in groups.items():
+            ids = np.asarray(ids, dtype=np.int64)
+            if ids.size:
+                j = int(ids[np.argmax(self.utilisation[ids])])
+                out[name] = (j, float(self.utilisation[j]))
+        return out
+
+
+def check_results(
+    model: Model, results: Any, names: list[str] | None = None, **gammas: float
+) -> GoverningCheck:
+    """Check every member under each named result and keep the governing one.
+
+    Parameters
+    ----------
+    model : Model
+    results : Mapping of name → result
+        For example the value of ``model.solve()``.
+    names : list of str, optional
+        Results to check; default: every combination, or every case when
+        the model has no combination.
+    **gammas
+        Partial factors passed to :func:`check_members`.
+    """
+    if names is None:
+        combos = [n for n in results if getattr(results[n], "kind", "") == "combination"]
+        names = combos or list(results)
+    if not names:
+        raise ModelError("check_results: no result to check")
+    checks = {n: check_members(model, results[n], **gammas) for n in names}
+    stack = np.stack([checks[n].utilisation for n in names])
+    idx = np.argmax(stack, axis=0)
+    return GoverningCheck(
+        names=list(names),
+        utilisation=stack[idx, np.arange(stack.shape[1])],
+        result_index=idx,
+        checks=checks,
+    )
