@@ -34,11 +34,9 @@ AWAITING: dict[str, str] = {
     "panel-zero-area": H2, "api-panel-zero-area": H2, "api-panel-collinear": H2,
     "api-nodes-ragged": H2, "api-nodes-string": H2, "api-nodes-complex": H2,
     "api-spring-tuple": H2, "api-spring-neg": H2, "api-load-string": H2,
-    "api-g-negative": H2, "api-g-zero": H2, "api-nan-node-after-add": H2,
+    "api-nan-node-after-add": H2,
     "api-member-out-after-add": H2, "api-member-neg-after-add": H2,
-    "dxf-LXNE": H4, "dxf-demo-LXNE": H4, "dxf-demo-all-lxne": H4,
-    "dxf-bad-groupcode": H4, "dxf-group-code-dimgap": H4,
-    "obj-not-wavefront": H5, "msh41-zero-node-block": H5,
+    "msh41-zero-node-block": H5,
 }
 
 
@@ -136,9 +134,8 @@ def test_corpus_size() -> None:
 
 @pytest.mark.parametrize("cid", [
     "toml-nested-1000",
-    pytest.param("dxf-LXNE", marks=pytest.mark.xfail(strict=True, reason=f"awaiting fix: {H4}")),
-    pytest.param("obj-not-wavefront",
-                 marks=pytest.mark.xfail(strict=True, reason=f"awaiting fix: {H5}")),
+    "dxf-LXNE",
+    "obj-not-wavefront",
 ])
 def test_bad_input_by_subprocess(cid: str, tmp_path: Path) -> None:
     """The real command: exit 2 (or a clean read), one stderr line, no traceback."""
