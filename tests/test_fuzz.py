@@ -13,7 +13,7 @@ import pytest
 import spaceframe as sf
 
 sys.path.insert(0, str(Path(__file__).resolve().parent / "benchmarks"))
-import fuzz_readers as fz  # noqa: E402
+import fuzz_readers as fz
 
 sf.io.read  # noqa: B018 - import the readers once, so every forked child starts warm
 
