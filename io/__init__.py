@@ -43,7 +43,7 @@ __all__ = [
 #: Readers: file suffix -> module in spaceframe.io offering ``read``.
 _READER_TABLE: tuple[tuple[str, str], ...] = (
     (".dxf", "dxf"),
-    (".msh", "mesh"),  # Gmsh 4.1 ASCII read here, older or binary through meshio
+    (".msh", "mesh"),  # Gmsh 4.1 and 2.x (text or binary) read here, 4.0 through meshio
     (".vtu", "mesh"),  # VTK XML unstructured grid, through VTK
     (".vtk", "mesh"),  # VTK legacy, through VTK
     (".vtp", "mesh"),  # VTK XML polydata, through VTK

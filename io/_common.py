@@ -699,7 +699,7 @@ def build_model(
     report = None
     if heal:
         from spaceframe.geometry import heal as heal_frame
-        from spaceframe.geometry import remap_groups, remap_node_sets
+        from spaceframe.geometry import remap_groups
 
         try:
             switches: dict[str, Any] = dict(heal_options)
@@ -710,7 +710,20 @@ def build_model(
         if members.shape[0] == 0 and members0.shape[0]:
             _no_members_left(nodes0, members0, tol, units, where)
         groups = remap_groups(raw_groups, result)
-        node_sets = remap_node_sets(raw_node_sets, result)
+        # remap_node_sets' advice (keep_nodes) is for heal() callers; a
+        # reader's user gets what happened, and where, in file units.
+        node_sets = {}
+        for name, ids in raw_node_sets.items():  # one pass per set
+            new = result.node_map[ids]
+            if np.any(new < 0):
+                at = (nodes0[ids[new < 0][0]] / scale).round(6).tolist()
+                warnings.warn(
+                    f"{where}: node set {name!r}: {int(np.sum(new < 0))} node(s) are on no "
+                    f"member after healing and were left out (first at {at} {units.name})",
+                    SpaceframeWarning,
+                    stacklevel=3,
+                )
+            node_sets[name] = np.unique(new[new >= 0]).astype(np.int64)
         report = result.report
     else:
         used = np.zeros(nodes0.shape[0], dtype=bool)

@@ -3,8 +3,11 @@
 One adapter for several formats, each read by the library that keeps what a
 frame needs:
 
-- ``.msh`` Gmsh 4.1 ASCII is read here (meshio 5.3 fails on a file in which
-  some entities have no physical group); other Gmsh versions go to meshio.
+- ``.msh`` Gmsh 4.1 (text and binary) and 2.x are read here, by
+  :mod:`spaceframe.io._gmsh` (meshio 5.3 fails on 4.1 files in which some
+  entities have no physical group or that are partitioned, and loses
+  numeric groups of binary files); Gmsh 4.0 goes to meshio.  Groups follow
+  the same rules whatever the save format.
 - ``.vtu``, ``.vtk``, ``.vtp`` are read through VTK (pyvista): meshio drops
   VTK poly-line cells from ``.vtu`` and stops the interpreter on legacy
   POLYDATA ``.vtk`` files.
@@ -35,7 +38,7 @@ from typing import Any
 
 import numpy as np
 
-from spaceframe.errors import ReadError
+from spaceframe.errors import ReadError, SpaceframeWarning
 from spaceframe.io._common import (
     HEAL_OPTIONS,
     RawGeometry,
@@ -44,7 +47,15 @@ from spaceframe.io._common import (
     check_options,
     check_path,
     count_ignored,
+    describe_ignored,
     parse_units,
+)
+from spaceframe.io._gmsh import (
+    GMSH_TYPES,
+    HIGH_ORDER_FACES,
+    gmsh_dim,
+    read_gmsh2,
+    read_gmsh41,
 )
 from spaceframe.model import Model
 
@@ -61,36 +72,35 @@ LINE_CELLS: dict[str, tuple[int, ...]] = {
     "line6": (0, 2, 3, 4, 5, 1),
 }
 
-#: Surface cells: name -> (boundary nodes in order round the face, positions
-#: of the corners in that ring).  Corners first, then mid-side nodes edge by
-#: edge, in meshio, VTK and Gmsh alike; "pixel" is VTK's axis-aligned quad
-#: whose third and fourth nodes are swapped.
-FACE_CELLS: dict[str, tuple[tuple[int, ...], tuple[int, ...]]] = {
-    "triangle": ((0, 1, 2), (0, 1, 2)),
-    "triangle6": ((0, 3, 1, 4, 2, 5), (0, 2, 4)),
-    "triangle10": ((0, 3, 4, 1, 5, 6, 2, 7, 8), (0, 3, 6)),
-    "quad": ((0, 1, 2, 3), (0, 1, 2, 3)),
-    "quad8": ((0, 4, 1, 5, 2, 6, 3, 7), (0, 2, 4, 6)),
-    "quad9": ((0, 4, 1, 5, 2, 6, 3, 7), (0, 2, 4, 6)),
-    "pixel": ((0, 1, 3, 2), (0, 1, 2, 3)),
+#: Surface cells: name -> (nodes per cell, boundary nodes in order round the
+#: face, positions of the corners in that ring).  Corners first, then the
+#: nodes on each edge from its first corner to its second, edge by edge, then
+#: nodes inside the face (not on the ring), in meshio, VTK and Gmsh alike
+#: (Gmsh reference manual, "Node ordering"; VTK's vtkCellType.h cells
+#: 22, 23, 28, 34).  "pixel" is VTK's axis-aligned quad whose third and
+#: fourth nodes are swapped.  Members along the ring run through the edge
+#: nodes; panels take the corners.
+FACE_CELLS: dict[str, tuple[int, tuple[int, ...], tuple[int, ...]]] = {
+    "triangle": (3, (0, 1, 2), (0, 1, 2)),
+    "quad": (4, (0, 1, 2, 3), (0, 1, 2, 3)),
+    "pixel": (4, (0, 1, 3, 2), (0, 1, 2, 3)),
+    "triangle7": (7, (0, 3, 1, 4, 2, 5), (0, 2, 4)),  # VTK biquadratic triangle
 }
 
-# Gmsh element type numbers (Gmsh reference manual, "MSH file format",
-# element types) of the cells used here; other types are ignored.
-_GMSH_TYPES: dict[int, str] = {
-    1: "line",
-    8: "line3",
-    26: "line4",
-    27: "line5",
-    28: "line6",
-    2: "triangle",
-    9: "triangle6",
-    21: "triangle10",
-    3: "quad",
-    16: "quad8",
-    10: "quad9",
-    15: "vertex",
-}
+
+def _high_order_ring(corners: int, order: int) -> tuple[tuple[int, ...], tuple[int, ...]]:
+    """Ring of a Gmsh-ordered face: corner k, then its edge's order-1 nodes."""
+    ring: list[int] = []
+    for k in range(corners):
+        ring.append(k)
+        start = corners + k * (order - 1)
+        ring.extend(range(start, start + order - 1))
+    return tuple(ring), tuple(range(0, corners * order, order))
+
+
+_NODES_OF = {name: n for name, n in GMSH_TYPES.values()}
+for _name, (_corners, _order) in HIGH_ORDER_FACES.items():
+    FACE_CELLS[_name] = (_NODES_OF[_name], *_high_order_ring(_corners, _order))
 
 # VTK cell type numbers (vtkCellType.h) of the cells used here; "poly_line"
 # and "polygon" have any number of nodes.
@@ -108,7 +118,48 @@ _VTK_TYPES: dict[int, str] = {
     22: "triangle6",
     23: "quad8",
     28: "quad9",
+    34: "triangle7",
+    # Read as the triangles they stand for (see _strip_triangles).
+    6: "triangle_strip",
+    # Not used, named when counted as ignored: volumes, and cells whose
+    # nodes are not all on the boundary in the order above (Bezier control
+    # points lie off the curve; Lagrange surfaces order edges differently).
+    2: "poly_vertex",
+    10: "tetra",
+    11: "voxel",
+    12: "hexahedron",
+    13: "wedge",
+    14: "pyramid",
+    24: "quadratic tetra",
+    25: "quadratic hexahedron",
+    26: "quadratic wedge",
+    27: "quadratic pyramid",
+    30: "quadratic-linear quad",
+    36: "quadratic polygon",
+    42: "polyhedron",
+    69: "Lagrange triangle",
+    70: "Lagrange quadrilateral",
+    71: "Lagrange tetrahedron",
+    72: "Lagrange hexahedron",
+    75: "Bezier curve",
+    76: "Bezier triangle",
+    77: "Bezier quadrilateral",
 }
+
+
+def _strip_triangles(strips: np.ndarray, ids: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Triangles of VTK triangle strips of one length, and the strip each came from.
+
+    A strip of points p0 p1 p2 p3 ... is the triangles (p0 p1 p2), (p2 p1 p3),
+    (p2 p3 p4), ...: every second triangle is flipped so that all keep one
+    orientation (VTK's vtkTriangleStrip).
+    """
+    _, size = strips.shape
+    j = np.arange(size - 2)
+    tri = np.stack([strips[:, j], strips[:, j + 1], strips[:, j + 2]], axis=2)
+    odd = j % 2 == 1
+    tri[:, odd, 0], tri[:, odd, 1] = strips[:, j[odd] + 1], strips[:, j[odd]]
+    return tri.reshape(-1, 3), np.repeat(ids, size - 2)
 
 
 @dataclass
@@ -151,8 +202,10 @@ def _line_order(kind: str, size: int) -> tuple[int, ...] | None:
 
 
 def _face_ring(kind: str, size: int) -> tuple[tuple[int, ...], tuple[int, ...]] | None:
-    if kind in FACE_CELLS:
-        return FACE_CELLS[kind]
+    """(ring, corner positions in the ring) of a surface cell, None if not one."""
+    entry = FACE_CELLS.get(kind)
+    if entry is not None:
+        return (entry[1], entry[2]) if entry[0] == size else None
     if kind.startswith("polygon"):
         ring = tuple(range(size))
         return ring, ring
@@ -165,6 +218,8 @@ def _set_names_of(sets: dict[str, np.ndarray], ids: np.ndarray) -> list[str]:
 
 def _to_raw(cells: _Cells, where: str) -> RawGeometry:
     pts = np.asarray(cells.points, dtype=np.float64)
+    if pts.size == 0:
+        raise ReadError(f"{where}: the mesh holds no points")
     if pts.ndim != 2 or pts.shape[1] not in (2, 3):
         raise ReadError(f"{where}: points have shape {pts.shape}, expected (n, 3)")
     if pts.shape[1] == 2:
@@ -192,7 +247,7 @@ def _to_raw(cells: _Cells, where: str) -> RawGeometry:
             chain = conn[:, list(order)]
             seg.append(np.stack([chain[:, :-1], chain[:, 1:]], axis=2).reshape(-1, 2))
             seg_owner.append(np.repeat(ids, size - 1))
-        elif ring is not None and len(ring[0]) == size and len(ring[1]) >= 3:
+        elif ring is not None and len(ring[1]) >= 3:
             ring_nodes = conn[:, list(ring[0])]
             corners = ring_nodes[:, list(ring[1])]
             face_nodes.append(corners.reshape(-1))
@@ -239,7 +294,7 @@ def _to_raw(cells: _Cells, where: str) -> RawGeometry:
 
 
 # ---------------------------------------------------------------------------
-# Gmsh 4.1 ASCII
+# Gmsh
 # ---------------------------------------------------------------------------
 
 
@@ -255,130 +310,12 @@ def _gmsh_header(path: Path) -> tuple[str, int] | None:
     return None
 
 
-def _sections(lines: list[str], where: str) -> dict[str, tuple[int, int]]:
-    """Section name -> (first line, end line) of its body."""
-    out: dict[str, tuple[int, int]] = {}
-    i, n = 0, len(lines)
-    while i < n:
-        line = lines[i].strip()
-        if line.startswith("$") and not line.startswith("$End"):
-            name = line[1:]
-            j = i + 1
-            while j < n and lines[j].strip() != f"$End{name}":
-                j += 1
-            if j == n:
-                raise ReadError(f"{where}: section ${name} (line {i + 1}) has no $End{name}")
-            out.setdefault(name, (i + 1, j))
-            i = j + 1
-        else:
-            i += 1
-    return out
-
-
-def _ints(lines: list[str], where: str, what: str, line_no: int) -> np.ndarray:
-    try:
-        return np.array(" ".join(lines).split(), dtype=np.int64)
-    except ValueError as exc:
-        raise ReadError(f"{where}: bad number in {what} near line {line_no}: {exc}") from None
-
-
-def _read_gmsh41(path: Path, where: str) -> _Cells:
-    try:
-        text = path.read_text(encoding="utf-8", errors="replace")
-    except OSError as exc:
-        raise ReadError(f"{where}: cannot read: {exc}") from exc
-    try:
-        return _parse_gmsh41(text.splitlines(), where)
-    except (ValueError, IndexError) as exc:
-        # Counts that do not match the lines that follow (a cut or edited file).
-        raise ReadError(f"{where}: malformed Gmsh 4.1 file ({type(exc).__name__}: {exc})") from None
-
-
-def _parse_gmsh41(lines: list[str], where: str) -> _Cells:
-    sec = _sections(lines, where)
-    for need in ("Nodes", "Elements"):
-        if need not in sec:
-            raise ReadError(f"{where}: Gmsh file has no ${need} section")
-
-    names: dict[tuple[int, int], str] = {}
-    if "PhysicalNames" in sec:
-        a, b = sec["PhysicalNames"]
-        for k in range(a + 1, b):
-            parts = lines[k].split(maxsplit=2)
-            if len(parts) == 3:
-                names[(int(parts[0]), int(parts[1]))] = parts[2].strip().strip('"')
-
-    physical: dict[tuple[int, int], list[int]] = {}
-    if "Entities" in sec:
-        a, b = sec["Entities"]
-        counts = [int(v) for v in lines[a].split()[:4]]
-        k = a + 1
-        for dim, count in enumerate(counts):
-            for _ in range(count):
-                tok = lines[k].split()
-                # Points: tag x y z nPhys tags; others: tag 6 bounds nPhys tags ...
-                at = 4 if dim == 0 else 7
-                n_phys = int(tok[at])
-                physical[(dim, int(tok[0]))] = [int(t) for t in tok[at + 1 : at + 1 + n_phys]]
-                k += 1
-
-    # Nodes: blocks of "dim tag parametric count", then the tags, then the coordinates.
-    a, b = sec["Nodes"]
-    n_blocks, n_nodes = (int(v) for v in lines[a].split()[:2])
-    tags_parts, xyz_parts = [], []
-    k = a + 1
-    for _ in range(n_blocks):
-        head = lines[k].split()
-        count = int(head[3])
-        tags_parts.append(_ints(lines[k + 1 : k + 1 + count], where, "$Nodes", k + 2))
-        block = lines[k + 1 + count : k + 1 + 2 * count]
-        try:
-            coords = np.array(" ".join(block).split(), dtype=np.float64).reshape(count, -1)
-        except ValueError as exc:
-            raise ReadError(
-                f"{where}: bad coordinates in $Nodes near line {k + 2}: {exc}"
-            ) from None
-        xyz_parts.append(coords[:, :3])
-        k += 1 + 2 * count
-    tags = np.concatenate(tags_parts) if tags_parts else np.zeros(0, dtype=np.int64)
-    points = np.concatenate(xyz_parts) if xyz_parts else np.zeros((0, 3))
-    if tags.size != n_nodes:
-        raise ReadError(f"{where}: $Nodes announces {n_nodes} nodes but holds {tags.size}")
-    lookup = np.full(int(np.max(tags)) + 1 if tags.size else 1, -1, dtype=np.int64)
-    lookup[tags] = np.arange(tags.size)
-
-    cells = _Cells(points)
-    sets: dict[str, list[np.ndarray]] = {}
-    a, b = sec["Elements"]
-    n_blocks = int(lines[a].split()[0])
-    k = a + 1
-    for _ in range(n_blocks):  # one pass per Gmsh entity, not per element
-        dim, tag, etype, count = (int(v) for v in lines[k].split()[:4])
-        data = _ints(lines[k + 1 : k + 1 + count], where, "$Elements", k + 2)
-        data = data.reshape(count, -1) if count else data.reshape(0, 1)
-        node_tags = data[:, 1:]
-        mapped = np.full(node_tags.shape, -1, dtype=np.int64)
-        known = (node_tags >= 0) & (node_tags < lookup.size)
-        mapped[known] = lookup[node_tags[known]]
-        if np.any(mapped < 0):
-            bad = node_tags[mapped < 0]
-            raise ReadError(
-                f"{where}: element block of entity ({dim}, {tag}) refers to node tag "
-                f"{int(bad[0])}, which is not in $Nodes"
-            )
-        group_names = [
-            names.get((dim, p), f"physical-{dim}-{p}") for p in physical.get((dim, tag), [])
-        ]
-        kind = _GMSH_TYPES.get(etype)
-        if kind is None:
-            for g in group_names or ["(no group)"]:
-                count_ignored(cells.ignored, f"Gmsh element type {etype}", g, count)
-        else:
-            ids = cells.add(kind, mapped)
-            for g in group_names:
-                sets.setdefault(g, []).append(ids)
-        k += 1 + count
-    cells.sets = {name: np.concatenate(parts) for name, parts in sets.items()}
+def _read_gmsh41(path: Path, where: str, binary: bool) -> _Cells:
+    mesh = read_gmsh41(path, where, binary)
+    cells = _Cells(mesh.points)
+    for kind, conn in mesh.blocks:
+        cells.add(kind, conn)
+    cells.sets = mesh.sets
     return cells
 
 
@@ -387,7 +324,46 @@ def _parse_gmsh41(lines: list[str], where: str) -> _Cells:
 # ---------------------------------------------------------------------------
 
 
-def _read_meshio(path: Path, where: str) -> _Cells:
+def _gmsh_cells_from_meshio(mesh: Any, cells: _Cells) -> None:
+    """Gmsh 2.x / 4.0 cells and groups (read by read_gmsh2 or by meshio), by the 4.1 rules.
+
+    Groups come from the "gmsh:physical" tags (named by $PhysicalNames, else
+    "physical-<dim>-<tag>"), named or not; tag 0 means no physical group.
+    MSH 2 writes an element once per physical group it belongs to: copies
+    (same nodes, same elementary entity) become one cell in all their groups.
+    """
+    physical = (mesh.cell_data or {}).get("gmsh:physical")
+    entity = (mesh.cell_data or {}).get("gmsh:geometrical")
+    by_tag = {(int(v[1]), int(v[0])): name for name, v in (mesh.field_data or {}).items()}
+    # Blocks of one kind together: MSH 2 may write an element's copies in
+    # different blocks (binary files start a block per physical group).
+    parts: dict[str, list[tuple[np.ndarray, np.ndarray, np.ndarray]]] = {}
+    for b, block in enumerate(mesh.cells):  # one pass per block of cells
+        conn = np.asarray(block.data, dtype=np.int64).reshape(len(block.data), -1)
+        k = conn.shape[0]
+        tags = np.asarray(physical[b], dtype=np.int64) if physical else np.zeros(k, np.int64)
+        ent = np.asarray(entity[b], dtype=np.int64) if entity else np.zeros(k, np.int64)
+        parts.setdefault(str(block.type), []).append((conn, tags, ent))
+    sets: dict[str, list[np.ndarray]] = {}
+    for kind, pieces in parts.items():  # one pass per kind of cell
+        conn = np.concatenate([c for c, _, _ in pieces])
+        tags = np.concatenate([t for _, t, _ in pieces])
+        ent = np.concatenate([e for _, _, e in pieces])
+        key = np.column_stack([ent, conn])
+        _, first, inverse = np.unique(key, axis=0, return_index=True, return_inverse=True)
+        inverse = inverse.reshape(-1)
+        order = np.argsort(first, kind="stable")  # keep the file's order
+        rank = np.empty_like(order)
+        rank[order] = np.arange(order.size)
+        ids = cells.add(kind, conn[np.sort(first)])
+        dim = gmsh_dim(kind)
+        for t in np.unique(tags[tags != 0]).tolist():
+            name = by_tag.get((dim, int(t)), f"physical-{dim}-{int(t)}")
+            sets.setdefault(name, []).append(np.unique(ids[rank[inverse[tags == t]]]))
+    cells.sets = {name: np.unique(np.concatenate(chunks)) for name, chunks in sets.items()}
+
+
+def _read_meshio(path: Path, where: str, gmsh: bool = False) -> _Cells:
     try:
         import meshio
     except ImportError as exc:
@@ -408,36 +384,27 @@ def _read_meshio(path: Path, where: str) -> _Cells:
             sink.seek(0)
             said = " ".join(sink.read().split())[:500]
             advice = (
-                "; saving the mesh as Gmsh 4.1 ASCII lets spaceframe read it without meshio"
+                "; saving the mesh as Gmsh 4.1 (text or binary) lets spaceframe read it "
+                "without meshio"
                 if path.suffix.lower() == ".msh"
                 else ""
             )
             raise ReadError(
-                f"{where}: meshio could not read it ({type(exc).__name__}: {exc})"
+                f"{where}: meshio could not read it ({type(exc).__name__}: {str(exc)[:200]})"
                 + (f"; meshio said: {said}" if said else "")
                 + advice
             ) from None
     cells = _Cells(np.asarray(mesh.points, dtype=np.float64))
-    block_ids = []
-    for block in mesh.cells:
-        block_ids.append(cells.add(str(block.type), np.asarray(block.data)))
-    sets: dict[str, list[np.ndarray]] = {}
-    for name, per_block in (mesh.cell_sets or {}).items():
-        if name.startswith("gmsh:"):
-            continue
-        for ids, local in zip(block_ids, per_block, strict=False):
-            if local is not None and len(local):
-                sets.setdefault(name, []).append(ids[np.asarray(local, dtype=np.int64)])
-    physical = mesh.cell_data.get("gmsh:physical") if mesh.cell_data else None
-    if not sets and physical is not None:
-        by_tag = {(int(v[1]), int(v[0])): name for name, v in (mesh.field_data or {}).items()}
-        for block, ids, tags in zip(mesh.cells, block_ids, physical, strict=False):
-            dim = 0 if block.type == "vertex" else (1 if _line_order(block.type, 2) else 2)
-            tags = np.asarray(tags, dtype=np.int64)
-            for t in np.unique(tags):
-                name = by_tag.get((dim, int(t)), f"physical-{dim}-{int(t)}")
-                sets.setdefault(name, []).append(ids[tags == t])
-    cells.sets = {name: np.concatenate(parts) for name, parts in sets.items()}
+    if gmsh:
+        _gmsh_cells_from_meshio(mesh, cells)
+    else:
+        block_ids = [cells.add(str(block.type), np.asarray(block.data)) for block in mesh.cells]
+        sets: dict[str, list[np.ndarray]] = {}
+        for name, per_block in (mesh.cell_sets or {}).items():
+            for ids, local in zip(block_ids, per_block, strict=False):
+                if local is not None and len(local):
+                    sets.setdefault(name, []).append(ids[np.asarray(local, dtype=np.int64)])
+        cells.sets = {name: np.concatenate(parts) for name, parts in sets.items()}
     cells.point_sets = {
         name: np.asarray(ids, dtype=np.int64) for name, ids in (mesh.point_sets or {}).items()
     }
@@ -496,6 +463,8 @@ def _read_vtk(path: Path, where: str, group_field: str | None) -> _Cells:
         ids = np.flatnonzero((types == vtype) & (sizes == size))
         kind = _VTK_TYPES.get(int(vtype), f"VTK cell type {int(vtype)}")
         block = conn[offsets[ids][:, None] + np.arange(size)]
+        if kind == "triangle_strip" and size >= 3:
+            kind, (block, ids) = "triangle", _strip_triangles(block, ids)
         cells.add(kind, block, ids)
     if group_field is not None:
         if group_field not in grid.cell_data:
@@ -519,12 +488,28 @@ def _read_vtk(path: Path, where: str, group_field: str | None) -> _Cells:
 # ---------------------------------------------------------------------------
 
 
+# Statement keywords of the Wavefront OBJ format (Wavefront Technologies,
+# "Object Files (.obj)", Advanced Visualizer manual, appendix B1); those not
+# read here are counted as ignored.  A line starting with anything else is
+# not OBJ at all.
+_OBJ_KEYWORDS = frozenset(
+    "v vt vn vp l f p g o s mg usemtl mtllib usemap maplib cstype deg bmat step curv "
+    "curv2 surf parm trim hole scrv sp end con bevel c_interp d_interp lod shadow_obj "
+    "trace_obj ctech stech call csh".split()
+)
+
+
+def _short(text: str, n: int = 40) -> str:
+    """``text`` quoted, cut to ``n`` characters (messages stay one short line)."""
+    return repr(text if len(text) <= n else text[:n] + "...")
+
+
 def _obj_index(token: str, n_vertices: int, where: str, line_no: int) -> int:
     head = token.split("/", 1)[0]
     try:
         i = int(head)
     except ValueError:
-        raise ReadError(f"{where}: line {line_no}: bad vertex index {token!r}") from None
+        raise ReadError(f"{where}: line {line_no}: bad vertex index {_short(token)}") from None
     # OBJ indices start at 1; negative ones count back from the latest vertex.
     j = n_vertices + i if i < 0 else i - 1
     if not 0 <= j < n_vertices:
@@ -535,12 +520,23 @@ def _obj_index(token: str, n_vertices: int, where: str, line_no: int) -> int:
     return j
 
 
+def _not_obj(where: str, first_foreign: tuple[int, str] | None) -> None:
+    """ReadError saying the file is no OBJ file, when a foreign line was seen."""
+    if first_foreign is not None:
+        line_no, key = first_foreign
+        raise ReadError(
+            f"{where}: not a Wavefront OBJ file: line {line_no} starts with {_short(key)}"
+        )
+
+
 def _read_obj(path: Path, where: str) -> _Cells:
     """Vertices, ``l`` polylines, ``f`` faces and ``g``/``o`` groups of an OBJ file."""
     try:
         text = path.read_text(encoding="utf-8", errors="replace")
     except OSError as exc:
         raise ReadError(f"{where}: cannot read: {exc}") from exc
+    if "\x00" in text[:65536]:
+        raise ReadError(f"{where}: binary data, not a Wavefront OBJ (text) file")
     xyz: list[list[str]] = []
     xyz_lines: list[int] = []
     polylines: list[list[int]] = []
@@ -552,6 +548,7 @@ def _read_obj(path: Path, where: str) -> _Cells:
     obj_name: tuple[str, ...] = ()
     ignored: dict[str, dict[str, Any]] = {}
     pending = ""
+    first_foreign: tuple[int, str] | None = None
     for line_no, raw_line in enumerate(text.splitlines(), start=1):
         line = pending + raw_line.split("#", 1)[0]
         if line.endswith("\\"):
@@ -564,13 +561,18 @@ def _read_obj(path: Path, where: str) -> _Cells:
         key = tok[0]
         if key == "v":
             if len(tok) < 4:
+                _not_obj(where, first_foreign)
                 raise ReadError(
-                    f"{where}: line {line_no}: vertex needs x y z, got {line.strip()!r}"
+                    f"{where}: line {line_no}: vertex needs x y z, got {_short(line.strip())}"
                 )
             xyz.append(tok[1:4])
             xyz_lines.append(line_no)
         elif key in ("l", "f"):
-            ids = [_obj_index(t, len(xyz), where, line_no) for t in tok[1:]]
+            try:
+                ids = [_obj_index(t, len(xyz), where, line_no) for t in tok[1:]]
+            except ReadError:
+                _not_obj(where, first_foreign)
+                raise
             owner = len(owner_groups)
             owner_groups.append(current + obj_name)
             if key == "l":
@@ -586,8 +588,12 @@ def _read_obj(path: Path, where: str) -> _Cells:
             obj_name = tuple(tok[1:2])
         elif key in ("vt", "vn", "vp", "s", "usemtl", "mtllib"):
             continue
-        else:
+        elif key in _OBJ_KEYWORDS:
             count_ignored(ignored, f"OBJ statement {key!r}", " ".join(current) or "(no group)")
+        else:
+            if first_foreign is None:
+                first_foreign = (line_no, key)
+            count_ignored(ignored, "lines that are no OBJ statement", "(no group)")
     try:
         points = np.array(xyz, dtype=np.float64).reshape(-1, 3)
     except ValueError:
@@ -595,8 +601,17 @@ def _read_obj(path: Path, where: str) -> _Cells:
             try:
                 [float(v) for v in values]
             except ValueError:
-                raise ReadError(f"{where}: line {line_no}: bad vertex {values!r}") from None
+                raise ReadError(
+                    f"{where}: line {line_no}: bad vertex {_short(' '.join(values))}"
+                ) from None
         raise
+    if first_foreign is not None and not (polylines or faces):
+        line_no, key = first_foreign
+        n_foreign = ignored["lines that are no OBJ statement"]["count"]
+        raise ReadError(
+            f"{where}: not a Wavefront OBJ file: line {line_no} starts with {_short(key)} "
+            f"({n_foreign} lines are no OBJ statement, and there are no lines or faces)"
+        )
     cells = _Cells(points)
     cells.ignored = ignored
     # Polylines of any length become one block per length (one array each).
@@ -681,13 +696,27 @@ def read(
     suffix = p.suffix.lower()
     if group_field is not None and suffix not in _VTK_SUFFIXES:
         raise ReadError(f"{where}: group_field applies to VTK files only")
+    if p.stat().st_size == 0:
+        raise ReadError(f"{where}: the file is empty")
     if suffix == ".msh":
         header = _gmsh_header(p)
         if header is None:
-            raise ReadError(f"{where}: not a Gmsh mesh (no $MeshFormat at the start)")
+            with open(p, "rb") as fh:
+                old = fh.read(8).startswith(b"$NOD")
+            raise ReadError(
+                f"{where}: Gmsh's first file format ($NOD), not read here: save as MSH 4.1"
+                if old
+                else f"{where}: not a Gmsh mesh (no $MeshFormat at the start)"
+            )
         version, file_type = header
-        own = version.startswith("4") and file_type == 0
-        cells = _read_gmsh41(p, where) if own else _read_meshio(p, where)
+        if version == "4.1":
+            cells = _read_gmsh41(p, where, binary=file_type == 1)
+        elif version.startswith("2"):
+            msh2 = read_gmsh2(p, where, binary=file_type == 1)
+            cells = _Cells(np.asarray(msh2.points, dtype=np.float64))
+            _gmsh_cells_from_meshio(msh2, cells)
+        else:  # 4.0 and any other version meshio knows
+            cells = _read_meshio(p, where, gmsh=True)
     elif suffix in _VTK_SUFFIXES:
         cells = _read_vtk(p, where, group_field)
     elif suffix == ".obj":
@@ -695,6 +724,16 @@ def read(
     else:
         cells = _read_meshio(p, where)
     raw = _to_raw(cells, where)
+    if raw.ignored and (raw.segments.shape[0] or (edges_as_members and raw.edges.shape[0])):
+        # Shown, not only kept in meta: volumes and unknown cells are skipped.
+        kinds = list(raw.ignored)
+        more = f"; and {len(kinds) - 4} more kinds" if len(kinds) > 4 else ""
+        warnings.warn(
+            f"{where}: not used (no members or panels are made of them): "
+            f"{describe_ignored(raw.ignored, kinds[:4])}{more}",
+            SpaceframeWarning,
+            stacklevel=2,
+        )
 
     if units is None:
         file_units = Units("m", 1.0, "assumed: mesh files carry no units")

@@ -313,7 +313,9 @@ def _write_dome_mesh(path: Path) -> None:
     import meshio
 
     nodes, faces = dome_geometry()
-    meshio.Mesh(nodes, [("triangle", faces)]).write(path, binary=False)
+    # Binary (zlib-compressed) VTU: meshio prints a warning to the terminal for
+    # text VTU ("only meant for debugging"), and binary keeps every digit.
+    meshio.Mesh(nodes, [("triangle", faces)]).write(path, binary=True)
 
 
 DOME_TOML = '''title = "Community garden geodesic dome (demo scenario)"
