@@ -708,6 +708,14 @@ class Model:
                 f"add_panels: panel {start + k} refers to node {int(flat[bad[0]])}, which does "
                 f"not exist (the model has nodes 0..{self.n_nodes - 1})"
             )
+        zero = _zero_area_panels(self.nodes, flat, offs)
+        if zero.size:
+            k = int(zero[0])
+            raise ModelError(
+                f"add_panels: panel {start + k} (nodes {flat[offs[k]:offs[k + 1]].tolist()}) "
+                f"has zero area ({zero.size} such panels): a load panel needs three nodes "
+                "not on one line"
+            )
         self.panel_nodes = np.concatenate([self.panel_nodes, flat])
         self.panel_offsets = np.concatenate([self.panel_offsets, self.panel_offsets[-1] + offs[1:]])
         ids = np.arange(start, self.n_panels, dtype=np.int64)
@@ -1059,6 +1067,30 @@ class Model:
             # and combination is solved as its own load set.
             return solve_tension_only(self, solver=solver)
         return solve_static(self, solver=solver)
+
+
+def _zero_area_panels(nodes: np.ndarray, flat: np.ndarray, offs: np.ndarray) -> np.ndarray:
+    """Indices of polygons whose vector (Newell) area is zero against their own size.
+
+    Coordinates are taken relative to each polygon's centroid, so a panel at
+    site coordinates is judged as one at the origin.
+    """
+    k = offs.size - 1
+    if k == 0:
+        return np.zeros(0, dtype=np.int64)
+    counts = np.diff(offs)
+    pid = np.repeat(np.arange(k), counts)
+    pts = nodes[flat]
+    centre = np.stack([np.bincount(pid, pts[:, j], k) for j in range(3)], axis=1) / counts[:, None]
+    rel = pts - centre[pid]
+    nxt = np.arange(1, flat.size + 1)
+    nxt[offs[1:] - 1] = offs[:-1]
+    cr = np.cross(rel, rel[nxt])
+    vec = np.stack([np.bincount(pid, cr[:, j], k) for j in range(3)], axis=1)
+    area = 0.5 * np.linalg.norm(vec, axis=1)
+    size2 = np.stack([np.bincount(pid, rel[:, j] ** 2, k) for j in range(3)], axis=1).sum(axis=1)
+    # Non-finite coordinates are left to the coordinate checks, which name them.
+    return np.flatnonzero(np.isfinite(area) & np.isfinite(size2) & (area <= 1e-12 * size2))
 
 
 def _pair_keys(pairs: np.ndarray) -> np.ndarray:

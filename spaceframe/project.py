@@ -1326,7 +1326,10 @@ def _read_geometry(spec: _Spec, fail: Callable[[str, Exception], NoReturn]) -> M
     for sname, ids in geo.node_sets.items():
         model.add_node_set(sname, ids + node_offset)
     for pname, polys in geo.panels.items():
-        model.add_panels([p + node_offset for p in polys], group=pname)
+        try:
+            model.add_panels([p + node_offset for p in polys], group=pname)
+        except ModelError as exc:
+            fail(f"geometry.panels.{pname}", exc)
     return model
 
 

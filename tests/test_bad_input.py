@@ -28,13 +28,7 @@ ROOT = Path(__file__).resolve().parents[1]
 # Cases that still fail because their fix has not reached main; a strict xfail flags
 # the day the fix lands (then remove the entry).
 H2 = "H2 analysis/model (API input checks, validate() re-checks, g, panels)"
-AWAITING: dict[str, str] = {
-    "panel-zero-area": H2, "api-panel-zero-area": H2, "api-panel-collinear": H2,
-    "api-nodes-ragged": H2, "api-nodes-string": H2, "api-nodes-complex": H2,
-    "api-spring-tuple": H2, "api-spring-neg": H2, "api-load-string": H2,
-    "api-nan-node-after-add": H2,
-    "api-member-out-after-add": H2, "api-member-neg-after-add": H2,
-}
+AWAITING: dict[str, str] = {}
 
 
 def _cases() -> list[Any]:
