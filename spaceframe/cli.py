@@ -69,6 +69,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--solver", default="auto", choices=["auto", "scipy", "pardiso"])
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--no-pictures", action="store_true", help="skip pictures and report")
+    p.add_argument("--pictures", default="combinations", metavar="WHICH",
+                   help="results that get pictures: combinations (default: the combinations "
+                        "and envelopes, or the load cases when there are none), all, none, "
+                        "or result names separated by commas")
 
     p = sub.add_parser("new", parents=[common], help="write a starter project from a demo scenario")
     p.add_argument("folder", type=Path)
@@ -239,7 +243,8 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
     ctx, progress = out.progress()
     with ctx:
         outcome = batch.run(args.model, args.output, solver=args.solver,
-                            pictures=not args.no_pictures, progress=progress)
+                            pictures=False if args.no_pictures else args.pictures,
+                            progress=progress)
     if args.json:
         print(json.dumps(outcome.summary, indent=2))
         return 0

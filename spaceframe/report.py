@@ -20,7 +20,7 @@ import html
 import os
 import re
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from pathlib import Path
 from string import Template
 from typing import TYPE_CHECKING, Any
@@ -133,6 +133,7 @@ def write_pictures(
     cases: Sequence[str] | None = None,
     size: Sequence[int] = (1200, 800),
     color_by: str = "axial_force",
+    progress: Callable[[str], None] | None = None,
 ) -> list[Path]:
     """One PNG per result and view, rendered off-screen: ``<result>_<view>.png``.
 
@@ -147,6 +148,8 @@ def write_pictures(
     size : (2,) int
         Picture width and height, pixels.
     color_by : {"axial_force", "stress", "displacement", "group"}
+    progress : callable, optional
+        Called with "pictures k/n" before each picture.
 
     Returns
     -------
@@ -156,7 +159,7 @@ def write_pictures(
     from spaceframe import viewer
 
     return viewer.screenshots(folder, results, cases=cases, views=views, size=size,
-                              color_by=color_by)
+                              color_by=color_by, progress=progress)
 
 
 # ------------------------------------------------------------------- charts

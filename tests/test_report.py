@@ -228,3 +228,28 @@ def test_no_force_chart_text(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) ->
     report.write_charts(tmp_path, _free_triangle())
     assert titles == ["warm: no member force"] * 2
     assert all(t.startswith("no member force (every |N| <= ") for t in texts) and texts
+
+
+@pytest.mark.slow
+def test_run_pictures_default_to_combinations_and_envelopes(tmp_path: Path) -> None:
+    from spaceframe import batch, demos
+
+    files = demos.write_demo(tmp_path / "canopy", "canopy")
+    toml = next(f for f in files if f.suffix == ".toml")
+    phases: list[str] = []
+    out = batch.run(toml, tmp_path / "out", progress=phases.append)
+    pics = sorted(p.name for p in (out.output / "pictures").glob("*_iso.png"))
+    # Three combinations and the envelope "ULS"; no picture of a bare load case.
+    assert pics == ["SLS_snow_iso.png", "ULS_iso.png", "ULS_snow_iso.png", "ULS_uplift_iso.png"]
+    counts = [p for p in phases if p.startswith("pictures ")]
+    assert counts == [f"pictures {k}/12" for k in range(1, 13)]
+    refs = _links((out.output / "report.html").read_text(encoding="utf-8")).refs
+    assert refs and all(r.startswith("data:image/png;base64,") for r in refs)
+    # A choice by name, and none at all.
+    out2 = batch.run(toml, tmp_path / "out2", pictures="snow")
+    assert sorted(p.name for p in (out2.output / "pictures").glob("*.png")) == [
+        "snow_front.png", "snow_groups.png", "snow_iso.png", "snow_members.png",
+        "snow_top.png"]
+    with pytest.raises(sf.ModelError, match="no result named 'rain'"):
+        batch.run(toml, tmp_path / "out3", pictures="rain")
+    assert not (tmp_path / "out3").exists()
