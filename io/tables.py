@@ -61,6 +61,7 @@ class _Col:
     def __init__(self, values: Any, kind: str, digits: int = INPUT_DIGITS) -> None:
         arr = np.asarray(values)
         self.kind = kind
+        self.values: np.ndarray
         if kind == "int":
             self.values, self.code = arr.astype(np.int64), "%d"
         elif kind == "float":
