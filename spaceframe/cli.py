@@ -295,7 +295,10 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
         w, h = (int(v) for v in args.size.lower().split("x"))
     except ValueError:
         raise ProjectError(f"--size {args.size!r}: expected WIDTHxHEIGHT, e.g. 1600x1000") from None
-    results = batch.load(path).solve()
+    loaded = batch.load(path)
+    results = loaded.solve()
+    if loaded.project is not None:  # envelopes too, as in the results folder's pictures
+        results = viewer.with_envelopes(results, loaded.project.envelope_results(results))
     case = args.case or next(iter(results))
     if case not in results:
         raise ProjectError(f"--case {case!r}: no such case (have: {', '.join(results)})")

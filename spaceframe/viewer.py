@@ -47,9 +47,11 @@ __all__ = [
     "with_envelopes",
 ]
 
-#: Above this many members the frame is drawn as plain lines: building real
-#: tube geometry for more costs seconds and gigabytes.
-TUBE_LIMIT = 50_000
+#: Above this many members the frame is drawn as plain lines: tube geometry
+#: for more costs seconds per picture in software rendering (10k members as
+#: tubes: about 1.5 s a render on this machine, as lines 0.2 s), and at that
+#: density the lines read as well.
+TUBE_LIMIT = 5_000
 
 #: Most load arrows drawn; beyond it every k-th loaded node gets one.
 MAX_ARROWS = 500
