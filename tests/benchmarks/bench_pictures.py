@@ -23,8 +23,8 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from bench_static import parse_size  # noqa: E402
-from grids import ROOF_CASE, double_layer_grid, grid_for_members  # noqa: E402
+from bench_static import parse_size
+from grids import ROOF_CASE, double_layer_grid, grid_for_members
 
 #: Mean seconds per picture above which ``--check`` fails.
 TARGET = 1.5
