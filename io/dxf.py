@@ -16,7 +16,13 @@ them, is read with z-scale 1 when its block is flat.  ezdxf's repairs of a
 damaged file and its log messages become warnings too.
 
 Writing puts the centrelines on one layer per group, markers as POINT and
-panels as 3DFACE (MESH beyond four corners), with ``$INSUNITS`` set.
+panels as 3DFACE (MESH beyond four corners), with ``$INSUNITS`` set, and
+the supports as POINT entities on layers of their own:
+``SUPPORT_<directions>`` for restrained nodes (e.g. ``SUPPORT_XYZ``,
+``SUPPORT_Z``) and ``SPRING_<kx>_<ky>_<kz>`` for nodes on springs
+(stiffnesses in N/m).  Reading turns the points on those layers back into
+supports at the nearest node, so a drawing written here and read again
+keeps its supports.
 """
 
 from __future__ import annotations
@@ -762,7 +768,7 @@ def read(
     on_zero = _layer_zero_note(where, raw, file_units.name)
     if on_zero:
         warnings.warn(on_zero, SpaceframeWarning, stacklevel=2)
-    return build_model(
+    model = build_model(
         raw,
         where=where,
         units=file_units,
@@ -773,6 +779,8 @@ def read(
         meta=meta,
         no_members_hint=hint,
     )
+    _supports_from_markers(model, where, tolerance)
+    return model
 
 
 def _paper_space_count(doc: Drawing) -> int:
@@ -930,6 +938,53 @@ def _file_units(doc: Drawing, where: str, units: str | None, raw: RawGeometry) -
 # ---------------------------------------------------------------------------
 
 
+#: Layers of the support points :func:`write` draws (case-insensitive on reading).
+_SUPPORT_LAYER = re.compile(r"^SUPPORT_([XYZ]{1,3})$", re.IGNORECASE)
+_FLOAT = r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)"
+_SPRING_LAYER = re.compile(rf"^SPRING_{_FLOAT}_{_FLOAT}_{_FLOAT}$", re.IGNORECASE)
+
+
+def _is_support_layer(name: str) -> bool:
+    return bool(_SUPPORT_LAYER.match(name) or _SPRING_LAYER.match(name))
+
+
+def _supports_from_markers(model: Model, where: str, tolerance: float | None) -> None:
+    """Supports and springs from POINTs on ``SUPPORT_*`` and ``SPRING_*`` layers.
+
+    Each point is put on the nearest node; one farther than the healing
+    tolerance from every node is a ReadError naming it.  The points stay
+    markers as well (a model file may select them by layer).
+    """
+    from scipy.spatial import cKDTree
+
+    from spaceframe.tolerances import GEOMETRY_TOLERANCE
+
+    layers = [str(v) for v in model.marker_layers.tolist()]
+    picked = [k for k, name in enumerate(layers) if _is_support_layer(name)]
+    if not picked or model.n_nodes == 0:
+        return
+    tol = GEOMETRY_TOLERANCE if tolerance is None else float(tolerance)
+    dist, node = cKDTree(model.nodes).query(model.markers[picked])
+    far = np.flatnonzero(dist > tol)
+    if far.size:
+        k = picked[int(far[0])]
+        raise ReadError(
+            f"{where}: support point on layer {layers[k]!r} at "
+            f"({', '.join(f'{v:.6g}' for v in model.markers[k])}) m is "
+            f"{dist[far[0]]:.3g} m from the nearest node (tolerance {tol:.3g} m)"
+        )
+    for k, i in zip(picked, node.tolist(), strict=True):
+        name = layers[k]
+        held = _SUPPORT_LAYER.match(name)
+        if held:
+            dirs = held.group(1).lower()
+            model.add_support([i], x="x" in dirs, y="y" in dirs, z="z" in dirs)
+        else:
+            spring = _SPRING_LAYER.match(name)
+            assert spring is not None
+            model.add_spring([i], *(float(v) for v in spring.groups()))
+
+
 def _layer_name(name: str) -> str:
     from ezdxf.lldxf.validator import is_valid_layer_name
 
@@ -954,8 +1009,10 @@ def write(
     order); members in no group go on ``default_layer``.  Markers are POINT
     entities on their layers; panels are 3DFACE entities (MESH for more
     than four corners) on the layer of their first panel group, else on
-    ``panel_layer``.  Nodes no member uses, supports and loads are not part
-    of a drawing and are not written.
+    ``panel_layer``.  Supports are POINT entities at their nodes on
+    ``SUPPORT_<directions>`` layers, springs on ``SPRING_<kx>_<ky>_<kz>``
+    layers (N/m); :func:`read` turns them back into supports.  Nodes no
+    member uses and loads are not part of a drawing and are not written.
 
     Parameters
     ----------
@@ -1042,7 +1099,23 @@ def write(
 
     marker_xyz = (np.asarray(model.markers, dtype=float).reshape(-1, 3) / scale).tolist()
     for pt, lay in zip(marker_xyz, model.marker_layers.tolist(), strict=True):
+        if _is_support_layer(str(lay)):
+            continue  # a support read from a drawing: written below from the model's supports
         msp.add_point(pt, dxfattribs={"layer": layer(str(lay))})
+
+    # Supports: one point per node and kind, on a layer that names it.
+    held = np.flatnonzero(model.restraint.any(axis=1))
+    letters = np.array(list("XYZ"))
+    for i in held.tolist():
+        name = "SUPPORT_" + "".join(letters[model.restraint[i]])
+        if not doc.layers.has_entry(name):
+            doc.layers.add(name, color=3)
+        msp.add_point(xyz[i], dxfattribs={"layer": name})
+    for i in np.flatnonzero((model.springs > 0).any(axis=1)).tolist():
+        name = "SPRING_" + "_".join(repr(float(k)) for k in model.springs[i])
+        if not doc.layers.has_entry(name):
+            doc.layers.add(name, color=2)
+        msp.add_point(xyz[i], dxfattribs={"layer": name})
 
     panel_layer_idx = np.full(model.n_panels, -1, dtype=np.int64)
     pnames = list(model.panel_groups)

@@ -15,8 +15,13 @@ For every load case or combination written, the drawing gets:
 
 plus ``FRAME`` (the undeformed members) and ``SUPPORTS`` (a POINT at each
 supported node).  Only the first result's layers are on when the drawing
-opens; a drafter switches the others on as needed.  Coordinates are metres
-(``$INSUNITS`` = 6).
+opens; a drafter switches the others on as needed.
+
+Coordinates are in the units of the drawing the model was read from
+(``model.meta["units"]``), so that the results overlay it; for a model
+given inline in a model file, in that file's length unit
+(``model.meta["project:length_unit"]``); else metres.  ``$INSUNITS``,
+``$MEASUREMENT`` and the extents (``$EXTMIN``, ``$EXTMAX``) are set to match.
 """
 
 from __future__ import annotations
@@ -42,6 +47,7 @@ __all__ = [
     "COMPRESSION_COLORS",
     "TENSION_COLORS",
     "ZERO_COLOR",
+    "drawing_units",
     "force_bands",
     "layer_names",
     "write_results",
@@ -159,6 +165,33 @@ def _resolve_scale(option: float | str | None, results: Results, name: str) -> f
     return value
 
 
+#: Units written as imperial in ``$MEASUREMENT`` (0); all others metric (1).
+_IMPERIAL = frozenset({"inch", "ft", "mi", "microinch", "mil", "yd", "us_ft", "us_inch",
+                       "us_yd", "us_mi"})
+
+
+def drawing_units(results: Results, units: str | None = None,
+                  where: str = "results DXF") -> tuple[str, float, int]:
+    """(name, metres per unit, ``$INSUNITS`` code) the results drawing is written in.
+
+    ``units`` if given; else the source drawing's unit (``model.meta["units"]``);
+    else the model file's length unit (``model.meta["project:length_unit"]``);
+    else metres.
+    """
+    from spaceframe.io._common import INSUNITS, insunits_code
+
+    meta = results.model.meta
+    chosen = units
+    if chosen is None:
+        for key in ("units", "project:length_unit"):
+            entry = meta.get(key)
+            if entry and entry.get("name"):
+                chosen = str(entry["name"])
+                break
+    code, scale = insunits_code(chosen or "m", where=where)
+    return INSUNITS[code][0], scale, code
+
+
 def write_results(
     path: str | os.PathLike[str],
     results: Results,
@@ -167,6 +200,7 @@ def write_results(
     labels: bool = False,
     deformed_scale: float | str | None = "auto",
     dxfversion: str = "R2010",
+    units: str | None = None,
 ) -> Path:
     """Write a DXF drawing of the results (layers as in the module docstring).
 
@@ -185,6 +219,9 @@ def write_results(
         leaves the deformed layers out.
     dxfversion : str
         DXF release, R2004 or later (true colour needs it).
+    units : str, optional
+        Length unit of the drawing ("mm", "m", "ft", ...); default as in
+        :func:`drawing_units` (the source drawing's, else the model file's).
 
     Returns
     -------
@@ -215,16 +252,19 @@ def write_results(
     if not names:
         raise ModelError(f"{final}: there are no load cases or combinations to draw")
     scales = {name: _resolve_scale(deformed_scale, results, name) for name in names}
+    unit_name, per_unit, code = drawing_units(results, units, where=str(final))
     model = results.model
-    nodes = model.nodes
+    # Everything drawn is in drawing units from here on.
+    nodes = model.nodes / per_unit
     ends = model.members
-    lengths = model.lengths
+    lengths = model.lengths / per_unit
     text_height = 0.04 * float(np.median(lengths))
-    lo, hi = model.extents()
+    lo, hi = nodes.min(axis=0), nodes.max(axis=0)
+    ext_lo, ext_hi = lo.copy(), hi.copy()
 
     doc = ezdxf.new(dxfversion, setup=False)
-    doc.header["$INSUNITS"] = 6  # metres
-    doc.header["$MEASUREMENT"] = 1  # metric
+    doc.header["$INSUNITS"] = code
+    doc.header["$MEASUREMENT"] = 0 if unit_name in _IMPERIAL else 1
     msp = doc.modelspace()
     colors = {b: _band_color(b) for b in range(-BANDS, BANDS + 1)}
     attribs = {b: {"true_color": rgb2int(c), "color": _nearest_aci(c)} for b, c in colors.items()}
@@ -271,6 +311,9 @@ def write_results(
             for b in range(1, BANDS + 1)
         ]
         rows.insert(0, (0, f"{name}: axial force, tension positive"))
+        # The legend's box: strokes, then text of at most ~45 characters.
+        ext_lo = np.minimum(ext_lo, (x0, y0 - 1.6 * text_height * len(rows), z0))
+        ext_hi = np.maximum(ext_hi, (x0 + 5 * text_height + 45 * 0.8 * text_height, y0, z0))
         for k, (band, text) in enumerate(rows):
             y = y0 - 1.6 * text_height * k
             if k > 0:
@@ -306,7 +349,12 @@ def write_results(
             dlay = doc.layers.add(f"D_{tag}", color=6)
             dlay.description = f"deformed shape of {name}, displacements x {scale:.6g}"
             new_layers.append(dlay)
-            moved = nodes + scale * res.displacements
+            moved = nodes + scale * res.displacements / per_unit
+            ext_lo = np.minimum(ext_lo, moved.min(axis=0))
+            ext_hi = np.maximum(ext_hi, moved.max(axis=0))
+            # The note above the frame: ~60 characters.
+            ext_hi = np.maximum(ext_hi, (x0 + 60 * 0.8 * text_height,
+                                         float(hi[1]) + 3.0 * text_height, z0))
             for a, b in ends.tolist():
                 msp.add_line(moved[a], moved[b], dxfattribs={"layer": f"D_{tag}"})
             msp.add_text(
@@ -320,6 +368,9 @@ def write_results(
             for lay in new_layers:
                 lay.off()
 
+    # ezdxf copies the model space's extents into the header when saving.
+    msp.dxf.extmin = tuple(float(v) for v in ext_lo)
+    msp.dxf.extmax = tuple(float(v) for v in ext_hi)
     auditor = doc.audit()
     if auditor.has_errors:
         first = auditor.errors[0]

@@ -1,6 +1,7 @@
 """Results as CSV tables and a JSON summary, for spreadsheets and scripts.
 
-Four files, SI units throughout, the unit in each column name:
+Four files, SI units throughout, the unit in every column name (``[-]``
+for ids and text):
 
 - ``nodes.csv``: node, x/y/z [m], then per result ``<result>: ux [m]``, ``uy``,
   ``uz``, ``Rx [N]``, ``Ry``, ``Rz``
@@ -9,19 +10,26 @@ Four files, SI units throughout, the unit in each column name:
   ``<result>: N [N]`` (tension positive) and ``<result>: stress [Pa]``
 - ``reactions.csv``: supported and sprung nodes only: node, x/y/z, the
   restrained directions, then per result ``<result>: Rx [N]``, ``Ry``, ``Rz``
-- ``summary.json``: :func:`spaceframe.summary.summary`
+- ``summary.json``: :func:`spaceframe.summary.summary`, plus ``"tables"``
+  stating the precision of the CSV files
 
-Numbers are written with Python's shortest round-trip repr, so reading a
-file back gives the same float64 values.
+Precision: the model's own numbers (coordinates, lengths, areas, moduli)
+with :data:`INPUT_DIGITS` = 15 significant digits, so every value that was
+given with up to 15 digits (typed in a model file, drawn in a CAD program)
+reads back as given (ISO C ``DBL_DIG``: a decimal of 15 digits survives the
+trip through float64), without binary noise such as 0.30000000000000004;
+results with :data:`RESULT_DIGITS` = 7 significant digits by default (the
+solve is accepted at a relative equilibrium residual up to 1e-8, so further
+digits carry no information), or as many as asked for with ``digits=``
+(17 round-trips every float64 exactly).
 """
 
 from __future__ import annotations
 
-import csv
 import json
 import os
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -33,63 +41,111 @@ from spaceframe.summary import member_group_labels, summary, supported_nodes
 if TYPE_CHECKING:
     from spaceframe.results import Envelope, Results
 
-__all__ = ["FILES", "write"]
+__all__ = ["FILES", "INPUT_DIGITS", "RESULT_DIGITS", "write"]
 
 #: Names of the files written, in the order returned by :func:`write`.
 FILES = ("nodes.csv", "members.csv", "reactions.csv", "summary.json")
 
+#: Significant digits of the model's own numbers (coordinates, lengths, areas, E).
+INPUT_DIGITS = 15
+#: Default significant digits of results (displacements, forces, stresses, reactions).
+RESULT_DIGITS = 7
 
-def _columns(header: Sequence[str], columns: Sequence[Any]) -> tuple[list[str], list[list[Any]]]:
-    return list(header), [np.asarray(c).tolist() for c in columns]
+#: Rows formatted per chunk: bounded memory at any size.
+_CHUNK = 20_000
 
 
-def _write_csv(path: Path, header: list[str], columns: list[list[Any]]) -> None:
+class _Col:
+    """One table column: its values and how each is printed."""
+
+    def __init__(self, values: Any, kind: str, digits: int = INPUT_DIGITS) -> None:
+        arr = np.asarray(values)
+        self.kind = kind
+        self.values: np.ndarray
+        if kind == "int":
+            self.values, self.code = arr.astype(np.int64), "%d"
+        elif kind == "float":
+            # + 0.0 turns -0.0 into 0.0: no "-0" in a table.
+            self.values, self.code = arr.astype(np.float64) + 0.0, f"%.{int(digits)}g"
+        else:
+            self.values, self.code = np.array([_quote(str(v)) for v in arr.tolist()],
+                                              dtype=object), "%s"
+
+
+def _quote(text: str) -> str:
+    """A CSV field as the csv module writes it (RFC 4180 quoting when needed)."""
+    if any(c in text for c in ',"\r\n'):
+        return '"' + text.replace('"', '""') + '"'
+    return text
+
+
+def _ints(values: Any) -> _Col:
+    return _Col(values, "int")
+
+
+def _inputs(values: Any) -> _Col:
+    return _Col(values, "float", INPUT_DIGITS)
+
+
+def _texts(values: Any) -> _Col:
+    return _Col(values, "text")
+
+
+def _write_csv(path: Path, header: list[str], columns: list[_Col]) -> None:
+    # One printf-style format per row, applied to a chunk of rows at once:
+    # the formatting runs in C ("%" on one long format string), not in a
+    # Python loop per value, and memory stays bounded by the chunk.
+    row = ",".join(c.code for c in columns) + "\n"
+    n = len(columns[0].values) if columns else 0
     with path.open("w", newline="", encoding="utf-8") as fh:
-        writer = csv.writer(fh)
-        writer.writerow(header)
-        # zip over whole columns keeps the per-row work inside C (csv, zip).
-        writer.writerows(zip(*columns, strict=True))
+        fh.write(",".join(_quote(h) for h in header) + "\n")
+        for start in range(0, n, _CHUNK):
+            stop = min(start + _CHUNK, n)
+            parts = [c.values[start:stop].tolist() for c in columns]
+            flat = [v for rec in zip(*parts, strict=True) for v in rec]
+            fh.write((row * (stop - start)) % tuple(flat))
 
 
-def _node_table(results: Results) -> tuple[list[str], list[list[Any]]]:
+def _node_table(results: Results, digits: int) -> tuple[list[str], list[_Col]]:
     model = results.model
-    header = ["node", "x [m]", "y [m]", "z [m]"]
-    cols: list[Any] = [np.arange(model.n_nodes), *model.nodes.T]
+    header = ["node [-]", "x [m]", "y [m]", "z [m]"]
+    cols = [_ints(np.arange(model.n_nodes)), *(_inputs(c) for c in model.nodes.T)]
     for name, res in results.items():
         header += [f"{name}: u{a} [m]" for a in "xyz"] + [f"{name}: R{a} [N]" for a in "xyz"]
-        cols += [*res.displacements.T, *res.reactions.T]
-    return _columns(header, cols)
+        cols += [_Col(c, "float", digits) for c in (*res.displacements.T, *res.reactions.T)]
+    return header, cols
 
 
-def _member_table(results: Results) -> tuple[list[str], list[list[Any]]]:
+def _member_table(results: Results, digits: int) -> tuple[list[str], list[_Col]]:
     model = results.model
-    header = ["member", "node_i", "node_j", "group", "length [m]", "area [m2]", "E [Pa]"]
-    cols: list[Any] = [
-        np.arange(model.n_members),
-        model.members[:, 0],
-        model.members[:, 1],
-        member_group_labels(model),
-        model.lengths,
-        model.area,
-        model.E,
+    header = ["member [-]", "node_i [-]", "node_j [-]", "group [-]", "length [m]",
+              "area [m2]", "E [Pa]"]
+    cols = [
+        _ints(np.arange(model.n_members)),
+        _ints(model.members[:, 0]),
+        _ints(model.members[:, 1]),
+        _texts(member_group_labels(model)),
+        _inputs(model.lengths),
+        _inputs(model.area),
+        _inputs(model.E),
     ]
     for name, res in results.items():
         header += [f"{name}: N [N]", f"{name}: stress [Pa]"]
-        cols += [res.axial_forces, res.stress]
-    return _columns(header, cols)
+        cols += [_Col(res.axial_forces, "float", digits), _Col(res.stress, "float", digits)]
+    return header, cols
 
 
-def _reaction_table(results: Results) -> tuple[list[str], list[list[Any]]]:
+def _reaction_table(results: Results, digits: int) -> tuple[list[str], list[_Col]]:
     model = results.model
     held = supported_nodes(model)
-    header = ["node", "x [m]", "y [m]", "z [m]", "restrained"]
+    header = ["node [-]", "x [m]", "y [m]", "z [m]", "restrained [-]"]
     fixed = np.where(model.restraint[held], np.array(list("xyz"), dtype=object), "")
     restrained = fixed[:, 0] + fixed[:, 1] + fixed[:, 2]
-    cols: list[Any] = [held, *model.nodes[held].T, restrained]
+    cols = [_ints(held), *(_inputs(c) for c in model.nodes[held].T), _texts(restrained)]
     for name, res in results.items():
         header += [f"{name}: R{a} [N]" for a in "xyz"]
-        cols += [*res.reactions[held].T]
-    return _columns(header, cols)
+        cols += [_Col(c, "float", digits) for c in res.reactions[held].T]
+    return header, cols
 
 
 def _temp_name(final: Path) -> Path:
@@ -107,6 +163,7 @@ def write(
     *,
     prefix: str = "",
     extra: Mapping[str, Any] | None = None,
+    digits: int = RESULT_DIGITS,
 ) -> list[Path]:
     """Write the node, member and reaction tables and the JSON summary.
 
@@ -121,6 +178,9 @@ def write(
         More JSON-able top-level entries for ``summary.json`` (e.g. the model
         file as ``"source"``, a ``"title"``, ``"warnings"``); they may not
         replace a key of :func:`spaceframe.summary.summary`.
+    digits : int
+        Significant digits of the results in the CSV files (1 to 17; 17
+        round-trips every float64).
 
     Returns
     -------
@@ -144,7 +204,11 @@ def write(
         raise ModelError(f"tables in {out}: prefix {prefix!r} must not contain a folder")
     if len(results) == 0:
         raise ModelError(f"tables in {out}: there are no load cases or combinations to write")
+    if not 1 <= int(digits) <= 17:
+        raise ModelError(f"tables in {out}: digits={digits!r} must be 1 to 17")
     data = summary(results)
+    data["tables"] = {"significant_digits": {"model": INPUT_DIGITS, "results": int(digits)},
+                      "units": "SI, in each column name"}
     clash = sorted(set(extra or {}) & set(data))
     if clash:
         raise ModelError(f"tables in {out}: extra summary key {clash[0]!r} is already a "
@@ -157,7 +221,7 @@ def write(
         for (tmp, _), build in zip(
             pairs, (_node_table, _member_table, _reaction_table), strict=False
         ):
-            header, cols = build(results)
+            header, cols = build(results, int(digits))
             _write_csv(tmp, header, cols)
         # allow_nan=False: a NaN would make the file unreadable as strict JSON.
         pairs[3][0].write_text(json.dumps(data, indent=2, allow_nan=False) + "\n", encoding="utf-8")
@@ -169,7 +233,8 @@ def write(
 
 
 def write_envelopes(
-    folder: str | os.PathLike[str], results: Results, envelopes: Mapping[str, Envelope]
+    folder: str | os.PathLike[str], results: Results, envelopes: Mapping[str, Envelope],
+    *, digits: int = RESULT_DIGITS,
 ) -> list[Path]:
     """Write ``envelopes.csv``: per member and envelope the largest and smallest force.
 
@@ -190,18 +255,20 @@ def write_envelopes(
     if not envelopes:
         return []
     model = results.model
-    header = ["member", "node_i", "node_j", "group", "length [m]"]
-    cols: list[Any] = [np.arange(model.n_members), model.members[:, 0], model.members[:, 1],
-                       member_group_labels(model), model.lengths]
+    header = ["member [-]", "node_i [-]", "node_j [-]", "group [-]", "length [m]"]
+    cols = [_ints(np.arange(model.n_members)), _ints(model.members[:, 0]),
+            _ints(model.members[:, 1]), _texts(member_group_labels(model)),
+            _inputs(model.lengths)]
     for name, env in envelopes.items():
         header += [f"{name}: N max [N]", f"{name}: N min [N]",
                    f"{name}: stress max [Pa]", f"{name}: stress min [Pa]"]
-        cols += [env.axial_max, env.axial_min, env.axial_max / model.area,
-                 env.axial_min / model.area]
+        cols += [_Col(v, "float", digits) for v in (env.axial_max, env.axial_min,
+                                                     env.axial_max / model.area,
+                                                     env.axial_min / model.area)]
     final = Path(folder) / "envelopes.csv"
     tmp = _temp_name(final)
     try:
-        _write_csv(tmp, *_columns(header, cols))
+        _write_csv(tmp, header, cols)
         _commit([(tmp, final)])
     except BaseException:
         tmp.unlink(missing_ok=True)

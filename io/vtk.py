@@ -10,18 +10,24 @@ Arrays (SI units, tension positive):
 - point data: ``displacement`` (m), ``reaction`` (N), ``load`` (N),
   ``restraint`` (0/1 per axis), ``node_id``
 - cell data (members): ``member_id``, ``axial_force`` (N), ``stress`` (Pa),
-  ``strain`` (elastic, N/(EA)), ``group`` (index into ``group_names``, -1 for
+  ``strain`` (elastic, N/(EA)), ``group`` (an integer per member, -1 for
   none), ``length`` (m)
-- cell data (panels): ``panel_id``, ``panel_group`` (index into ``panel_group_names``)
-- field data: ``case_name``, ``result_kind``, ``factors`` (combinations
-  only), ``units``, ``group_names`` (when there are groups) as text,
-  ``case_index`` and ``auto_scale`` (the factor that draws the largest
-  displacement at 5 % of the model size, for a warp filter).
+- cell data (panels): ``panel_id``, ``panel_group`` (an integer per panel)
+- field data, the legends: one integer array per group whose *name* is the
+  legend entry and whose value is the group's number, ``group 0: chords``
+  = [0], ``group 1: diagonals`` = [1] ... (``panel_group 0: roof`` for
+  panels), and ``result: <name> (<kind>)`` = [case index]; any viewer that
+  lists arrays shows them as text.  :func:`group_legend` reads them back.
+- field data for scripts: ``case_name``, ``result_kind``, ``factors``
+  (combinations only) and ``units`` as UTF-8 text (below), ``case_index``
+  and ``auto_scale`` (the factor that draws the largest displacement at 5 %
+  of the model size, for a warp filter).
 
-Text in field data is stored as UTF-8 bytes in a ``uint8`` array, lists
+Text for scripts is stored as UTF-8 bytes in a ``uint8`` array, lists
 joined by NUL; :func:`decode_text` turns it back into strings.  VTK's own
-string arrays would be nicer in ParaView, but meshio's VTU reader rejects
-them, and the files must open with every common reader.
+string arrays would show in ParaView, but meshio's VTU reader rejects them
+("Illegal data type 'String'"), and the files must open with every common
+reader: hence the legends carry their text in array names.
 """
 
 from __future__ import annotations
@@ -44,7 +50,8 @@ if TYPE_CHECKING:
 
     from spaceframe.results import Results
 
-__all__ = ["UNITS", "decode_text", "encode_text", "member_grid", "panel_grid", "write"]
+__all__ = ["UNITS", "decode_text", "encode_text", "group_legend", "member_grid", "panel_grid",
+           "write"]
 
 #: Units of the arrays written, also stored in each file's field data.
 UNITS: dict[str, str] = {
@@ -78,6 +85,42 @@ def _set_text(grid: pyvista.DataSet, key: str, items: str | Sequence[str]) -> No
     # compressed arrays, and "absent" reads as "none" just as well.
     if data.size:
         grid.field_data[key] = data
+
+
+#: Characters kept out of legend array names: XML markup and separators
+#: that some readers split array names on.
+_LEGEND_UNSAFE = re.compile(r'[<>&"\x00-\x1f]')
+
+
+def _set_legend(grid: pyvista.DataSet, prefix: str, names: Sequence[str]) -> None:
+    for k, name in enumerate(names):
+        grid.field_data[f"{prefix} {k}: {_LEGEND_UNSAFE.sub('_', name)}"] = np.array(
+            [k], dtype=np.int64)
+
+
+def group_legend(field_data: Any, prefix: str = "group") -> list[str]:
+    """Group names by number from the legend arrays (``"<prefix> <k>: <name>"``).
+
+    Parameters
+    ----------
+    field_data : mapping
+        Field data of a grid written here (PyVista's ``field_data`` or
+        meshio's ``field_data``).
+    prefix : {"group", "panel_group"}
+
+    Returns
+    -------
+    list of str
+        Name of group 0, 1, ... (characters ``<>&"`` and control characters
+        shown as ``_``).
+    """
+    pattern = re.compile(rf"^{re.escape(prefix)} (\d+): (.*)$", re.DOTALL)
+    found: dict[int, str] = {}
+    for key in field_data.keys():
+        hit = pattern.match(str(key))
+        if hit:
+            found[int(hit.group(1))] = hit.group(2)
+    return [found[k] for k in sorted(found)]
 
 
 def _safe_name(name: str) -> str:
@@ -119,7 +162,7 @@ def member_grid(results: Results, name: str) -> pyvista.UnstructuredGrid:
     grid.cell_data["strain"] = res.axial_forces / (model.E * model.area)
     grid.cell_data["group"] = group
     grid.cell_data["length"] = model.lengths
-    _set_text(grid, "group_names", group_names)
+    _set_legend(grid, "group", group_names)
     return grid
 
 
@@ -151,7 +194,7 @@ def panel_grid(results: Results, name: str) -> pyvista.UnstructuredGrid:
     group, group_names = panel_group_index(model)
     grid.cell_data["panel_id"] = np.arange(n_pan, dtype=np.int64)
     grid.cell_data["panel_group"] = group
-    _set_text(grid, "panel_group_names", group_names)
+    _set_legend(grid, "panel_group", group_names)
     return grid
 
 
@@ -167,7 +210,10 @@ def _add_point_data(grid: pyvista.UnstructuredGrid, results: Results, name: str)
     _set_text(grid, "result_kind", res.kind)
     _set_text(grid, "factors", [f"{k}={v!r}" for k, v in res.factors.items()])
     _set_text(grid, "units", [f"{k}={v}" for k, v in UNITS.items()])
-    grid.field_data["case_index"] = np.array([list(results).index(name)], dtype=np.int64)
+    index = list(results).index(name)
+    grid.field_data["case_index"] = np.array([index], dtype=np.int64)
+    label = _LEGEND_UNSAFE.sub("_", f"result: {name} ({res.kind})")
+    grid.field_data[label] = np.array([index], dtype=np.int64)
     grid.field_data["auto_scale"] = np.array([auto_scale(model, res.displacements)])
 
 

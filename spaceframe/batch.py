@@ -173,10 +173,13 @@ def check(
     progress("check")
     lo, hi = m.extents()
     heal = m.meta.get("heal:report")
-    # Locations in the drawing's own units, so the drafter can find them.
     drawn: dict[str, Any] = m.meta.get("units") or {"name": "m", "scale": 1.0}
+    # One length unit per report: the model file's (metres for a bare drawing).
+    from spaceframe.report import length_unit
+
+    unit_name, unit_scale = length_unit(m)
     healing = (
-        [s.format(scale=drawn["scale"], unit=drawn["name"]) for s in heal.steps]
+        [s.format(scale=unit_scale, unit=unit_name) for s in heal.steps]
         if heal is not None
         else []
     )
@@ -582,11 +585,16 @@ def run(
     output: str | os.PathLike[str] | None = None,
     *,
     solver: str = "auto",
-    pictures: bool = True,
+    pictures: bool | str = True,
     progress: Progress = _noop,
     force: bool = False,
 ) -> RunOutcome:
     """Solve a model file and write every result into an output folder.
+
+    ``pictures``: False for no pictures and no report; True for pictures of
+    the combinations and envelopes (or of the load cases when there are
+    neither); or a choice of :func:`spaceframe.viewer.select_cases`
+    ("all", "none", names separated by commas).
 
     The folder is built under a temporary name beside the final one and
     swapped in when complete: a failed or killed run leaves the old results or
@@ -665,7 +673,7 @@ def _write_outputs(
     folder: Path,
     results: Results,
     loaded: Loaded,
-    pictures: bool,
+    pictures: bool | str,
     progress: Progress,
     extra: dict[str, Any],
 ) -> list[Path]:
@@ -686,11 +694,18 @@ def _write_outputs(
         progress("write VTK")
         files.append(Path(vtk.write(folder / "vtk", results)))
         if pictures:
-            from spaceframe import report
+            from spaceframe import report, viewer
 
+            envelopes = (loaded.project.envelope_results(results)
+                         if loaded.project is not None else {})
+            drawable = viewer.with_envelopes(results, envelopes)
+            chosen = viewer.select_cases(drawable, "combinations" if pictures is True
+                                         else str(pictures))
             progress("render pictures")
-            pics = [Path(p) for p in report.write_pictures(folder / "pictures", results)]
-            charts = [Path(p) for p in report.write_charts(folder / "pictures", results)]
+            pics = [Path(p) for p in report.write_pictures(
+                folder / "pictures", drawable, cases=chosen, progress=progress)]
+            charts = [Path(p) for p in report.write_charts(folder / "pictures", drawable,
+                                                           cases=chosen)]
             progress("write report")
             files += pics + charts
             files.append(

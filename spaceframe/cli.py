@@ -82,6 +82,10 @@ def build_parser() -> argparse.ArgumentParser:
                    "other files are kept; the model file's own folder is always refused)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--no-pictures", action="store_true", help="skip pictures and report")
+    p.add_argument("--pictures", default="combinations", metavar="WHICH",
+                   help="results that get pictures: combinations (default: the combinations "
+                        "and envelopes, or the load cases when there are none), all, none, "
+                        "or result names separated by commas")
 
     from spaceframe.demos import DEMOS
 
@@ -263,8 +267,8 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
     ctx, progress = out.progress()
     with ctx:
         outcome = batch.run(args.model, args.output, solver=args.solver,
-                            pictures=not args.no_pictures, progress=progress,
-                            force=args.force)
+                            pictures=False if args.no_pictures else args.pictures,
+                            progress=progress, force=args.force)
     if args.json:
         print(json.dumps(outcome.summary, indent=2))
         return 0
@@ -322,7 +326,10 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
         w, h = (int(v) for v in args.size.lower().split("x"))
     except ValueError:
         raise ProjectError(f"--size {args.size!r}: expected WIDTHxHEIGHT, e.g. 1600x1000") from None
-    results = batch.load(path).solve()
+    loaded = batch.load(path)
+    results = loaded.solve()
+    if loaded.project is not None:  # envelopes too, as in the results folder's pictures
+        results = viewer.with_envelopes(results, loaded.project.envelope_results(results))
     case = args.case or next(iter(results))
     if case not in results:
         raise ProjectError(f"--case {case!r}: no such case (have: {', '.join(results)})")

@@ -840,11 +840,6 @@ class Model:
         members : (k,) int, optional
             Only these members (default all).
         """
-        if isinstance(g, bool) or not isinstance(g, int | float) or not (np.isfinite(g) and g > 0):
-            raise ModelError(
-                f"add_self_weight({case!r}): g = {g!r} must be a positive acceleration "
-                "(self-weight acts along -z; use nodal loads for any other direction)"
-            )
         ids = (
             np.arange(self.n_members)
             if members is None

@@ -1246,6 +1246,9 @@ def _build(spec: _Spec) -> Project:
                 envelopes[f"{label} envelope"] = members
 
     model.meta["project:file"] = str(spec.path)
+    # The model file's length unit: reports and the results drawing use it.
+    model.meta["project:length_unit"] = {"name": spec.units.names.get("length", "m"),
+                                         "scale": float(spec.units.factors.get("length", 1.0))}
     model.meta.setdefault("source", str(geo.file) if geo.file else str(spec.path))
     own += [f"{name}: {text}" for text in notes]
     for w in captured:

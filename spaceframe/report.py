@@ -1,14 +1,15 @@
 """Pictures, charts and a self-contained HTML report of a run.
 
 The report is one HTML file with inline styles and no scripts or network
-resources.  Pictures and charts are referenced by relative path (so write
-them into the report's folder or below it, e.g. with :func:`write_pictures`
-and :func:`write_charts`), or embedded as base64 data URIs with
-``embed_images=True`` when a single file is to be sent on.
+resources.  Pictures and charts are embedded as base64 data URIs (the
+default), so the one file can be mailed; with ``embed_images=False`` they
+are referenced by relative path instead.
 
 Display units in the report: mm for displacements, kN for forces, MPa for
-stresses, m for lengths, kg for masses; numbers with four significant
-figures (:func:`spaceframe.summary.format_number`).
+stresses, kg for masses, and for lengths and positions (healing locations
+included) one unit throughout, the model file's length unit
+(:func:`length_unit`, metres when it sets none); numbers with four
+significant figures (:func:`spaceframe.summary.format_number`).
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ import html
 import os
 import re
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from pathlib import Path
 from string import Template
 from typing import TYPE_CHECKING, Any
@@ -36,7 +37,10 @@ if TYPE_CHECKING:
 
 __all__ = [
     "CAUTION",
+    "ZERO_FORCE_FRACTION",
+    "force_scale",
     "format_number",
+    "length_unit",
     "summary",
     "write_charts",
     "write_pictures",
@@ -48,6 +52,46 @@ CAUTION = (
     "Results must be checked by a qualified engineer; local codes and licensed "
     "practice govern."
 )
+
+#: Member forces below this fraction of the model's force scale
+#: (:func:`force_scale`) are drawn as zero: the solve itself is accepted with
+#: a relative equilibrium error up to RESIDUAL_TOLERANCE, so a smaller force
+#: cannot be told from round-off.
+ZERO_FORCE_FRACTION = RESIDUAL_TOLERANCE
+
+
+def force_scale(results: Results) -> float:
+    """The model's force scale, N: the largest force that any of its results involves.
+
+    The largest of |member force|, |applied load| and |reaction| over all
+    results, and of the force EA e / L that each member's free elongation e
+    (temperature, lack of fit) would cause if it were fully restrained: a
+    freely expanding frame carries no force, yet its scale is that of the
+    forces its restraint would give.
+    """
+    model = results.model
+    top = 0.0
+    ea_l = np.divide(model.E * model.area, model.lengths,
+                     out=np.zeros(model.n_members), where=model.lengths > 0)
+    for res in results.values():
+        elastic = res.axial_forces / np.where(ea_l > 0, ea_l, np.inf)
+        free = res.elongations - elastic
+        parts = (res.axial_forces, res.loads, res.reactions, ea_l * free)
+        top = max(top, *(float(np.abs(np.nan_to_num(a)).max(initial=0.0)) for a in parts))
+    return top
+
+
+def length_unit(model: Any) -> tuple[str, float]:
+    """(name, metres per unit) of the report's one length unit: the model file's.
+
+    ``model.meta["project:length_unit"]`` when the model came from a model
+    file that sets ``[units] length``, else metres.
+    """
+    unit = model.meta.get("project:length_unit") if hasattr(model, "meta") else None
+    if unit:
+        return str(unit["name"]), float(unit["scale"])
+    return "m", 1.0
+
 
 _SAFE = re.compile(r"[^A-Za-z0-9_.+-]+")
 
@@ -89,6 +133,7 @@ def write_pictures(
     cases: Sequence[str] | None = None,
     size: Sequence[int] = (1200, 800),
     color_by: str = "axial_force",
+    progress: Callable[[str], None] | None = None,
 ) -> list[Path]:
     """One PNG per result and view, rendered off-screen: ``<result>_<view>.png``.
 
@@ -103,6 +148,8 @@ def write_pictures(
     size : (2,) int
         Picture width and height, pixels.
     color_by : {"axial_force", "stress", "displacement", "group"}
+    progress : callable, optional
+        Called with "pictures k/n" before each picture.
 
     Returns
     -------
@@ -112,7 +159,7 @@ def write_pictures(
     from spaceframe import viewer
 
     return viewer.screenshots(folder, results, cases=cases, views=views, size=size,
-                              color_by=color_by)
+                              color_by=color_by, progress=progress)
 
 
 # ------------------------------------------------------------------- charts
@@ -128,6 +175,10 @@ def write_charts(
     - ``<result>_members.png``: bar chart of the ``top`` members with the
       largest absolute axial force, red for tension, blue for compression.
     - ``<result>_groups.png``: histogram of axial forces, stacked by group.
+
+    Forces up to :data:`ZERO_FORCE_FRACTION` of :func:`force_scale` count as
+    zero; a result whose members all carry none gets charts that say
+    "no member force" instead of bars of round-off.
 
     Returns
     -------
@@ -153,44 +204,63 @@ def write_charts(
         groups.append((label, np.flatnonzero(~in_group)))
     paths: list[Path] = []
     used: set[str] = set()  # "heat x" and "heat_x" must not share a file
+    zero = ZERO_FORCE_FRACTION * force_scale(results)
     for name in names:
         stem, n = _safe(name), 2
         while stem.lower() in used:
             stem, n = f"{_safe(name)}_{n}", n + 1
         used.add(stem.lower())
         res = results[name]
-        kn = res.axial_forces / 1e3
-        k = min(int(top), kn.size)
+        # Round-off is not a force: below the threshold a member carries none.
+        forces = np.where(np.abs(res.axial_forces) <= zero, 0.0, res.axial_forces)
+        kn = forces / 1e3
+        k = min(int(top), int(np.count_nonzero(kn)))
         order = np.argsort(-np.abs(kn), kind="stable")[:k]
+        none_note = (f"no member force (every |N| <= {format_number(zero / 1e3, 2)} kN, "
+                     f"{ZERO_FORCE_FRACTION:.0e} of the model's force scale)")
 
         # Figure() without pyplot: no global backend or window state (Agg canvas).
         fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
         ax = fig.add_subplot()
-        colors = np.where(kn[order] >= 0, "#c8281e", "#2a4fbf")
-        ax.bar(np.arange(k), kn[order], color=colors)
-        ax.set_xticks(np.arange(k), [str(int(i)) for i in order], rotation=90, fontsize=8)
-        ax.axhline(0.0, color="black", linewidth=0.8)
         ax.set_xlabel("member")
         ax.set_ylabel("axial force [kN] (tension +)")
-        ax.set_title(f"{name}: {k} most loaded members")
+        if k == 0:
+            _no_force(ax, none_note)
+            ax.set_title(f"{name}: no member force")
+        else:
+            colors = np.where(kn[order] >= 0, "#c8281e", "#2a4fbf")
+            ax.bar(np.arange(k), kn[order], color=colors)
+            ax.set_xticks(np.arange(k), [str(int(i)) for i in order], rotation=90, fontsize=8)
+            ax.axhline(0.0, color="black", linewidth=0.8)
+            ax.set_title(f"{name}: {k} most loaded members")
         paths.append(_save_figure(fig, out / f"{stem}_members.png"))
 
         fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
         ax = fig.add_subplot()
-        lo, hi = float(kn.min(initial=0.0)), float(kn.max(initial=0.0))
-        if hi - lo <= 0:
-            lo, hi = lo - 1.0, hi + 1.0
-        bins = np.linspace(lo, hi, 31).tolist()
-        ax.hist([kn[ids] for _, ids in groups], bins=bins, stacked=True,
-                label=[g for g, _ in groups])
-        ax.axvline(0.0, color="black", linewidth=0.8)
         ax.set_xlabel("axial force [kN] (tension +)")
         ax.set_ylabel("members")
-        ax.yaxis.set_major_locator(MaxNLocator(integer=True))
-        ax.set_title(f"{name}: axial forces by group")
-        ax.legend(fontsize=8)
+        if k == 0:
+            _no_force(ax, none_note)
+            ax.set_title(f"{name}: no member force")
+        else:
+            lo, hi = float(kn.min(initial=0.0)), float(kn.max(initial=0.0))
+            bins = np.linspace(lo, hi, 31).tolist()
+            ax.hist([kn[ids] for _, ids in groups], bins=bins, stacked=True,
+                    label=[g for g, _ in groups])
+            ax.axvline(0.0, color="black", linewidth=0.8)
+            ax.yaxis.set_major_locator(MaxNLocator(integer=True))
+            ax.set_title(f"{name}: axial forces by group")
+            ax.legend(fontsize=8)
         paths.append(_save_figure(fig, out / f"{stem}_groups.png"))
     return paths
+
+
+def _no_force(ax: Any, note: str) -> None:
+    """An empty chart that says so, with no round-off axis."""
+    ax.text(0.5, 0.5, note, ha="center", va="center", transform=ax.transAxes, fontsize=11,
+            wrap=True)
+    ax.set_xticks([])
+    ax.set_yticks([])
 
 
 # ------------------------------------------------------------------- report
@@ -261,15 +331,13 @@ def _image_src(path: Path, folder: Path, embed: bool, what: str) -> str:
     return quote(rel)
 
 
-def _heal_section(heal: Any, units: dict[str, Any] | None) -> str:
-    """The healing steps as a table, locations in the drawing's own units."""
+def _heal_section(heal: Any, unit: str, scale: float) -> str:
+    """The healing steps as a table, locations in the report's length unit."""
     if heal is None:
         return "<p>No healing report: the geometry was used as given.</p>"
     steps = getattr(heal, "steps", None)
     if not steps:
         return f"<pre>{_e(heal)}</pre>"
-    scale = float(units["scale"]) if units else 1.0
-    unit = str(units["name"]) if units else "m"
     rows = [
         [st.name, "skipped" if getattr(st, "skipped", False) else st.count,
          st.format(scale=scale, unit=unit).split(": ", 1)[-1]]
@@ -288,7 +356,7 @@ def write_report(
     pictures: Sequence[str | os.PathLike[str]] = (),
     charts: Sequence[str | os.PathLike[str]] = (),
     job: Mapping[str, Any] | None = None,
-    embed_images: bool = False,
+    embed_images: bool = True,
     n_critical: int = 10,
 ) -> Path:
     """Write a self-contained HTML report of the run.
@@ -301,16 +369,17 @@ def write_report(
     title : str
     heal_report : object, optional
         What geometry healing did, shown as a table of its steps with locations
-        in the drawing's units (``model.meta["units"]``); default
+        in the report's length unit (:func:`length_unit`); default
         ``model.meta["heal:report"]``.
     warnings : iterable
         Warning texts or ``warnings.WarningMessage`` objects to list.
     pictures, charts : sequence of path-like
-        PNG files to show, referenced by path relative to the report.
+        PNG files to show.
     job : mapping, optional
         Extra lines for the job table (e.g. project, engineer, revision).
     embed_images : bool
-        Embed the images as data URIs instead of referencing them.
+        Embed the images as data URIs (default), so that the report is one
+        self-contained file; False references them by relative path.
     n_critical : int
         How many governing members to list.
 
@@ -344,6 +413,11 @@ def write_report(
     s = summary(results, n_critical=n_critical)
     m = s["model"]
     heal = heal_report if heal_report is not None else model.meta.get("heal:report")
+    unit, per_unit = length_unit(model)
+
+    def ln(v: float) -> str:
+        return format_number(v / per_unit)
+
     sections: list[str] = []
 
     from spaceframe import __version__
@@ -367,16 +441,16 @@ def write_report(
         ("restrained directions x / y / z", f"{rd['x']} / {rd['y']} / {rd['z']}"),
         ("nodes on springs", m["sprung_nodes"]),
         ("load panels", m["panels"]),
-        ("size (bounding-box diagonal) [m]", format_number(m["size"])),
-        ("total member length [m]", format_number(m["total_length"])),
+        (f"size (bounding-box diagonal) [{unit}]", ln(m["size"])),
+        (f"total member length [{unit}]", ln(m["total_length"])),
         ("total member mass [kg]", format_number(m["total_mass"])),
     ]
     parts = ["<h2>Model</h2>", _table(["quantity", "value"], numbers)]
     if m["groups"]:
         parts.append("<h3>Member groups</h3>")
         parts.append(_table(
-            ["group", "members", "length [m]", "mass [kg]"],
-            [(g, v["members"], format_number(v["length"]), format_number(v["mass"]))
+            ["group", "members", f"length [{unit}]", "mass [kg]"],
+            [(g, v["members"], ln(v["length"]), format_number(v["mass"]))
              for g, v in m["groups"].items()],
         ))
     if m["node_sets"]:
@@ -403,7 +477,7 @@ def write_report(
     sections.append("\n".join(parts))
 
     sections.append(
-        "<h2>Model healing</h2>\n" + _heal_section(heal, model.meta.get("units"))
+        "<h2>Model healing</h2>\n" + _heal_section(heal, unit, per_unit)
     )
 
     rows = []
@@ -414,13 +488,13 @@ def write_report(
             r["kind"],
             format_number(d["value"] * 1e3),
             d["node"],
-            ", ".join(format_number(v) for v in d["position"]),
+            ", ".join(ln(v) for v in d["position"]),
             *_member_cells(r["max_tension"]),
             *_member_cells(r["max_compression"]),
             format_number(r["max_abs_stress"]["value"] / 1e6),
         ])
     sections.append("<h2>Results summary</h2>\n" + _table(
-        ["result", "kind", "max |u| [mm]", "node", "at (x, y, z) [m]",
+        ["result", "kind", "max |u| [mm]", "node", f"at (x, y, z) [{unit}]",
          "max tension [kN]", "member", "group", "max compression [kN]", "member", "group",
          "max |stress| [MPa]"],
         rows, text_cols=2,
@@ -447,14 +521,14 @@ def write_report(
 
     crit = [
         (c["member"], f"{c['nodes'][0]}-{c['nodes'][1]}", ", ".join(c["groups"]) or "-",
-         format_number(c["length"]), c["result"], _kn(c["force"]),
+         ln(c["length"]), c["result"], _kn(c["force"]),
          format_number(c["stress"] / 1e6))
         for c in s["critical_members"]
     ]
     sections.append(
         "<h2>Critical members</h2>\n<p>Members with the largest absolute axial force over "
         "all load cases and combinations.</p>\n"
-        + _table(["member", "nodes", "group", "length [m]", "governing result",
+        + _table(["member", "nodes", "group", f"length [{unit}]", "governing result",
                   "N [kN]", "stress [MPa]"], crit, text_cols=0)
     )
 

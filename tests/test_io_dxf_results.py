@@ -150,3 +150,51 @@ def test_layer_names_unique_without_case() -> None:
     tags = dr.layer_names(m.solve())
     assert tags["snow"] == "snow" and tags["Snow"] == "Snow_2"
     assert tags["wind:+x"] == "wind_+x"
+
+
+def _frame_points(doc: ezdxf.document.Drawing) -> np.ndarray:
+    return np.array([[*ln.dxf.start, *ln.dxf.end] for ln in _lines(doc, "FRAME")]).reshape(-1, 3)
+
+
+def test_written_in_the_source_drawings_units(tmp_path: Path, results: sf.Results) -> None:
+    # The model came from a drawing in millimetres: the results overlay it 1:1.
+    results.model.meta["units"] = {"name": "mm", "scale": 1e-3, "source": "$INSUNITS = 4"}
+    doc = ezdxf.readfile(dr.write_results(tmp_path / "mm.dxf", results))
+    assert doc.header["$INSUNITS"] == 4  # DXF reference: 4 = millimetres
+    assert doc.header["$MEASUREMENT"] == 1
+    model = results.model
+    pts = _frame_points(doc)
+    expected = np.concatenate([model.nodes[model.members[:, 0]],
+                               model.nodes[model.members[:, 1]]], axis=1).reshape(-1, 3) * 1e3
+    np.testing.assert_allclose(pts, expected, rtol=1e-12, atol=1e-9)
+    lo, hi = np.array(doc.header["$EXTMIN"]), np.array(doc.header["$EXTMAX"])
+    assert np.all(lo <= model.nodes.min(axis=0) * 1e3 + 1e-9)
+    assert np.all(hi >= model.nodes.max(axis=0) * 1e3 - 1e-9)
+    # Every entity lies inside the declared extents (ezdxf's own bounding boxes).
+    from ezdxf import bbox
+
+    box = bbox.extents(doc.modelspace())
+    assert np.all(np.asarray(box.extmin)[:2] >= lo[:2] - 1e-6 * np.ptp(pts))
+    assert np.all(np.asarray(box.extmax)[:2] <= hi[:2] + 1e-6 * np.ptp(pts))
+    # Deformed shape, displacements converted to mm as well: the automatic scale
+    # draws the apex drop (closed form, compatibility) at 5 % of the diagonal.
+    size = float(np.linalg.norm(np.ptp(model.nodes, axis=0)))
+    apex = max((ln.dxf.start for ln in _lines(doc, "D_snow")), key=lambda v: v[2])
+    assert apex[2] == pytest.approx((H_APEX - 0.05 * size) * 1e3, rel=1e-9)
+
+
+def test_inline_model_in_the_model_files_unit(tmp_path: Path, results: sf.Results) -> None:
+    results.model.meta["project:length_unit"] = {"name": "ft", "scale": 0.3048}
+    doc = ezdxf.readfile(dr.write_results(tmp_path / "ft.dxf", results))
+    assert doc.header["$INSUNITS"] == 2  # feet
+    assert doc.header["$MEASUREMENT"] == 0  # imperial
+    z = _frame_points(doc)[:, 2].max()
+    assert z == pytest.approx(H_APEX / 0.3048, rel=1e-12)
+    # Explicit choice wins, and the default without any unit is metres.
+    doc = ezdxf.readfile(dr.write_results(tmp_path / "cm.dxf", results, units="cm"))
+    assert doc.header["$INSUNITS"] == 5
+    assert _frame_points(doc)[:, 2].max() == pytest.approx(H_APEX * 100, rel=1e-12)
+    del results.model.meta["project:length_unit"]
+    doc = ezdxf.readfile(dr.write_results(tmp_path / "m.dxf", results))
+    assert doc.header["$INSUNITS"] == 6
+    assert _frame_points(doc)[:, 2].max() == pytest.approx(H_APEX, rel=1e-12)

@@ -51,36 +51,39 @@ def test_files_written(tmp_path: Path, results: sf.Results) -> None:
 def test_nodes_table(tmp_path: Path, results: sf.Results) -> None:
     nodes = tables.write(tmp_path, results)[0]
     header = _header(nodes)
-    assert header[:4] == ["node", "x [m]", "y [m]", "z [m]"]
+    assert header[:4] == ["node [-]", "x [m]", "y [m]", "z [m]"]
     assert header[4:10] == ["snow: ux [m]", "snow: uy [m]", "snow: uz [m]",
                             "snow: Rx [N]", "snow: Ry [N]", "snow: Rz [N]"]
     assert len(header) == 4 + 6 * 3
     data = _numbers(nodes, header)
     np.testing.assert_array_equal(data[:, 0], np.arange(4))
-    np.testing.assert_array_equal(data[:, 1:4], results.model.nodes)  # repr round-trips
+    # 15 digits: coordinates come back as given (to the last float64 bit or two).
+    np.testing.assert_allclose(data[:, 1:4], results.model.nodes, rtol=5e-15, atol=1e-15)
     for name in results:
         cols = [f"{name}: u{a} [m]" for a in "xyz"]
-        np.testing.assert_array_equal(_numbers(nodes, cols), results[name].displacements)
+        # 7 significant digits: half a unit of the 7th digit at most.
+        np.testing.assert_allclose(_numbers(nodes, cols), results[name].displacements,
+                                   rtol=5e-7, atol=1e-22)
     # Closed form (compatibility of the symmetric tripod): apex drop W L³ / (3 h² E A).
     uz = _numbers(nodes, ["snow: uz [m]"])[3, 0]
-    assert uz == pytest.approx(-W * L_LEG**3 / (3 * H_APEX**2 * E * AREA), rel=1e-10)
+    assert uz == pytest.approx(-W * L_LEG**3 / (3 * H_APEX**2 * E * AREA), rel=5e-7)
 
 
 def test_members_table(tmp_path: Path, results: sf.Results) -> None:
     members = tables.write(tmp_path, results)[1]
     header = _header(members)
-    assert header[:7] == ["member", "node_i", "node_j", "group", "length [m]", "area [m2]",
-                          "E [Pa]"]
+    assert header[:7] == ["member [-]", "node_i [-]", "node_j [-]", "group [-]", "length [m]",
+                          "area [m2]", "E [Pa]"]
     with members.open(newline="", encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
-    assert [r["group"] for r in rows] == ["legs, main;north", "legs, main", "legs, main"]
-    ends = _numbers(members, ["node_i", "node_j"])
+    assert [r["group [-]"] for r in rows] == ["legs, main;north", "legs, main", "legs, main"]
+    ends = _numbers(members, ["node_i [-]", "node_j [-]"])
     np.testing.assert_array_equal(ends, results.model.members)
     # Closed form, joint equilibrium of the apex under W: N = -W L / (3 h).
     n_snow = _numbers(members, ["snow: N [N]"])[:, 0]
-    np.testing.assert_allclose(n_snow, -W * L_LEG / (3 * H_APEX), rtol=1e-10)
+    np.testing.assert_allclose(n_snow, -W * L_LEG / (3 * H_APEX), rtol=5e-7)
     stress = _numbers(members, ["snow+wind: stress [Pa]"])[:, 0]
-    np.testing.assert_array_equal(stress, results["snow+wind"].stress)
+    np.testing.assert_allclose(stress, results["snow+wind"].stress, rtol=5e-7)
     np.testing.assert_allclose(_numbers(members, ["length [m]"])[:, 0], L_LEG, rtol=1e-14)
 
 
@@ -88,16 +91,18 @@ def test_reactions_table_lists_supports_only(tmp_path: Path, results: sf.Results
     reactions = tables.write(tmp_path, results)[2]
     with reactions.open(newline="", encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
-    assert [int(r["node"]) for r in rows] == [0, 1, 2]
-    assert {r["restrained"] for r in rows} == {"xyz"}
+    assert [int(r["node [-]"]) for r in rows] == [0, 1, 2]
+    assert {r["restrained [-]"] for r in rows} == {"xyz"}
     rz = _numbers(reactions, ["snow: Rz [N]"])[:, 0]
     # Closed form: by symmetry each foot carries a third of W.
-    np.testing.assert_allclose(rz, W / 3, rtol=1e-10)
+    np.testing.assert_allclose(rz, W / 3, rtol=5e-7)
 
 
 def test_summary_json_matches_summary(tmp_path: Path, results: sf.Results) -> None:
     path = tables.write(tmp_path, results)[3]
     data = json.loads(path.read_text(encoding="utf-8"))
+    assert data.pop("tables") == {"significant_digits": {"model": 15, "results": 7},
+                                  "units": "SI, in each column name"}
     assert data == json.loads(json.dumps(summary(results)))
     d = data["results"]["snow"]["max_displacement"]["value"]
     assert d == pytest.approx(W * L_LEG**3 / (3 * H_APEX**2 * E * AREA), rel=1e-10)
@@ -130,3 +135,44 @@ def test_bad_prefix_and_empty_results(tmp_path: Path, results: sf.Results) -> No
     with pytest.raises(sf.ModelError, match="no load cases"):
         tables.write(tmp_path, sf.Results(results.model, {}))
     assert list(tmp_path.iterdir()) == []
+
+
+def _raw_fields(path: Path) -> list[list[str]]:
+    with path.open(newline="", encoding="utf-8") as fh:
+        return list(csv.reader(fh))
+
+
+def test_every_header_has_a_unit(tmp_path: Path, results: sf.Results) -> None:
+    paths = tables.write(tmp_path, results)[:3]
+    env = results.envelope("all", list(results))
+    paths += tables.write_envelopes(tmp_path, results, {"all": env})
+    for path in paths:
+        for name in _header(path):
+            assert name.endswith("]") and " [" in name, (path.name, name)
+
+
+def test_stated_precision(tmp_path: Path) -> None:
+    # A fictional bar drawn with coordinates that are not exact in binary
+    # (0.1 + 0.2 is 0.30000000000000004 in float64).
+    m = sf.Model()
+    m.add_nodes([[0.0, 0.0, 0.0], [0.1 + 0.2, 0.0, 0.0], [0.0, 0.7, 0.0]])
+    m.add_members([[0, 1], [0, 2], [1, 2]], area=AREA, E=E)
+    m.add_support([0])
+    m.add_support([1], x=False)
+    m.add_support([2], x=False, y=False)
+    m.add_load("pull", [2], (1000.0 / 3.0, 0.0, 0.0))
+    res = m.solve()
+    nodes, members = tables.write(tmp_path, res)[:2]
+    rows = _raw_fields(nodes)
+    col = rows[0].index("x [m]")
+    assert rows[2][col] == "0.3"  # 15 digits: as given, without the binary noise
+    for row in _raw_fields(members)[1:]:
+        for field in row[7:]:
+            mantissa = field.lower().split("e")[0].lstrip("-").replace(".", "").lstrip("0")
+            assert len(mantissa) <= 7, field
+    # digits=17 round-trips every float64 exactly.
+    exact = tables.write(tmp_path / "exact", res, digits=17)[1]
+    n = _numbers(exact, ["pull: N [N]"])[:, 0]
+    np.testing.assert_array_equal(n, res["pull"].axial_forces)
+    with pytest.raises(sf.ModelError, match="digits=0"):
+        tables.write(tmp_path / "bad", res, digits=0)

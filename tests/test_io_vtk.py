@@ -94,7 +94,13 @@ def test_meshio_reads_every_array(written: Path, results: sf.Results) -> None:
                                    rtol=1e-14)
         np.testing.assert_allclose(cd["length"], model.lengths, rtol=1e-15)
         np.testing.assert_array_equal(cd["group"], [0] * 7 + [1] * 8 + [2])
-        assert _text(mesh.field_data["group_names"]) == ["chords", "diagonals", "ridge"]
+        # The legend is in the arrays' names: readable in any viewer's array list.
+        assert sfvtk.group_legend(mesh.field_data) == ["chords", "diagonals", "ridge"]
+        assert [int(mesh.field_data[f"group {k}: {g}"][0])
+                for k, g in enumerate(["chords", "diagonals", "ridge"])] == [0, 1, 2]
+        assert "group_names" not in mesh.field_data  # no byte array of names
+        assert int(mesh.field_data[f"result: {name} ({res.kind})"][0]) == \
+            list(results).index(name)
         assert _text(mesh.field_data["case_name"]) == [name]
         assert _text(mesh.field_data["result_kind"]) == [res.kind]
         units = dict(u.split("=") for u in _text(mesh.field_data["units"]))
@@ -149,7 +155,7 @@ def test_panels_file_holds_polygons(written: Path, results: sf.Results) -> None:
     assert polys == [model.panel(k).tolist() for k in range(model.n_panels)]
     groups = np.concatenate(mesh.cell_data["panel_group"])
     assert groups.tolist() == [0, 0, 1]
-    assert _text(mesh.field_data["panel_group_names"]) == ["roof", "gable"]
+    assert sfvtk.group_legend(mesh.field_data, "panel_group") == ["roof", "gable"]
     np.testing.assert_allclose(mesh.point_data["displacement"], results["dead"].displacements,
                                rtol=1e-15)
 
@@ -213,3 +219,19 @@ def test_decode_text_round_trip() -> None:
     names = ["chords", "Diagonalen über", ""]
     assert sfvtk.decode_text(sfvtk.encode_text(names)) == names
     assert sfvtk.decode_text(np.zeros(0, dtype=np.uint8)) == []
+
+
+def test_group_legend_read_by_vtk_and_meshio(tmp_path: Path) -> None:
+    m = sf.Model()
+    m.add_nodes([[0.0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]])
+    m.add_members([[0, 3]], area=1e-3, E=2e11, group="legs & braces")
+    m.add_members([[1, 3], [2, 3]], area=1e-3, E=2e11, group="TOP CHORD <main>")
+    m.add_support([0, 1, 2])
+    m.add_load("snow", [3], (0.0, 0.0, -1e3))
+    pvd = sfvtk.write(tmp_path / "r.pvd", m.solve())
+    vtu = pvd.parent / "r_snow.vtu"
+    want = ["legs _ braces", "TOP CHORD _main_"]
+    by_vtk = pv.read(vtu)  # VTK's own XML reader
+    assert sfvtk.group_legend(by_vtk.field_data) == want
+    assert by_vtk.cell_data["group"].tolist() == [0, 1, 1]
+    assert sfvtk.group_legend(meshio.read(vtu).field_data) == want

@@ -78,10 +78,12 @@ def test_report_holds_the_figures_of_the_run(tmp_path: Path, results: sf.Results
     # Applied load totals: P is -10 kN along y (published example), Q as defined above.
     assert "<td>-10.00</td>" in text
     assert "1.350 x P + 1.500 x Q" in text
-    # One node merged away, located in the drawing's units (mm): x = 1000 mm.
-    assert 'merge_nodes</td><td>1</td>' in text and "(1000, 0, 0)" in text
+    # One node merged away, located in the report's one length unit: the model
+    # has no model file, so metres, as every other length (not the drawing's mm).
+    assert 'merge_nodes</td><td>1</td>' in text and "(1, 0, 0)" in text
     assert "split_crossings</td><td>skipped</td>" in text
-    assert "locations in mm" in text
+    assert "locations in m)" in text and "locations in mm" not in text
+    assert "size (bounding-box diagonal) [m]" in text
     assert ">strut</td>" in text and ">legs</td>" in text
 
 
@@ -101,7 +103,7 @@ def test_report_references_only_files_it_ships(tmp_path: Path, results: sf.Resul
                                      cases=["ULS"], size=(400, 300))
     assert [p.name for p in pictures] == ["ULS_iso.png"]
     path = report.write_report(tmp_path / "report.html", results, pictures=pictures,
-                               charts=charts)
+                               charts=charts, embed_images=False)
     links = _links(path.read_text(encoding="utf-8"))
     assert len(links.refs) == 3
     for ref in links.refs:
@@ -151,3 +153,103 @@ def test_charts_show_tension_and_compression_bars(tmp_path: Path, results: sf.Re
     assert forces.max() > 0 > forces.min()
     assert np.count_nonzero((r - g > 80) & (r - b > 80)) > 50  # tension bars, #c8281e
     assert np.count_nonzero((b - r > 80) & (b - g > 60)) > 50  # compression bars, #2a4fbf
+
+
+def test_report_is_one_file_by_default(tmp_path: Path, results: sf.Results) -> None:
+    charts = report.write_charts(tmp_path / "pictures", results, cases=["P"])
+    pictures = report.write_pictures(tmp_path / "pictures", results, views=("top",),
+                                     cases=["ULS"], size=(400, 300))
+    path = report.write_report(tmp_path / "report.html", results, pictures=pictures,
+                               charts=charts)
+    refs = _links(path.read_text(encoding="utf-8")).refs
+    assert len(refs) == 3
+    assert all(ref.startswith("data:image/png;base64,") for ref in refs)
+    # Still readable with the picture folder gone: nothing is linked.
+    for f in (tmp_path / "pictures").iterdir():
+        f.unlink()
+    for ref in refs:
+        assert base64.b64decode(ref.split(",", 1)[1])[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_report_uses_the_model_files_length_unit(tmp_path: Path, results: sf.Results) -> None:
+    results.model.meta["project:length_unit"] = {"name": "mm", "scale": 1e-3}
+    text = report.write_report(tmp_path / "r.html", results).read_text(encoding="utf-8")
+    # Healing location x = 1 m = 1000 mm, and every other length in mm too.
+    assert "(1000, 0, 0)" in text and "locations in mm)" in text
+    assert "size (bounding-box diagonal) [mm]" in text and "at (x, y, z) [mm]" in text
+    assert "[m]" not in text
+    size_mm = format_number(results.model.size * 1e3)
+    assert f"<td>{size_mm}</td>" in text
+
+
+def _free_triangle() -> sf.Results:
+    """A fictional triangle of 4 m sides on a statically determinate support layout
+    (node 0 held, node 1 free along x, node 2 free in plan), warmed by 30 K."""
+    m = sf.Model()
+    m.add_nodes([[0.0, 0, 0], [4.0, 0, 0], [2.0, 2.0 * np.sqrt(3.0), 0]])
+    m.add_members([[0, 1], [1, 2], [2, 0]], area=1e-3, E=2.1e11, alpha=1.2e-5)
+    m.add_support([0])
+    m.add_support([1], x=False)
+    m.add_support([2], x=False, y=False)
+    m.add_temperature("warm", [0, 1, 2], 30.0)
+    return m.solve()
+
+
+def test_charts_of_a_force_free_case_say_so(tmp_path: Path) -> None:
+    res = _free_triangle()
+    # A statically determinate frame expands freely under a uniform temperature
+    # change and carries no force (common practice: no redundant member resists
+    # the expansion); the solve leaves round-off.  Scale: EA alpha dT, closed form.
+    ea_alpha_dt = 2.1e11 * 1e-3 * 1.2e-5 * 30.0
+    assert report.force_scale(res) == pytest.approx(ea_alpha_dt, rel=1e-9)
+    assert np.abs(res["warm"].axial_forces).max() < 1e-6 * ea_alpha_dt
+    bars, hist = report.write_charts(tmp_path, res)
+    for png in (bars, hist):
+        img = (mpimg.imread(png)[..., :3] * 255).astype(int)
+        r, g, b = img[..., 0], img[..., 1], img[..., 2]
+        assert np.count_nonzero((r - g > 80) & (r - b > 80)) == 0  # no tension bars
+        assert np.count_nonzero((b - r > 80) & (b - g > 60)) == 0  # no compression bars
+
+
+def test_no_force_chart_text(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    from matplotlib.figure import Figure
+
+    titles: list[str] = []
+    texts: list[str] = []
+    real = Figure.savefig
+
+    def spy(fig: Figure, *args: object, **kwargs: object) -> None:
+        ax = fig.axes[0]
+        titles.append(ax.get_title())
+        texts.extend(t.get_text() for t in ax.texts)
+        real(fig, *args, **kwargs)
+
+    monkeypatch.setattr(Figure, "savefig", spy)
+    report.write_charts(tmp_path, _free_triangle())
+    assert titles == ["warm: no member force"] * 2
+    assert all(t.startswith("no member force (every |N| <= ") for t in texts) and texts
+
+
+@pytest.mark.slow
+def test_run_pictures_default_to_combinations_and_envelopes(tmp_path: Path) -> None:
+    from spaceframe import batch, demos
+
+    files = demos.write_demo(tmp_path / "canopy", "canopy")
+    toml = next(f for f in files if f.suffix == ".toml")
+    phases: list[str] = []
+    out = batch.run(toml, tmp_path / "out", progress=phases.append)
+    pics = sorted(p.name for p in (out.output / "pictures").glob("*_iso.png"))
+    # Three combinations and the envelope "ULS"; no picture of a bare load case.
+    assert pics == ["SLS_snow_iso.png", "ULS_iso.png", "ULS_snow_iso.png", "ULS_uplift_iso.png"]
+    counts = [p for p in phases if p.startswith("pictures ")]
+    assert counts == [f"pictures {k}/12" for k in range(1, 13)]
+    refs = _links((out.output / "report.html").read_text(encoding="utf-8")).refs
+    assert refs and all(r.startswith("data:image/png;base64,") for r in refs)
+    # A choice by name, and none at all.
+    out2 = batch.run(toml, tmp_path / "out2", pictures="snow")
+    assert sorted(p.name for p in (out2.output / "pictures").glob("*.png")) == [
+        "snow_front.png", "snow_groups.png", "snow_iso.png", "snow_members.png",
+        "snow_top.png"]
+    with pytest.raises(sf.ModelError, match="no result named 'rain'"):
+        batch.run(toml, tmp_path / "out3", pictures="rain")
+    assert not (tmp_path / "out3").exists()
