@@ -348,5 +348,5 @@ def test_member_properties_are_validated():
 def test_self_weight_refuses_upward_or_zero_gravity():
     m, _ = _tripod()
     for g in (-9.81, 0.0, float("nan")):
-        with pytest.raises(ModelError, match="must be (positive|a finite number)"):
+        with pytest.raises(ModelError, match=r"must be (positive|a finite number)"):
             m.add_self_weight("G", g=g)
