@@ -15,12 +15,14 @@ import sys
 from pathlib import Path as _Path
 from types import ModuleType as _ModuleType
 
+from spaceframe.analysis.buckling import BucklingResult, linear_buckling
 from spaceframe.analysis.stability import (
     Determinacy,
     check_stability,
     determinacy,
     solve_determinate,
 )
+from spaceframe.analysis.vibration import VibrationResult, natural_frequencies
 from spaceframe.assembly import equilibrium_matrix, stiffness_matrix
 from spaceframe.errors import (
     MechanismError,
@@ -64,6 +66,7 @@ __version__ = "0.1.0"
 
 __all__ = [
     "STANDARD_GRAVITY",
+    "BucklingResult",
     "CaseResult",
     "Determinacy",
     "Envelope",
@@ -77,10 +80,13 @@ __all__ = [
     "SolverError",
     "SpaceframeError",
     "SpaceframeWarning",
+    "VibrationResult",
     "__version__",
     "check_stability",
     "determinacy",
     "equilibrium_matrix",
+    "linear_buckling",
+    "natural_frequencies",
     "solve_determinate",
     "stiffness_matrix",
 ]
