@@ -75,7 +75,9 @@ class BucklingResult:
         return f"BucklingResult({self.name!r}: factors [{f}])"
 
 
-def axial_forces_of(model: Model, result: Any, what: str = "linear_buckling") -> tuple[str, np.ndarray]:
+def axial_forces_of(
+    model: Model, result: Any, what: str = "linear_buckling"
+) -> tuple[str, np.ndarray]:
     """Name and (b,) axial forces of a static result (or of given forces), checked."""
     name = str(getattr(result, "name", "given forces"))
     forces = getattr(result, "axial_forces", result)
