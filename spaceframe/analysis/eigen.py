@@ -287,9 +287,9 @@ def full_modes(V: np.ndarray, free: np.ndarray, n_nodes: int) -> np.ndarray:
     The sign is fixed so that the largest component of each mode is positive.
     """
     k = V.shape[1]
-    U = np.zeros((k, 3 * n_nodes))
-    U[:, free] = V.T
-    U = U.reshape(k, n_nodes, 3)
+    flat0 = np.zeros((k, 3 * n_nodes))
+    flat0[:, free] = V.T
+    U: np.ndarray = flat0.reshape(k, n_nodes, 3)
     if k == 0:
         return U
     peak = np.linalg.norm(U, axis=2).max(axis=1)

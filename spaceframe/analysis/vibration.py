@@ -232,7 +232,16 @@ def natural_frequencies(
         K = K + geometric_stiffness(*args, model.directions, model.lengths, N,
                                     dof_map=dof_map, n_dof=free.size)
     what = "natural frequencies"
-    factor = factor_or_mechanism(K, free, backend, what)
+    try:
+        factor = factor_or_mechanism(K, free, backend, what)
+    except MechanismError as exc:
+        if N is None or not np.any(N < 0):
+            raise
+        # PARDISO (run for positive definite matrices) refuses an indefinite one.
+        raise MechanismError(
+            f"natural frequencies: the frame is unstable under its prestress or a "
+            f"mechanism ({exc})", nodes=exc.nodes, directions=exc.directions
+        ) from exc
     if N is not None and not positive_definite(factor):
         raise MechanismError(
             "natural frequencies: the frame is unstable under its prestress (the stiffness "
