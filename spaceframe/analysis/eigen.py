@@ -10,7 +10,9 @@ about zero, with one factorisation of K by the project's own back-ends
 (spaceframe.solvers) and one solve per Lanczos step.  scipy's ``eigsh``
 (ARPACK) runs the iteration in its generalised mode with M = K and
 Minv = that factorisation; a well-kept library is preferred to a
-hand-written Lanczos.  Small systems use LAPACK's dense generalised solver
+hand-written Lanczos.  For buckling on large systems the shift is moved
+from zero to just below the lowest factor (see
+:func:`lowest_positive_factors`).  Small systems use LAPACK's dense generalised solver
 instead (robust for any number of modes, and no slower there).
 """
 
