@@ -15,6 +15,7 @@ import sys
 from pathlib import Path as _Path
 from types import ModuleType as _ModuleType
 
+from spaceframe.analysis.buckling import BucklingResult, linear_buckling
 from spaceframe.analysis.nonlinear import LoadPath, solve_nonlinear
 from spaceframe.analysis.stability import (
     Determinacy,
@@ -22,6 +23,7 @@ from spaceframe.analysis.stability import (
     determinacy,
     solve_determinate,
 )
+from spaceframe.analysis.vibration import VibrationResult, natural_frequencies
 from spaceframe.assembly import equilibrium_matrix, stiffness_matrix
 from spaceframe.design import (
     Action,
@@ -75,6 +77,7 @@ __version__ = "0.1.0"
 __all__ = [
     "STANDARD_GRAVITY",
     "Action",
+    "BucklingResult",
     "CaseResult",
     "Determinacy",
     "Envelope",
@@ -89,6 +92,7 @@ __all__ = [
     "SolverError",
     "SpaceframeError",
     "SpaceframeWarning",
+    "VibrationResult",
     "__version__",
     "buckling_reduction",
     "check_deflection",
@@ -98,6 +102,8 @@ __all__ = [
     "determinacy",
     "equilibrium_matrix",
     "generate_combinations",
+    "linear_buckling",
+    "natural_frequencies",
     "size_groups",
     "solve_determinate",
     "solve_nonlinear",

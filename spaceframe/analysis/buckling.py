@@ -1,0 +1,191 @@
+"""Linear buckling: load factors at which a static result's forces make the frame unstable.
+
+Solved: (K_E + λ K_G(N)) φ = 0, with K_E the elastic stiffness of the free
+degrees of freedom (restrained directions eliminated, springs on the
+diagonal, exactly as the static solve builds it), K_G(N) the geometric
+stiffness of the result's member axial forces N on the undeformed geometry,
+and λ the factor on the whole load of that result.  It is the linearised
+(first-order) stability limit: it ignores the change of geometry and of
+forces before buckling, so it can overestimate the strength of shallow,
+imperfection-sensitive frames (domes, shallow trusses) — a second-order
+analysis is the check there.  Results must be checked by a qualified engineer.
+
+Decision for a result without compression: tension only stiffens a frame,
+so there is no positive factor; :func:`linear_buckling` raises ModelError
+with one line saying so (or, with ``negative=True``, returns no positive
+factors and the negative ones).  The same error comes when members are in
+compression but none of them can move sideways (e.g. a member between two
+supports).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from spaceframe.analysis.eigen import (
+    factor_or_mechanism,
+    full_modes,
+    lowest_positive_factors,
+    mode_count,
+)
+from spaceframe.analysis.matrices import elastic_stiffness, free_dof_map, geometric_stiffness
+from spaceframe.analysis.stability import check_stability
+from spaceframe.errors import ModelError
+from spaceframe.solvers import resolve_backend
+
+if TYPE_CHECKING:
+    from spaceframe.model import Model
+
+__all__ = ["BucklingResult", "linear_buckling"]
+
+
+@dataclass
+class BucklingResult:
+    """Load factors and mode shapes of a linear buckling analysis.
+
+    Attributes
+    ----------
+    name : str
+        The static result (case or combination) whose forces were used.
+    factors : (k,) float
+        Positive load factors λ, ascending: the result's loads times λ make
+        the frame unstable.  k <= n_modes (fewer when fewer exist).
+    modes : (k, n_nodes, 3) float
+        Buckling mode shapes, each scaled to a largest nodal movement of 1.
+    negative_factors : (j,) float
+        Only with ``negative=True``: factors λ < 0 (the loads reversed),
+        nearest to zero first; empty otherwise.
+    negative_modes : (j, n_nodes, 3) float
+    notes : list of str
+        Plain-words remarks (fewer modes than asked, and why).
+    """
+
+    name: str
+    factors: np.ndarray
+    modes: np.ndarray
+    negative_factors: np.ndarray
+    negative_modes: np.ndarray
+    notes: list[str] = field(default_factory=list)
+
+    def __repr__(self) -> str:
+        f = ", ".join(f"{x:.4g}" for x in self.factors)
+        return f"BucklingResult({self.name!r}: factors [{f}])"
+
+
+def axial_forces_of(
+    model: Model, result: Any, what: str = "linear_buckling"
+) -> tuple[str, np.ndarray]:
+    """Name and (b,) axial forces of a static result (or of given forces), checked."""
+    name = str(getattr(result, "name", "given forces"))
+    forces = getattr(result, "axial_forces", result)
+    try:
+        N = np.asarray(forces, dtype=float)
+    except (TypeError, ValueError):
+        raise ModelError(
+            f"{what}: result must be a case or combination result (or (b,) axial "
+            f"forces), got {type(result).__name__}"
+        ) from None
+    if N.shape != (model.n_members,):
+        raise ModelError(
+            f"{what}: result {name!r} has {N.size} axial forces but the model has "
+            f"{model.n_members} members (is it a result of this model?)"
+        )
+    disp = getattr(result, "displacements", None)
+    if disp is not None and np.shape(disp) != (model.n_nodes, 3):
+        raise ModelError(
+            f"{what}: result {name!r} has displacements for {np.shape(disp)[0]} nodes "
+            f"but the model has {model.n_nodes} (is it a result of this model?)"
+        )
+    bad = np.flatnonzero(~np.isfinite(N))
+    if bad.size:
+        raise ModelError(
+            f"{what}: result {name!r}: axial force of member {int(bad[0])} is "
+            f"{float(N[bad[0]])}"
+        )
+    return name, N
+
+
+def linear_buckling(
+    model: Model,
+    result: Any,
+    n_modes: int = 6,
+    *,
+    negative: bool = False,
+    solver: str = "auto",
+) -> BucklingResult:
+    """Lowest linear buckling factors of a static result.
+
+    Parameters
+    ----------
+    model : Model
+        The analysed model (unchanged since ``result`` was computed).
+    result : CaseResult or (b,) float
+        A load case or combination result of ``model`` (its ``axial_forces``
+        are used), or member axial forces in N, tension positive.
+    n_modes : int
+        Number of factors wanted (at most the number of free directions).
+    negative : bool
+        Also find the factors of the reversed loads (λ < 0).
+    solver : {"auto", "scipy", "pardiso"}
+        Back-end that factorises K_E.
+
+    Returns
+    -------
+    BucklingResult
+
+    Raises
+    ------
+    ModelError
+        On a result that does not fit the model, more modes than free
+        directions, or no compression (so no buckling factor).
+    MechanismError
+        If the frame is a mechanism (its elastic stiffness is singular).
+    """
+    model.validate()
+    backend = resolve_backend(solver)
+    name, N = axial_forces_of(model, result)
+    n_comp = int(np.count_nonzero(N < 0))
+    n_tens = int(np.count_nonzero(N > 0))
+    if n_comp == 0 and not (negative and n_tens):
+        raise ModelError(
+            f"linear_buckling: result {name!r} has no member in compression, so it has no "
+            "buckling factor (tension only stiffens the frame)"
+        )
+    check_stability(model)
+    dof_map, free = free_dof_map(model.restraint)
+    k = mode_count(n_modes, free.size)
+    args = (model.members, model.n_nodes, model.directions)
+    K = elastic_stiffness(*args, model.axial_stiffness, springs=model.springs,
+                          dof_map=dof_map, n_dof=free.size)
+    G = geometric_stiffness(*args, model.lengths, N, dof_map=dof_map, n_dof=free.size)
+    what = f"linear buckling of {name!r}"
+    factor = factor_or_mechanism(K, free, backend, what)
+    notes: list[str] = []
+
+    def side(sign: float, count: int) -> tuple[np.ndarray, np.ndarray]:
+        # Each member's geometric block has rank 2, so the members of one sign
+        # give at most 2 * count non-zero eigenvalues of that sign.
+        want = min(k, 2 * count)
+        if want == 0:
+            return np.zeros(0), np.zeros((0, model.n_nodes, 3))
+        # Factors of the reversed loads are those of -G: sign = -1.
+        lam, V = lowest_positive_factors(K, factor, sign * G, want, backend, what)
+        return sign * lam, full_modes(V, free, model.n_nodes)
+
+    factors, modes = side(1.0, n_comp)
+    if n_comp and factors.size == 0 and not negative:
+        first = int(np.flatnonzero(N < 0)[0])
+        raise ModelError(
+            f"linear_buckling: result {name!r} has no buckling factor: none of its {n_comp} "
+            f"members in compression (e.g. member {first}) can move sideways"
+        )
+    if factors.size < k:
+        notes.append(
+            f"only {factors.size} positive factor(s) exist, fewer than the {k} asked "
+            f"({n_comp} member(s) in compression)"
+        )
+    neg_f, neg_m = side(-1.0, n_tens) if negative else (np.zeros(0), modes[:0])
+    return BucklingResult(name, factors, modes, neg_f, neg_m, notes)

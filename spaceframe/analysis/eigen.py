@@ -1,0 +1,300 @@
+"""The eigenvalue core shared by linear buckling and natural frequencies.
+
+Both analyses reduce to B φ = μ K φ with K, the stiffness of the free
+degrees of freedom (springs included), symmetric positive definite and B
+symmetric: B = K_G for buckling (μ = -1/λ) and B = M for vibration
+(μ = 1/ω²).  The wanted eigenvalues (the lowest load factors, the lowest
+frequencies) are the extreme μ, so Lanczos on the operator K⁻¹B, which is
+self-adjoint in the K inner product, finds them fast: this is shift-invert
+about zero, with one factorisation of K by the project's own back-ends
+(spaceframe.solvers) and one solve per Lanczos step.  scipy's ``eigsh``
+(ARPACK) runs the iteration in its generalised mode with M = K and
+Minv = that factorisation; a well-kept library is preferred to a
+hand-written Lanczos.  For buckling on large systems the shift is moved
+from zero to just below the lowest factor (see
+:func:`lowest_positive_factors`).  Small systems use LAPACK's dense generalised solver
+instead (robust for any number of modes, and no slower there).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any, Literal
+
+import numpy as np
+import scipy.linalg as sla
+import scipy.sparse as sp
+from scipy.sparse.linalg import ArpackError, ArpackNoConvergence, LinearOperator, eigsh
+
+from spaceframe.analysis.stability import describe_dofs, mechanism_modes
+from spaceframe.errors import MechanismError, ModelError, SolverError
+from spaceframe.solvers import Factor, SingularFactor, factorize
+
+__all__ = [
+    "DENSE_EIGEN_LIMIT",
+    "extreme_pairs",
+    "factor_or_mechanism",
+    "full_modes",
+    "lowest_positive_factors",
+    "mode_count",
+    "positive_definite",
+]
+
+#: Free degrees of freedom up to which the dense LAPACK solver is used.  A
+#: dense generalised eigenproblem of 600 unknowns takes ~0.1 s; above that
+#: the sparse iteration is faster and its memory stays linear.
+DENSE_EIGEN_LIMIT = 600
+
+#: An eigenvalue μ with |μ| at most this fraction of the spectral scale (see
+#: :func:`extreme_pairs`) is taken as zero: no buckling factor (or an
+#: infinite frequency) in that direction.  Round-off in μ stays near 1e-16
+#: of the scale; 1e-10 leaves six orders for ill conditioning.
+ZERO_EIGENVALUE = 1.0e-10
+
+#: Largest relative eigen-residual ||Bφ - μKφ|| / (max|μ| ||Kφ||) accepted.
+#: ARPACK converges to ~1e-12 here; 1e-6 still rejects a wrong pair.
+EIGEN_RESIDUAL = 1.0e-6
+
+#: Halvings of the buckling shift tried before falling back to a shift of zero.
+_SHIFT_TRIES = 6
+
+
+def factor_or_mechanism(K: sp.spmatrix, free: np.ndarray, backend: str, what: str) -> Factor:
+    """Factorise K, or raise MechanismError naming the nodes of its zero-energy modes."""
+    try:
+        return factorize(K, backend)
+    except SingularFactor as exc:
+        try:
+            _, modes = mechanism_modes(K, free)
+        except Exception:  # naming is best effort; the mechanism is certain
+            modes = []
+        if modes:
+            dofs = np.unique(np.concatenate(modes))
+            text = "; ".join(f"mode {j + 1} moves {describe_dofs(d)}" for j, d in enumerate(modes))
+        else:
+            dofs = free[exc.dofs] if exc.dofs.size else np.zeros(0, dtype=np.int64)
+            text = f"zero stiffness at {describe_dofs(dofs)}" if dofs.size else str(exc)
+        nodes, axes = np.divmod(dofs, 3)
+        raise MechanismError(
+            f"{what}: the frame is a mechanism (singular stiffness): {text}",
+            nodes=nodes,
+            directions=["xyz"[a] for a in axes],
+        ) from exc
+
+
+def spectral_scale(K: sp.spmatrix, B: sp.spmatrix) -> float:
+    """max_i |B_ii| / K_ii: a Rayleigh quotient, so a lower bound on max |μ|."""
+    kd = K.diagonal()
+    bd = np.abs(B.diagonal())
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = np.where(kd > 0, bd / kd, 0.0)
+    return float(r.max(initial=0.0))
+
+
+def _check_pairs(K: sp.spmatrix, B: sp.spmatrix, w: np.ndarray, V: np.ndarray, what: str) -> None:
+    """Fail closed on non-finite values or a pair that does not satisfy B φ = μ K φ."""
+    if not (np.all(np.isfinite(w)) and np.all(np.isfinite(V))):
+        raise SolverError(f"{what}: the eigen solver returned non-finite values")
+    if w.size == 0:
+        return
+    KV = K @ V
+    res = np.linalg.norm(B @ V - KV * w, axis=0)
+    ref = np.abs(w).max() * np.linalg.norm(KV, axis=0)
+    bad = np.flatnonzero(~(res <= EIGEN_RESIDUAL * ref))
+    if bad.size:
+        j = int(bad[0])
+        raise SolverError(
+            f"{what}: eigenpair {j + 1} does not check out (relative residual "
+            f"{float(res[j] / ref[j]):.2e} exceeds {EIGEN_RESIDUAL:.0e})"
+        )
+
+
+def _start_vector(m: int) -> np.ndarray:
+    # A fixed start vector makes results reproducible run to run.
+    return np.random.default_rng(12).standard_normal(m)
+
+
+def _arpack(what: str, k: int, call: Callable[[], tuple[np.ndarray, np.ndarray]]
+            ) -> tuple[np.ndarray, np.ndarray]:
+    try:
+        return call()
+    except ArpackNoConvergence as exc:
+        raise SolverError(
+            f"{what}: the Lanczos iteration did not converge for {k} modes "
+            f"({len(exc.eigenvalues)} converged)"
+        ) from exc
+    except ArpackError as exc:
+        raise SolverError(f"{what}: the Lanczos iteration failed ({exc})") from exc
+
+
+def extreme_pairs(
+    K: sp.spmatrix,
+    factor: Factor,
+    B: sp.spmatrix,
+    k: int,
+    which: Literal["LA", "SA"],
+    what: str,
+    tol: float = 0.0,
+    check: bool = True,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The k largest ("LA") or smallest ("SA") μ of B φ = μ K φ that are not zero.
+
+    Parameters
+    ----------
+    K : (m, m) sparse
+        Full symmetric positive definite matrix (its factor is ``factor``).
+    B : (m, m) sparse
+        Full symmetric matrix.
+    k : int
+        Number of pairs wanted; fewer come back when fewer non-zero μ of that
+        sign exist.
+    what : str
+        Names the analysis in error messages.
+    tol : float
+        Relative accuracy asked of the iteration (0: machine precision).
+    check : bool
+        Check each pair's residual (off only for a loose estimate).
+
+    Returns
+    -------
+    mu : (j,) float
+        Eigenvalues, j <= k, largest magnitude first, all of the sign asked.
+    V : (m, j) float
+        Eigenvectors (columns).
+
+    Raises
+    ------
+    SolverError
+        If the iteration fails or a pair does not satisfy the equation.
+    """
+    m = K.shape[0]
+    sign = 1.0 if which == "LA" else -1.0
+    if m <= DENSE_EIGEN_LIMIT or k >= m - 1:
+        try:
+            w, V = sla.eigh(B.toarray(), K.toarray())
+        except (np.linalg.LinAlgError, ValueError) as exc:
+            raise SolverError(f"{what}: dense eigen solver failed ({exc})") from exc
+    else:
+        op = LinearOperator((m, m), matvec=factor.solve, dtype=float)
+        w, V = _arpack(what, k, lambda: eigsh(B, k=k, M=K, Minv=op, which=which,
+                                              v0=_start_vector(m), tol=tol,
+                                              ncv=min(m, max(2 * k + 1, 20))))
+    order = np.argsort(-sign * w)[:k]
+    w, V = w[order], V[:, order]
+    if not np.all(np.isfinite(w)):
+        raise SolverError(f"{what}: the eigen solver returned non-finite values")
+    scale = max(spectral_scale(K, B), float(np.abs(w).max(initial=0.0)))
+    keep = sign * w > ZERO_EIGENVALUE * scale
+    w, V = w[keep], V[:, keep]
+    if check:
+        _check_pairs(K, B, w, V, what)
+    return w, V
+
+
+def positive_definite(factor: Factor) -> bool:
+    """Whether a factorised symmetric matrix is positive definite (Sylvester's law).
+
+    PARDISO is run for symmetric positive definite matrices and refuses any
+    other.  SuperLU runs in symmetric mode with diagonal pivots, so the signs
+    of U's diagonal are those of an LDLᵀ factorisation: its inertia.  (Read
+    from the factor object until spaceframe.solvers reports inertia itself.)
+    """
+    if factor.name == "pardiso":
+        return True
+    lu = getattr(factor, "_lu", None)
+    if lu is None or not np.array_equal(lu.perm_r, lu.perm_c):
+        return False
+    return bool(np.all(lu.U.diagonal() > 0))
+
+
+def lowest_positive_factors(
+    K: sp.spmatrix,
+    factor: Factor,
+    G: sp.spmatrix,
+    k: int,
+    backend: str,
+    what: str,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The k smallest λ > 0 of (K + λ G) φ = 0, ascending, and their vectors.
+
+    Large systems: a short, loose Lanczos run about zero estimates the
+    lowest factor (a Ritz value, so from above); the shift σ is 0.9 of it,
+    K + σ G is factorised and checked positive definite (σ halved until it
+    is, so σ lies below the lowest factor), and Lanczos runs in ARPACK's
+    buckling mode, ν = λ / (λ - σ).  Factors of the reversed loads then fall
+    in (0, 1) and no longer crowd the wanted end of the spectrum: about zero
+    they are the largest |μ| = 1/|λ| on a grid whose tension chords are
+    stiffened, and cost thousands of iterations (measured: 1300 solves
+    against 50 on a 20k-member grid).
+    """
+    m = K.shape[0]
+    if m <= DENSE_EIGEN_LIMIT or k >= m - 1:
+        mu, V = extreme_pairs(K, factor, G, k, "SA", what)
+        return -1.0 / mu, V
+    mu1, _ = extreme_pairs(K, factor, G, 1, "SA", what, tol=1e-2, check=False)
+    if mu1.size == 0:
+        return np.zeros(0), np.zeros((m, 0))
+    sigma = 0.9 * (-1.0 / float(mu1[0]))
+    shifted: Factor | None = None
+    for _ in range(_SHIFT_TRIES):
+        try:
+            trial = factorize(K + sigma * G, backend)
+        except SingularFactor:
+            trial = None
+        if trial is not None and positive_definite(trial):
+            shifted = trial
+            break
+        sigma *= 0.5
+    if shifted is None:
+        # No safe shift found: Lanczos about zero (slower, same answer).
+        mu, V = extreme_pairs(K, factor, G, k, "SA", what)
+        return -1.0 / mu, V
+    op = LinearOperator((m, m), matvec=shifted.solve, dtype=float)
+    lam, V = _arpack(what, k, lambda: eigsh(K, k=k, M=-G, sigma=sigma, mode="buckling",
+                                            OPinv=op, which="LM", v0=_start_vector(m),
+                                            tol=1e-10, ncv=min(m, max(2 * k + 1, 20))))
+    if not np.all(np.isfinite(lam)):
+        raise SolverError(f"{what}: the eigen solver returned non-finite values")
+    # Back to μ = -1/λ, so that "infinite" factors (G φ = 0) are judged as
+    # zero eigenvalues exactly as in extreme_pairs.
+    with np.errstate(divide="ignore"):
+        mu = np.where(lam != 0, -1.0 / lam, np.inf)
+    scale = max(spectral_scale(K, G), float(np.abs(mu[np.isfinite(mu)]).max(initial=0.0)))
+    keep = np.isfinite(mu) & (-mu > ZERO_EIGENVALUE * scale)
+    mu, V = mu[keep], V[:, keep]
+    order = np.argsort(mu)
+    mu, V = mu[order], V[:, order]
+    _check_pairs(K, G, mu, V, what)
+    return -1.0 / mu, V
+
+
+def mode_count(n_modes: Any, free: int) -> int:
+    """Check a requested number of modes against the free degrees of freedom."""
+    try:
+        k = int(n_modes)
+    except (TypeError, ValueError):
+        raise ModelError(f"n_modes = {n_modes!r}: must be a whole number") from None
+    if k != n_modes or k < 1:
+        raise ModelError(f"n_modes = {n_modes!r}: must be a whole number of at least 1")
+    if k > free:
+        raise ModelError(
+            f"n_modes = {k} asks for more modes than the {free} free degrees of freedom"
+        )
+    return k
+
+
+def full_modes(V: np.ndarray, free: np.ndarray, n_nodes: int) -> np.ndarray:
+    """(k, n, 3) modes from free-dof columns, each scaled to a largest nodal movement of 1.
+
+    The sign is fixed so that the largest component of each mode is positive.
+    """
+    k = V.shape[1]
+    flat0 = np.zeros((k, 3 * n_nodes))
+    flat0[:, free] = V.T
+    U: np.ndarray = flat0.reshape(k, n_nodes, 3)
+    if k == 0:
+        return U
+    peak = np.linalg.norm(U, axis=2).max(axis=1)
+    flat = U.reshape(k, -1)
+    big = flat[np.arange(k), np.argmax(np.abs(flat), axis=1)]
+    return U * (np.sign(big) / peak)[:, None, None]

@@ -1,0 +1,273 @@
+"""Elastic, geometric and mass matrices of bars, from plain arrays.
+
+Every matrix here is assembled by one routine, :func:`assemble_blocks`, on
+the index pattern of :func:`spaceframe.assembly.stiffness_matrix`: a member
+from node i to node j contributes the symmetric 6x6 matrix
+
+    [[D, O],
+     [O, D]]
+
+with D and O symmetric 3x3 blocks (given by their upper triangles, in the
+order xx, xy, xz, yy, yz, zz).  Each node's diagonal block is summed before
+the sparse build and each member adds only its off-diagonal block, so no
+duplicates reach the sparse constructor.  Matrices built by it for the same
+members and degree-of-freedom map have identical ``indptr`` and ``indices``
+(explicit zeros are kept), so they can be combined entry by entry.
+
+The blocks (tension positive, c the unit vector from i to j, L the length):
+
+- elastic stiffness: D = (EA/L) c cᵀ, O = -D;
+- geometric stiffness: D = (N/L) (I - c cᵀ), O = -D, N the axial force
+  (a string's lateral stiffness: T/L per unit of sideways movement of one
+  end; cf. Cook, Malkus, Plesha and Witt, Concepts and Applications of
+  Finite Element Analysis, 4th ed., §18.3, from memory);
+- consistent mass of a bar with linear shape functions in all three
+  directions: D = (m/3) I, O = (m/6) I, m = ρAL (the 6x6 matrix
+  (ρAL/6)[[2I, I], [I, 2I]]);
+- lumped mass: m/2 at each end in each direction (a diagonal matrix).
+
+Arguments are arrays, not a Model, so that an analysis can pass modified
+geometry or forces; :func:`member_geometry` gives lengths and directions.
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+import numpy as np
+import scipy.sparse as sp
+
+from spaceframe.assembly import _UPPER3, index_dtype
+
+__all__ = [
+    "assemble_blocks",
+    "consistent_mass",
+    "elastic_stiffness",
+    "free_dof_map",
+    "geometric_stiffness",
+    "lumped_mass",
+    "member_geometry",
+]
+
+Triangle = Literal["full", "upper"]
+
+#: The identity as an upper triangle (xx, xy, xz, yy, yz, zz).
+_EYE6 = np.array([1.0, 0.0, 0.0, 1.0, 0.0, 1.0])
+
+
+def member_geometry(nodes: np.ndarray, members: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(b,) lengths, m, and (b, 3) unit vectors from each member's first node to its second."""
+    d = nodes[members[:, 1]] - nodes[members[:, 0]]
+    length = np.sqrt(np.einsum("ij,ij->i", d, d))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return length, d / length[:, None]
+
+
+def free_dof_map(restraint: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Renumbering that eliminates restrained directions.
+
+    Parameters
+    ----------
+    restraint : (n, 3) bool
+
+    Returns
+    -------
+    dof_map : (3n,) int
+        New number of each global dof, -1 where restrained.
+    free : (m,) int
+        Global dof of each new number.
+    """
+    flat = np.asarray(restraint, dtype=bool).ravel()
+    free = np.flatnonzero(~flat)
+    dof_map = np.full(flat.size, -1, dtype=np.int64)
+    dof_map[free] = np.arange(free.size)
+    return dof_map, free
+
+
+def _outer6(c: np.ndarray) -> np.ndarray:
+    """(b, 6) upper triangles of c cᵀ."""
+    return c[:, _UPPER3[0]] * c[:, _UPPER3[1]]
+
+
+def assemble_blocks(
+    members: np.ndarray,
+    n_nodes: int,
+    diag: np.ndarray,
+    off: np.ndarray,
+    *,
+    nodal: np.ndarray | None = None,
+    dof_map: np.ndarray | None = None,
+    n_dof: int | None = None,
+    triangle: Triangle = "full",
+) -> sp.csr_matrix:
+    """Assemble member matrices [[D, O], [O, D]] on the elastic stiffness's pattern.
+
+    Parameters
+    ----------
+    members : (b, 2) int
+        End node ids.
+    n_nodes : int
+    diag, off : (b, 6) float
+        Upper triangles of each member's blocks D and O.
+    nodal : (n, 3) float, optional
+        Extra diagonal terms per node and axis (springs, added masses).
+    dof_map : (3n,) int, optional
+        Renumbering of global dofs; entries < 0 are dropped (restrained).
+    n_dof : int, optional
+        Size of the renumbered system (default ``dof_map.max() + 1``).
+    triangle : {"full", "upper"}
+        All entries, or only the upper triangle (for symmetric solvers).
+
+    Returns
+    -------
+    scipy.sparse.csr_matrix
+        Duplicates summed, indices sorted; zeros in the pattern kept.
+    """
+    members = np.asarray(members)
+    b = members.shape[0]
+    n = int(n_nodes)
+    i, j = members[:, 0], members[:, 1]
+    node = np.empty((n, 6))
+    # bincount with weights is one pass in C per component (no loop over
+    # members), as in spaceframe.assembly.nodal_blocks.
+    for a in range(6):
+        node[:, a] = np.bincount(i, diag[:, a], n) + np.bincount(j, diag[:, a], n)
+    if nodal is not None:
+        node[:, [0, 3, 5]] += nodal
+    C = np.empty((b, 3, 3))
+    C[:, _UPPER3[0], _UPPER3[1]] = off
+    C[:, _UPPER3[1], _UPPER3[0]] = off
+    axes = np.arange(3)
+    if triangle == "upper":
+        da, db = _UPPER3
+        dblock = node
+    else:
+        da, db = np.divmod(np.arange(9), 3)
+        full = np.empty((n, 3, 3))
+        full[:, _UPPER3[0], _UPPER3[1]] = node
+        full[:, _UPPER3[1], _UPPER3[0]] = node
+        dblock = full.reshape(n, 9)
+    base_n = 3 * np.arange(n)[:, None]
+    base_i = 3 * members[:, :1, None]
+    base_j = 3 * members[:, 1:, None]
+    rows = [(base_n + da).ravel(), np.broadcast_to(base_i + axes[:, None], (b, 3, 3)).ravel()]
+    cols = [(base_n + db).ravel(), np.broadcast_to(base_j + axes[None, :], (b, 3, 3)).ravel()]
+    vals = [dblock.ravel(), C.ravel()]
+    if triangle == "full":
+        rows.append(cols[1])
+        cols.append(rows[1])
+        vals.append(vals[1])
+    r = np.concatenate(rows)
+    c = np.concatenate(cols)
+    v = np.concatenate(vals)
+    if dof_map is not None:
+        r, c = dof_map[r], dof_map[c]
+        size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else int(n_dof)
+        keep = (r >= 0) & (c >= 0)
+        r, c, v = r[keep], c[keep], v[keep]
+    else:
+        size = 3 * n
+    if triangle == "upper":
+        # Blocks are symmetric: fold entries below the diagonal onto their mirror.
+        r, c = np.minimum(r, c), np.maximum(r, c)
+    idx = index_dtype(size)
+    M = sp.csr_matrix((v, (r.astype(idx), c.astype(idx))), shape=(size, size))
+    M.sum_duplicates()
+    return M
+
+
+def elastic_stiffness(
+    members: np.ndarray,
+    n_nodes: int,
+    directions: np.ndarray,
+    axial_stiffness: np.ndarray,
+    *,
+    springs: np.ndarray | None = None,
+    dof_map: np.ndarray | None = None,
+    n_dof: int | None = None,
+    triangle: Triangle = "full",
+) -> sp.csr_matrix:
+    """Elastic stiffness Σ (EA/L) [[ccᵀ, -ccᵀ], [-ccᵀ, ccᵀ]], plus springs (n, 3) N/m.
+
+    Same values as :func:`spaceframe.assembly.stiffness_matrix` (checked in
+    the tests), on the pattern shared with :func:`geometric_stiffness`.
+    """
+    D = np.asarray(axial_stiffness, dtype=float)[:, None] * _outer6(directions)
+    return assemble_blocks(members, n_nodes, D, -D, nodal=springs, dof_map=dof_map,
+                           n_dof=n_dof, triangle=triangle)
+
+
+def geometric_stiffness(
+    members: np.ndarray,
+    n_nodes: int,
+    directions: np.ndarray,
+    lengths: np.ndarray,
+    axial_forces: np.ndarray,
+    *,
+    dof_map: np.ndarray | None = None,
+    n_dof: int | None = None,
+    triangle: Triangle = "full",
+) -> sp.csr_matrix:
+    """Geometric stiffness Σ (N/L) [[G, -G], [-G, G]], G = I - ccᵀ, N in N (tension +).
+
+    Tension stiffens sideways movement of a member's ends, compression
+    softens it; there is no term along the member.
+    """
+    w = np.asarray(axial_forces, dtype=float) / np.asarray(lengths, dtype=float)
+    D = w[:, None] * (_EYE6[None, :] - _outer6(directions))
+    return assemble_blocks(members, n_nodes, D, -D, dof_map=dof_map, n_dof=n_dof,
+                           triangle=triangle)
+
+
+def consistent_mass(
+    members: np.ndarray,
+    n_nodes: int,
+    member_mass: np.ndarray,
+    *,
+    added: np.ndarray | None = None,
+    dof_map: np.ndarray | None = None,
+    n_dof: int | None = None,
+    triangle: Triangle = "full",
+) -> sp.csr_matrix:
+    """Consistent mass Σ (m/6) [[2I, I], [I, 2I]] plus added nodal masses, kg.
+
+    Parameters
+    ----------
+    member_mass : (b,) float
+        ρAL of each member, kg.
+    added : (n,) float, optional
+        Point mass at each node, kg, in all three directions.
+    """
+    m = np.asarray(member_mass, dtype=float)[:, None] * _EYE6[None, :]
+    nodal = None if added is None else np.repeat(np.asarray(added, dtype=float)[:, None], 3, 1)
+    return assemble_blocks(members, n_nodes, m / 3.0, m / 6.0, nodal=nodal, dof_map=dof_map,
+                           n_dof=n_dof, triangle=triangle)
+
+
+def lumped_mass(
+    members: np.ndarray,
+    n_nodes: int,
+    member_mass: np.ndarray,
+    *,
+    added: np.ndarray | None = None,
+    dof_map: np.ndarray | None = None,
+    n_dof: int | None = None,
+) -> sp.csr_matrix:
+    """Diagonal mass: half of each member's ρAL at each end, plus added masses, kg.
+
+    Parameters and renumbering as for :func:`consistent_mass`; the result is
+    diagonal (the same matrix for either triangle).
+    """
+    n = int(n_nodes)
+    half = 0.5 * np.asarray(member_mass, dtype=float)
+    node = np.bincount(members[:, 0], half, n) + np.bincount(members[:, 1], half, n)
+    if added is not None:
+        node = node + np.asarray(added, dtype=float)
+    d = np.repeat(node, 3)
+    if dof_map is not None:
+        keep = dof_map >= 0
+        size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else int(n_dof)
+        diag = np.zeros(size)
+        diag[dof_map[keep]] = d[keep]
+        d = diag
+    return sp.csr_matrix(sp.diags(d, format="csr"))
