@@ -96,6 +96,20 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--force", action="store_true", help="write into a non-empty folder")
 
     p = sub.add_parser(
+        "study", parents=[common],
+        help="run every variant of a study file (a parameter sweep) and write one table",
+    )
+    p.add_argument("study", type=Path, help="study file (.toml) with a [study] table")
+    p.add_argument("--scheduler", metavar="ADDRESS",
+                   help="a running Dask scheduler, e.g. tcp://host:8786 "
+                        "(default: a local cluster of processes on every core)")
+    p.add_argument("--workers", type=int, help="processes of the local cluster")
+    p.add_argument("--serial", action="store_true",
+                   help="run the variants one after the other in this process (no Dask)")
+    p.add_argument("--restart", action="store_true",
+                   help="ignore the journal of an earlier run and solve every variant again")
+
+    p = sub.add_parser(
         "view", parents=[common],
         help="show a model's results in 3D, or save a screenshot",
     )
@@ -342,6 +356,41 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
     return 0
 
 
+def _cmd_study(args: argparse.Namespace, out: _Printer) -> int:
+    from spaceframe import batch
+    from spaceframe.study import read_study, run_study, summary_lines
+
+    model_file, vary, mode, folder = read_study(args.study)
+    ctx, progress = out.progress()
+    with ctx:
+        progress("read")
+        # The base model is read and healed once; every variant starts from it.
+        loaded = batch.load(model_file)
+        sections = dict(loaded.project.sections) if loaded.project is not None else {}
+        if folder.exists() and not folder.is_dir():
+            raise OSError(f"{folder}: the study's output is a file, not a folder")
+        folder.mkdir(parents=True, exist_ok=True)
+        journal = folder / "study.jsonl"
+        if args.restart and journal.exists():
+            journal.unlink()  # the tool's own journal, nothing else
+        table = run_study(
+            loaded.model, vary, mode=mode, sections=sections,
+            scheduler="serial" if args.serial else args.scheduler, workers=args.workers,
+            journal=journal, progress=lambda k, n: progress(f"variants {k}/{n}"),
+        )
+        table.to_csv(folder / "study.csv")
+    for text in loaded.warnings:
+        out.line(f"warning: {text}")
+    for text in summary_lines(table):
+        out.line(text)
+    for i in table.failed[:10]:
+        out.line(f"variant {i + 1} failed: {table.rows[i]['error']}")
+    out.line(f"table: {folder / 'study.csv'}")
+    out.line("Results must be checked by a qualified engineer; local codes and licensed "
+             "practice govern.")
+    return 0
+
+
 def _has_display() -> bool:
     """Whether a window can be opened: on Linux and other X11/Wayland systems an
     X or Wayland display must be named in the environment."""
@@ -357,7 +406,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     out = _Printer(getattr(args, "quiet", False), getattr(args, "verbose", False))
-    commands = {"check": _cmd_check, "run": _cmd_run, "new": _cmd_new, "view": _cmd_view}
+    commands = {"check": _cmd_check, "run": _cmd_run, "new": _cmd_new, "view": _cmd_view,
+                "study": _cmd_study}
     if args.command is None:
         parser.print_help(sys.stdout)
         return EXIT_BAD_INPUT

@@ -126,3 +126,28 @@ def test_bad_parameters_are_refused_before_running():
     assert "no load case 'nope'" in row["error"]
     row = evaluate_variant(m, {"wobble.x": 1.0})
     assert "must start with" in row["error"]
+
+
+def test_study_command_writes_one_table_and_resumes(tmp_path, capsys):
+    from test_project import CANOPY
+
+    from spaceframe.cli import main
+
+    (tmp_path / "canopy.toml").write_text(CANOPY, encoding="utf-8")
+    (tmp_path / "sweep.toml").write_text(
+        '[study]\nmodel = "canopy.toml"\noutput = "sweep-out"\n'
+        '[study.vary]\n"section.TOP" = ["CHS 76.1x3.2", "CHS 88.9x4"]\n'
+        '"case.snow" = [1.0, 1.5]\n', encoding="utf-8")
+    assert main(["study", str(tmp_path / "sweep.toml"), "--serial"]) == 0
+    text = capsys.readouterr().out
+    assert "4 variants" in text and "qualified engineer" in text
+    rows = (tmp_path / "sweep-out" / "study.csv").read_text().splitlines()
+    assert rows[0].startswith("section.TOP,case.snow,mass_kg") and len(rows) == 5
+    # Heavier top chords weigh more (same other members), whatever the load factor.
+    by = {tuple(r.split(",")[:2]): float(r.split(",")[2]) for r in rows[1:]}
+    assert by[("CHS 88.9x4", "1")] > by[("CHS 76.1x3.2", "1")]
+    assert main(["study", str(tmp_path / "sweep.toml"), "--serial"]) == 0
+    assert "4 taken from the journal" in capsys.readouterr().out
+    (tmp_path / "bad.toml").write_text('[study]\nmodel = "canopy.toml"\n', encoding="utf-8")
+    assert main(["study", str(tmp_path / "bad.toml"), "--serial"]) == 2
+    assert "study.vary" in capsys.readouterr().err
