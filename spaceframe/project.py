@@ -111,6 +111,7 @@ class Project:
     sections: dict[str, Section] = field(default_factory=dict)
     materials: dict[str, Material] = field(default_factory=dict)
     design: Any = None
+    analysis: Any = None
 
     def solve(self, solver: str = "auto") -> Results:
         """Linear static analysis of every case and combination; see :meth:`Model.solve`."""
@@ -277,6 +278,7 @@ class _Spec:
     warnings: list[str]
     design: Any = None
     section_extras: dict[str, dict[str, Any]] = field(default_factory=dict)
+    analysis: Any = None
 
 
 # ================================================================== reading
@@ -570,6 +572,7 @@ def _plane(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Plane:
 _TOP_KEYS = {
     "title", "output", "units", "geometry", "materials", "sections", "assign",
     "selections", "supports", "loads", "combinations", "envelopes", "design", "actions",
+    "analysis",
 }
 
 
@@ -612,6 +615,9 @@ def _parse(text: str, path: Path) -> _Spec:
     from spaceframe.project_design import parse_design
 
     design = parse_design(ctx, top.table("design", None), top.table("actions", None), _selector)
+    from spaceframe.project_analysis import parse_analysis
+
+    analysis = parse_analysis(ctx, top.table("analysis", None), cases, combinations)
 
     # Every reference to a named selection must resolve, without cycles.
     _check_references(ctx, selections, rules, supports, cases)
@@ -625,6 +631,7 @@ def _parse(text: str, path: Path) -> _Spec:
         materials=materials, sections=sections, rules=rules, selections=selections,
         supports=supports, cases=cases, combinations=combinations, envelopes=envelopes,
         warnings=ctx.warnings, design=design, section_extras=ctx.section_extras,
+        analysis=analysis,
     )
 
 
@@ -1266,6 +1273,7 @@ def _build(spec: _Spec) -> Project:
         sections=spec.sections,
         materials={**PRESETS, **spec.materials},
         design=spec.design,
+        analysis=spec.analysis,
     )
 
 

@@ -1,0 +1,161 @@
+"""The model file's [analysis] table: linear buckling and natural frequencies after the static run.
+
+```toml
+[analysis.buckling]
+results = ["ULS"]          # cases or combinations (default: every combination)
+modes = 3
+min_factor = 3.0           # optional: report pass/fail against this factor
+[analysis.frequencies]
+modes = 6
+mass = "consistent"        # or "lumped"
+mass_from = "dead"         # optional: a case or combination's downward loads / g
+min_frequency = "3 Hz"     # optional: report pass/fail (a plain number is Hz)
+```
+
+Results must be checked by a qualified engineer.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from spaceframe.errors import SpaceframeError
+
+__all__ = ["AnalysisSpec", "parse_analysis", "run_analyses"]
+
+
+@dataclass
+class AnalysisSpec:
+    """What [analysis] asks for."""
+
+    buckling: bool = False
+    buckling_results: list[str] | None = None
+    buckling_modes: int = 3
+    min_factor: float | None = None
+    frequencies: bool = False
+    frequency_modes: int = 6
+    mass: str = "consistent"
+    mass_from: str | None = None
+    min_frequency: float | None = None
+
+
+def _frequency(ctx: Any, t: Any, key: str) -> float | None:
+    value = t.raw(key, None)
+    if value is None:
+        return None
+    if isinstance(value, str):
+        text = value.strip()
+        if not text.lower().endswith("hz"):
+            ctx.fail(t.path(key), value, "expected a frequency such as \"3 Hz\"")
+        try:
+            f = float(text[:-2])
+        except ValueError:
+            ctx.fail(t.path(key), value, "expected a frequency such as \"3 Hz\"")
+    elif isinstance(value, int | float) and not isinstance(value, bool):
+        f = float(value)
+    else:
+        ctx.fail(t.path(key), value, "expected a frequency such as \"3 Hz\"")
+    if not f > 0:
+        ctx.fail(t.path(key), value, "must be positive")
+    return f
+
+
+def parse_analysis(ctx: Any, t: Any, cases: Any, combinations: Any) -> AnalysisSpec:
+    """Read [analysis] with the model file's table reader (names checked against the file)."""
+    spec = AnalysisSpec()
+    if t is None:
+        return spec
+    t.expect({"buckling", "frequencies"})
+    known = set(cases) | set(combinations)
+    b = t.table("buckling", None)
+    if b is not None:
+        b.expect({"results", "modes", "min_factor"})
+        spec.buckling = True
+        res = b.raw("results", None)
+        if res is not None:
+            if not isinstance(res, list) or not res or not all(isinstance(r, str) for r in res):
+                ctx.fail(b.path("results"), res, "expected a list of case or combination names")
+            for r in res:
+                if r not in known:
+                    ctx.fail(b.path("results"), r, "no load case or combination of that name")
+            spec.buckling_results = list(res)
+        spec.buckling_modes = _count(ctx, b, "modes", 3)
+        spec.min_factor = b.number("min_factor", None)
+        if spec.min_factor is not None and spec.min_factor <= 0:
+            ctx.fail(b.path("min_factor"), b.data["min_factor"], "must be positive")
+    f = t.table("frequencies", None)
+    if f is not None:
+        f.expect({"modes", "mass", "mass_from", "min_frequency"})
+        spec.frequencies = True
+        spec.frequency_modes = _count(ctx, f, "modes", 6)
+        spec.mass = f.text("mass", "consistent", choices=("consistent", "lumped"))
+        spec.mass_from = f.text("mass_from", None)
+        if spec.mass_from is not None and spec.mass_from not in known:
+            ctx.fail(f.path("mass_from"), spec.mass_from,
+                     "no load case or combination of that name")
+        spec.min_frequency = _frequency(ctx, f, "min_frequency")
+    return spec
+
+
+def _count(ctx: Any, t: Any, key: str, default: int) -> int:
+    value = t.raw(key, default)
+    if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 100:
+        ctx.fail(t.path(key), value, "expected a whole number from 1 to 100")
+    return int(value)
+
+
+def _one_line(exc: BaseException) -> str:
+    return " ".join(str(exc).split())
+
+
+def run_analyses(spec: AnalysisSpec, model: Any, results: Any,
+                 solver: str = "auto") -> dict[str, Any]:
+    """Run what [analysis] asks for; a summary block of plain numbers (SI, Hz).
+
+    A result that cannot be analysed (no compression, a mechanism) is reported
+    in the block with its one-line reason; it does not stop the run.
+    """
+    from spaceframe.analysis.buckling import linear_buckling
+    from spaceframe.analysis.vibration import natural_frequencies
+
+    out: dict[str, Any] = {}
+    if spec.buckling:
+        names = spec.buckling_results or [
+            n for n in results if getattr(results[n], "kind", "") == "combination"
+        ] or list(results)
+        block: dict[str, Any] = {}
+        for name in names:
+            try:
+                b = linear_buckling(model, results[name], n_modes=spec.buckling_modes,
+                                    solver=solver)
+            except SpaceframeError as exc:
+                block[name] = {"factors": [], "note": _one_line(exc)}
+                continue
+            entry: dict[str, Any] = {"factors": [float(x) for x in b.factors],
+                                     "note": "; ".join(b.notes)}
+            if spec.min_factor is not None and b.factors.size:
+                entry["passes"] = bool(b.factors[0] >= spec.min_factor)
+            block[name] = entry
+        lowest = [(v["factors"][0], n) for n, v in block.items() if v["factors"]]
+        out["buckling"] = {
+            "results": block,
+            "lowest": None if not lowest else {"factor": min(lowest)[0], "result": min(lowest)[1]},
+            "min_factor": spec.min_factor,
+            "method": "linear (eigenvalue) buckling on the undeformed geometry: a first-order "
+                      "estimate that can overestimate shallow, imperfection-sensitive frames",
+        }
+    if spec.frequencies:
+        try:
+            f = natural_frequencies(model, n_modes=spec.frequency_modes, mass=spec.mass,
+                                    mass_from=spec.mass_from, solver=solver)
+            entry = {"frequencies_hz": [float(x) for x in f.frequencies],
+                     "total_mass_kg": float(f.total_mass), "mass": spec.mass,
+                     "note": "; ".join(f.notes)}
+            if spec.min_frequency is not None and f.frequencies.size:
+                entry["min_frequency_hz"] = spec.min_frequency
+                entry["passes"] = bool(f.frequencies[0] >= spec.min_frequency)
+        except SpaceframeError as exc:
+            entry = {"frequencies_hz": [], "note": _one_line(exc)}
+        out["frequencies"] = entry
+    return out

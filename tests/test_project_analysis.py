@@ -1,0 +1,72 @@
+"""The model file's [analysis] table: buckling and frequencies run after the static analysis."""
+
+from __future__ import annotations
+
+import pytest
+from test_project import CANOPY
+
+import spaceframe as sf
+from spaceframe.errors import ProjectError
+from spaceframe.project import parse_project
+from spaceframe.project_analysis import run_analyses
+
+ANALYSIS = """
+[analysis.buckling]
+results = ["ULS", "SLS"]
+modes = 2
+min_factor = 3.0
+[analysis.frequencies]
+modes = 3
+mass = "lumped"
+min_frequency = "2 Hz"
+"""
+
+
+def _project(tmp_path, extra):
+    path = tmp_path / "canopy.toml"
+    path.write_text(CANOPY + extra, encoding="utf-8")
+    return parse_project(path.read_text(encoding="utf-8"), path)
+
+
+def test_analysis_block_equals_the_library_calls(tmp_path):
+    p = _project(tmp_path, ANALYSIS)
+    res = p.solve()
+    block = run_analyses(p.analysis, p.model, res)
+    b = sf.linear_buckling(p.model, res["ULS"], n_modes=2)
+    assert block["buckling"]["results"]["ULS"]["factors"] == pytest.approx(list(b.factors))
+    low = block["buckling"]["lowest"]
+    assert low["factor"] == min(block["buckling"]["results"][n]["factors"][0]
+                                for n in ("ULS", "SLS"))
+    assert block["buckling"]["results"]["ULS"]["passes"] == (b.factors[0] >= 3.0)
+    f = sf.natural_frequencies(p.model, n_modes=3, mass="lumped")
+    assert block["frequencies"]["frequencies_hz"] == pytest.approx(list(f.frequencies))
+    assert block["frequencies"]["passes"] == (f.frequencies[0] >= 2.0)
+
+
+def test_a_result_without_compression_is_reported_not_fatal(tmp_path):
+    import numpy as np
+
+    p = _project(tmp_path, '[analysis.buckling]\nresults = ["ULS"]\nmodes = 1\n')
+    res = p.solve()
+    # Every member in tension: no buckling factor exists, and the block says so.
+    tension_only_forces = {"ULS": np.abs(res["ULS"].axial_forces) + 1.0}
+    block = run_analyses(p.analysis, p.model, tension_only_forces)
+    entry = block["buckling"]["results"]["ULS"]
+    assert entry["factors"] == [] and "compression" in entry["note"]
+    assert block["buckling"]["lowest"] is None
+
+
+@pytest.mark.parametrize(
+    ("extra", "fragment"),
+    [
+        ('[analysis.buckling]\nresults = ["NOPE"]\n', "analysis.buckling.results"),
+        ("[analysis.buckling]\nmodes = 0\n", "whole number"),
+        ('[analysis.frequencies]\nmin_frequency = "3 kN"\n', "frequency"),
+        ('[analysis.frequencies]\nmass = "heavy"\n', "analysis.frequencies.mass"),
+        ("[analysis.modal]\nmodes = 3\n", "analysis.modal"),
+    ],
+)
+def test_analysis_errors_name_the_key(tmp_path, extra, fragment):
+    with pytest.raises(ProjectError) as exc:
+        _project(tmp_path, extra)
+    assert fragment in str(exc.value)
