@@ -521,6 +521,7 @@ def test_defaults_for_title_and_output(tmp_path: Path) -> None:
 
 def test_the_documented_example_runs(tmp_path: Path) -> None:
     doc = (ROOT / "README.md").read_text(encoding="utf-8")
+    doc = doc[doc.index("## The model file"):]  # the example is the first block there
     block = re.findall(r"```toml\n(.*?)```", doc, re.S)[0]
     with warnings.catch_warnings():
         warnings.simplefilter("error", SpaceframeWarning)  # the example warns of nothing
