@@ -32,13 +32,13 @@ import os
 import tempfile
 import warnings
 from collections.abc import Iterator
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from spaceframe.errors import ReadError, SpaceframeWarning
+from spaceframe.io._cells import _Cells
 from spaceframe.io._common import (
     HEAL_OPTIONS,
     RawGeometry,
@@ -57,6 +57,7 @@ from spaceframe.io._gmsh import (
     read_gmsh2,
     read_gmsh41,
 )
+from spaceframe.io._obj import _read_obj
 from spaceframe.model import Model
 
 __all__ = ["FACE_CELLS", "LINE_CELLS", "read"]
@@ -161,29 +162,6 @@ def _strip_triangles(strips: np.ndarray, ids: np.ndarray) -> tuple[np.ndarray, n
     tri[:, odd, 0], tri[:, odd, 1] = strips[:, j[odd] + 1], strips[:, j[odd]]
     return tri.reshape(-1, 3), np.repeat(ids, size - 2)
 
-
-@dataclass
-class _Cells:
-    """Cells of a mesh, grouped in blocks of one kind and size."""
-
-    points: np.ndarray
-    blocks: list[tuple[str, np.ndarray, np.ndarray]] = field(default_factory=list)
-    sets: dict[str, np.ndarray] = field(default_factory=dict)
-    point_sets: dict[str, np.ndarray] = field(default_factory=dict)
-    ignored: dict[str, dict[str, Any]] = field(default_factory=dict)
-    n_cells: int = 0
-    extra: dict[str, Any] = field(default_factory=dict)
-
-    def add(self, kind: str, conn: np.ndarray, ids: np.ndarray | None = None) -> np.ndarray:
-        """Add a block; returns its global cell ids (consecutive unless given)."""
-        conn = np.asarray(conn, dtype=np.int64)
-        if conn.ndim == 1:
-            conn = conn.reshape(-1, 1)
-        if ids is None:
-            ids = np.arange(self.n_cells, self.n_cells + conn.shape[0], dtype=np.int64)
-            self.n_cells += conn.shape[0]
-        self.blocks.append((kind, conn, ids))
-        return ids
 
 
 # ---------------------------------------------------------------------------
@@ -486,152 +464,6 @@ def _read_vtk(path: Path, where: str, group_field: str | None) -> _Cells:
 # ---------------------------------------------------------------------------
 # Wavefront OBJ
 # ---------------------------------------------------------------------------
-
-
-# Statement keywords of the Wavefront OBJ format (Wavefront Technologies,
-# "Object Files (.obj)", Advanced Visualizer manual, appendix B1); those not
-# read here are counted as ignored.  A line starting with anything else is
-# not OBJ at all.
-_OBJ_KEYWORDS = frozenset(
-    "v vt vn vp l f p g o s mg usemtl mtllib usemap maplib cstype deg bmat step curv "
-    "curv2 surf parm trim hole scrv sp end con bevel c_interp d_interp lod shadow_obj "
-    "trace_obj ctech stech call csh".split()
-)
-
-
-def _short(text: str, n: int = 40) -> str:
-    """``text`` quoted, cut to ``n`` characters (messages stay one short line)."""
-    return repr(text if len(text) <= n else text[:n] + "...")
-
-
-def _obj_index(token: str, n_vertices: int, where: str, line_no: int) -> int:
-    head = token.split("/", 1)[0]
-    try:
-        i = int(head)
-    except ValueError:
-        raise ReadError(f"{where}: line {line_no}: bad vertex index {_short(token)}") from None
-    # OBJ indices start at 1; negative ones count back from the latest vertex.
-    j = n_vertices + i if i < 0 else i - 1
-    if not 0 <= j < n_vertices:
-        raise ReadError(
-            f"{where}: line {line_no}: vertex index {i} refers to no vertex "
-            f"({n_vertices} defined so far)"
-        )
-    return j
-
-
-def _not_obj(where: str, first_foreign: tuple[int, str] | None) -> None:
-    """ReadError saying the file is no OBJ file, when a foreign line was seen."""
-    if first_foreign is not None:
-        line_no, key = first_foreign
-        raise ReadError(
-            f"{where}: not a Wavefront OBJ file: line {line_no} starts with {_short(key)}"
-        )
-
-
-def _read_obj(path: Path, where: str) -> _Cells:
-    """Vertices, ``l`` polylines, ``f`` faces and ``g``/``o`` groups of an OBJ file."""
-    try:
-        text = path.read_text(encoding="utf-8", errors="replace")
-    except OSError as exc:
-        raise ReadError(f"{where}: cannot read: {exc}") from exc
-    if "\x00" in text[:65536]:
-        raise ReadError(f"{where}: binary data, not a Wavefront OBJ (text) file")
-    xyz: list[list[str]] = []
-    xyz_lines: list[int] = []
-    polylines: list[list[int]] = []
-    faces: list[list[int]] = []
-    line_owner: list[int] = []
-    face_owner: list[int] = []
-    owner_groups: list[tuple[str, ...]] = []
-    current: tuple[str, ...] = ()
-    obj_name: tuple[str, ...] = ()
-    ignored: dict[str, dict[str, Any]] = {}
-    pending = ""
-    first_foreign: tuple[int, str] | None = None
-    for line_no, raw_line in enumerate(text.splitlines(), start=1):
-        line = pending + raw_line.split("#", 1)[0]
-        if line.endswith("\\"):
-            pending = line[:-1] + " "
-            continue
-        pending = ""
-        tok = line.split()
-        if not tok:
-            continue
-        key = tok[0]
-        if key == "v":
-            if len(tok) < 4:
-                _not_obj(where, first_foreign)
-                raise ReadError(
-                    f"{where}: line {line_no}: vertex needs x y z, got {_short(line.strip())}"
-                )
-            xyz.append(tok[1:4])
-            xyz_lines.append(line_no)
-        elif key in ("l", "f"):
-            try:
-                ids = [_obj_index(t, len(xyz), where, line_no) for t in tok[1:]]
-            except ReadError:
-                _not_obj(where, first_foreign)
-                raise
-            owner = len(owner_groups)
-            owner_groups.append(current + obj_name)
-            if key == "l":
-                if len(ids) >= 2:
-                    polylines.append(ids)
-                    line_owner.append(owner)
-            elif len(ids) >= 3:
-                faces.append(ids)
-                face_owner.append(owner)
-        elif key == "g":
-            current = tuple(t for t in tok[1:] if t != "default")
-        elif key == "o":
-            obj_name = tuple(tok[1:2])
-        elif key in ("vt", "vn", "vp", "s", "usemtl", "mtllib"):
-            continue
-        elif key in _OBJ_KEYWORDS:
-            count_ignored(ignored, f"OBJ statement {key!r}", " ".join(current) or "(no group)")
-        else:
-            if first_foreign is None:
-                first_foreign = (line_no, key)
-            count_ignored(ignored, "lines that are no OBJ statement", "(no group)")
-    try:
-        points = np.array(xyz, dtype=np.float64).reshape(-1, 3)
-    except ValueError:
-        for values, line_no in zip(xyz, xyz_lines, strict=True):
-            try:
-                [float(v) for v in values]
-            except ValueError:
-                raise ReadError(
-                    f"{where}: line {line_no}: bad vertex {_short(' '.join(values))}"
-                ) from None
-        raise
-    if first_foreign is not None and not (polylines or faces):
-        line_no, key = first_foreign
-        n_foreign = ignored["lines that are no OBJ statement"]["count"]
-        raise ReadError(
-            f"{where}: not a Wavefront OBJ file: line {line_no} starts with {_short(key)} "
-            f"({n_foreign} lines are no OBJ statement, and there are no lines or faces)"
-        )
-    cells = _Cells(points)
-    cells.ignored = ignored
-    # Polylines of any length become one block per length (one array each).
-    for kind, items, owners in (
-        ("poly_line", polylines, line_owner),
-        ("polygon", faces, face_owner),
-    ):
-        by_size: dict[int, list[int]] = {}
-        for k, ids in enumerate(items):
-            by_size.setdefault(len(ids), []).append(k)
-        for size, ks in by_size.items():
-            conn = np.array([items[k] for k in ks], dtype=np.int64).reshape(-1, size)
-            cells.add(kind, conn, np.asarray([owners[k] for k in ks], dtype=np.int64))
-    cells.n_cells = len(owner_groups)
-    sets: dict[str, list[int]] = {}
-    for owner, names in enumerate(owner_groups):
-        for name in names:
-            sets.setdefault(name, []).append(owner)
-    cells.sets = {name: np.asarray(ids, dtype=np.int64) for name, ids in sets.items()}
-    return cells
 
 
 # ---------------------------------------------------------------------------
