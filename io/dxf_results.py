@@ -60,6 +60,7 @@ __all__ = [
     "ZERO_COLOR",
     "LineLayer",
     "drawing_units",
+    "dxf_wanted",
     "force_bands",
     "layer_names",
     "stream_lines",
@@ -297,22 +298,35 @@ def stream_lines(stream: TextIO, segments: np.ndarray, layer: str, first_handle:
 
 
 def write_if_wanted(path: str | os.PathLike[str], results: Results, *,
-                    requested: bool | None = None, limit: int = MEMBER_LIMIT,
+                    requested: bool | None = None, limit: int | None = None,
                     **options: object) -> tuple[Path | None, str | None]:
     """Write the results drawing unless it was declined or the model is too big.
 
     ``requested`` True always writes, False never; None (the default) writes
-    up to ``limit`` members.  Returns (the file written or None, a note for
-    the user or None): when the drawing is left out because of its size the
-    note says so and how to get it.
+    up to ``limit`` members (default :data:`MEMBER_LIMIT`).  Returns (the file
+    written or None, a note for the user or None): when the drawing is left
+    out because of its size the note says so and how to get it.
     """
-    n = int(results.model.n_members)
-    if requested is False:
-        return None, None
-    if requested is None and n > limit:
-        return None, (f"{Path(path)}: results DXF not written: {n} members is above "
-                      f"{limit}; ask for it explicitly to write it")
+    wanted, note = dxf_wanted(int(results.model.n_members), Path(path), requested, limit)
+    if not wanted:
+        return None, note
     return write_results(path, results, **options), None  # type: ignore[arg-type]
+
+
+def dxf_wanted(n_members: int, path: str | os.PathLike[str] = "results.dxf",
+               requested: bool | None = None,
+               limit: int | None = None) -> tuple[bool, str | None]:
+    """Whether :func:`write_if_wanted` writes the drawing, and its note if it does not.
+
+    ``limit`` defaults to :data:`MEMBER_LIMIT`.
+    """
+    limit = MEMBER_LIMIT if limit is None else limit
+    if requested is False:
+        return False, None
+    if requested is None and n_members > limit:
+        return False, (f"{Path(path)}: results DXF not written: {n_members} members is above "
+                       f"{limit}; ask for it explicitly to write it")
+    return True, None
 
 
 def write_results(

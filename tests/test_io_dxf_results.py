@@ -330,3 +330,22 @@ def test_large_models_get_the_drawing_only_on_request(tmp_path: Path,
     path, note = dr.write_if_wanted(tmp_path / "t.dxf", results, labels=True)
     assert path is not None and note is None
     assert len(ezdxf.readfile(path).modelspace().query('TEXT[layer=="L_snow"]')) == 3
+
+
+def test_run_says_when_the_drawing_is_left_out(tmp_path: Path,
+                                               monkeypatch: pytest.MonkeyPatch) -> None:
+    from spaceframe import batch
+    from spaceframe.io import dxf_results as mod
+
+    assert mod.dxf_wanted(200_001) == (False, "results.dxf: results DXF not written: 200001 "
+                                       "members is above 200000; ask for it explicitly to "
+                                       "write it")
+    assert mod.dxf_wanted(200_000) == (True, None)
+    model = Path(__file__).parent.parent / "examples" / "canopy" / "canopy.toml"
+    monkeypatch.setattr(mod, "MEMBER_LIMIT", 1)
+    out = batch.run(model, output=tmp_path / "out", pictures=False)
+    assert not (out.output / "results.dxf").exists()
+    assert (out.output / "members.csv").exists()
+    assert any("results DXF not written" in w for w in out.summary["warnings"])
+    summary = (out.output / "summary.json").read_text(encoding="utf-8")
+    assert "results DXF not written" in summary
