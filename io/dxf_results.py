@@ -8,10 +8,11 @@ For every load case or combination written, the drawing gets:
   plus grey for members without force.  Colours are true colours, with the
   nearest ACI index as well for programs that read only ACI.
 - ``KEY_<result>``: the band legend (coloured strokes and their limits in kN).
-- ``L_<result>`` (with ``labels=True``): the force of each member in kN,
-  tension positive, as TEXT at its midpoint.
-- ``D_<result>``: the deformed shape, displacements multiplied by the scale
-  given in the layer description and in a note on the layer.
+- ``L_<result>`` (on request, ``labels=True``): the force of each member in
+  kN, tension positive, as TEXT at its midpoint.
+- ``D_<result>`` (on request, ``deformed_scale="auto"`` or a number): the
+  deformed shape, displacements multiplied by the scale given in the layer
+  description and in a note on the layer.
 
 plus ``FRAME`` (the undeformed members) and ``SUPPORTS`` (a POINT at each
 supported node).  Only the first result's layers are on when the drawing
@@ -22,17 +23,26 @@ Coordinates are in the units of the drawing the model was read from
 given inline in a model file, in that file's length unit
 (``model.meta["project:length_unit"]``); else metres.  ``$INSUNITS``,
 ``$MEASUREMENT`` and the extents (``$EXTMIN``, ``$EXTMAX``) are set to match.
+
+Above :data:`MEMBER_LIMIT` members, :func:`write_if_wanted` writes the drawing
+only on request and returns a note saying so.
+
+ezdxf writes the header, tables, layers and the few small entities (legend,
+support points, labels, notes); the member LINEs, the bulk of the file, are
+streamed as DXF text by :func:`stream_lines` (see there why).
 """
 
 from __future__ import annotations
 
+import io
 import math
 import os
 import re
 import uuid
 from collections.abc import Sequence
+from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any, TextIO
 
 import numpy as np
 
@@ -45,13 +55,26 @@ if TYPE_CHECKING:
 __all__ = [
     "BANDS",
     "COMPRESSION_COLORS",
+    "MEMBER_LIMIT",
     "TENSION_COLORS",
     "ZERO_COLOR",
+    "LineLayer",
     "drawing_units",
+    "dxf_wanted",
     "force_bands",
     "layer_names",
+    "stream_lines",
+    "write_if_wanted",
     "write_results",
 ]
+
+#: Above this many members the results drawing is written only on request
+#: (:func:`write_if_wanted`): with one force layer per result it is then
+#: hundreds of MB that few CAD programs open comfortably.
+MEMBER_LIMIT = 200_000
+
+#: LINEs formatted per chunk by :func:`stream_lines` (bounds the memory).
+CHUNK = 20_000
 
 #: Number of force bands on each side of zero.
 BANDS = 5
@@ -192,15 +215,130 @@ def drawing_units(results: Results, units: str | None = None,
     return INSUNITS[code][0], scale, code
 
 
+
+@dataclass(frozen=True)
+class LineLayer:
+    """A layer of LINEs to stream into the results drawing.
+
+    segments : (k, 2, 3) float, start and end of each line in drawing units.
+    aci : ACI colour of each line, (k,) int, or None for BYLAYER.
+    true_color : 24-bit RGB of each line, (k,) int, or None for none.
+    color : the layer's own ACI colour; description : the layer's description;
+    on : whether the layer is on when the drawing opens.
+    """
+
+    name: str
+    segments: np.ndarray
+    aci: np.ndarray | None = None
+    true_color: np.ndarray | None = None
+    color: int = 7
+    description: str = ""
+    on: bool = True
+
+
+def _format_float(values: np.ndarray) -> list[str]:
+    # repr(float) is the shortest string that reads back to the same double,
+    # as ezdxf writes coordinates.
+    return [repr(v) for v in values.tolist()]
+
+
+def stream_lines(stream: TextIO, segments: np.ndarray, layer: str, first_handle: int,
+                 owner: str, aci: np.ndarray | None = None,
+                 true_color: np.ndarray | None = None, chunk: int = CHUNK) -> int:
+    """Write ``segments`` as DXF R2000+ LINE entities on ``layer``; return the count.
+
+    Hand-written on purpose: a LINE in ezdxf is a Python object of ~720 bytes
+    that costs 45-60 us to create and write, the floor of any per-entity
+    library, and a results drawing holds a line per member and result.  The
+    text of a LINE is fixed apart from its handle, colour and six coordinates,
+    so it is formatted here from numpy arrays, ``chunk`` lines at a time, at
+    a small fraction of that cost and memory.  Everything else in the drawing
+    is left to ezdxf, and the tests read the file back with ezdxf and audit it.
+
+    Parameters
+    ----------
+    stream : text stream positioned inside the ENTITIES section
+    segments : (k, 2, 3) float
+        Start and end points in drawing units; must be finite.
+    layer : str
+        A layer that exists in the drawing (DXF-safe name).
+    first_handle : int
+        Handles ``first_handle .. first_handle + k - 1`` (hex in the file) are
+        used; the caller reserves them so that no other entity has them.
+    owner : str
+        Handle of the block record that owns the lines (model space).
+    aci, true_color : (k,) int or None
+        Per-line ACI and true colour; None writes BYLAYER.
+    """
+    seg = np.asarray(segments, dtype=float).reshape(-1, 6)
+    if not np.all(np.isfinite(seg)):
+        bad = int(np.flatnonzero(~np.all(np.isfinite(seg), axis=1))[0])
+        raise SpaceframeError(f"layer {layer}: line {bad} has a coordinate that is not finite")
+    k = seg.shape[0]
+    head = f"  0\nLINE\n  5\n%X\n330\n{owner}\n100\nAcDbEntity\n  8\n{layer}\n"
+    colour = ""
+    if aci is not None:
+        colour += " 62\n%d\n"
+    if true_color is not None:
+        colour += "420\n%d\n"
+    fmt = head + colour + "100\nAcDbLine\n 10\n%s\n 20\n%s\n 30\n%s\n 11\n%s\n 21\n%s\n 31\n%s\n"
+    columns: list[np.ndarray] = [np.arange(first_handle, first_handle + k, dtype=np.int64)]
+    if aci is not None:
+        columns.append(np.broadcast_to(np.asarray(aci, dtype=np.int64), (k,)))
+    if true_color is not None:
+        columns.append(np.broadcast_to(np.asarray(true_color, dtype=np.int64), (k,)))
+    for lo in range(0, k, chunk):
+        hi = min(k, lo + chunk)
+        fields: list[list[Any]] = [c[lo:hi].tolist() for c in columns]
+        fields += [_format_float(seg[lo:hi, j]) for j in range(6)]
+        # One %-format over the whole chunk: rows interleaved column by column.
+        flat = [v for row in zip(*fields, strict=True) for v in row]
+        stream.write((fmt * (hi - lo)) % tuple(flat))
+    return k
+
+
+def write_if_wanted(path: str | os.PathLike[str], results: Results, *,
+                    requested: bool | None = None, limit: int | None = None,
+                    **options: object) -> tuple[Path | None, str | None]:
+    """Write the results drawing unless it was declined or the model is too big.
+
+    ``requested`` True always writes, False never; None (the default) writes
+    up to ``limit`` members (default :data:`MEMBER_LIMIT`).  Returns (the file
+    written or None, a note for the user or None): when the drawing is left
+    out because of its size the note says so and how to get it.
+    """
+    wanted, note = dxf_wanted(int(results.model.n_members), Path(path), requested, limit)
+    if not wanted:
+        return None, note
+    return write_results(path, results, **options), None  # type: ignore[arg-type]
+
+
+def dxf_wanted(n_members: int, path: str | os.PathLike[str] = "results.dxf",
+               requested: bool | None = None,
+               limit: int | None = None) -> tuple[bool, str | None]:
+    """Whether :func:`write_if_wanted` writes the drawing, and its note if it does not.
+
+    ``limit`` defaults to :data:`MEMBER_LIMIT`.
+    """
+    limit = MEMBER_LIMIT if limit is None else limit
+    if requested is False:
+        return False, None
+    if requested is None and n_members > limit:
+        return False, (f"{Path(path)}: results DXF not written: {n_members} members is above "
+                       f"{limit}; ask for it explicitly to write it")
+    return True, None
+
+
 def write_results(
     path: str | os.PathLike[str],
     results: Results,
     *,
     cases: Sequence[str] | None = None,
     labels: bool = False,
-    deformed_scale: float | str | None = "auto",
+    deformed_scale: float | str | None = None,
     dxfversion: str = "R2010",
     units: str | None = None,
+    extra: Sequence[LineLayer] = (),
 ) -> Path:
     """Write a DXF drawing of the results (layers as in the module docstring).
 
@@ -212,16 +350,19 @@ def write_results(
     cases : sequence of str, optional
         Results to draw (default all load cases and combinations).
     labels : bool
-        Add each member's force in kN as text at its midpoint.
+        Add each member's force in kN as text at its midpoint (on request:
+        a TEXT per member and result is slow to write and to open).
     deformed_scale : "auto", float or None
         Multiplier of displacements for the deformed-shape layers; "auto"
-        draws the largest at 5 % of the model size, per result; None or 0
-        leaves the deformed layers out.
+        draws the largest at 5 % of the model size, per result; None (the
+        default) or 0 leaves the deformed layers out.
     dxfversion : str
         DXF release, R2004 or later (true colour needs it).
     units : str, optional
         Length unit of the drawing ("mm", "m", "ft", ...); default as in
         :func:`drawing_units` (the source drawing's, else the model file's).
+    extra : sequence of LineLayer
+        Further layers of lines (in drawing units) streamed like the others.
 
     Returns
     -------
@@ -237,8 +378,9 @@ def write_results(
 
     Notes
     -----
-    The drawing is checked with ezdxf's auditor before it is saved, under a
-    temporary name in the target folder that is renamed on success.
+    The drawing is generated here from scratch, so it is not audited before
+    saving (the tests audit what this writes).  It is saved under a temporary
+    name in the target folder that is renamed on success.
     """
     import ezdxf
     from ezdxf.colors import rgb2int
@@ -266,12 +408,14 @@ def write_results(
     doc.header["$INSUNITS"] = code
     doc.header["$MEASUREMENT"] = 0 if unit_name in _IMPERIAL else 1
     msp = doc.modelspace()
-    colors = {b: _band_color(b) for b in range(-BANDS, BANDS + 1)}
+    band_values = np.arange(-BANDS, BANDS + 1)
+    colors = {int(b): _band_color(int(b)) for b in band_values}
+    aci_of = np.array([_nearest_aci(colors[int(b)]) for b in band_values], dtype=np.int64)
+    rgb_of = np.array([rgb2int(colors[int(b)]) for b in band_values], dtype=np.int64)
     attribs = {b: {"true_color": rgb2int(c), "color": _nearest_aci(c)} for b, c in colors.items()}
 
-    doc.layers.add("FRAME", color=8)
-    for a, b in ends.tolist():
-        msp.add_line(nodes[a], nodes[b], dxfattribs={"layer": "FRAME"})
+    frame = np.stack([nodes[ends[:, 0]], nodes[ends[:, 1]]], axis=1)
+    streamed: list[LineLayer] = [LineLayer("FRAME", frame, color=8)]
     doc.layers.add("SUPPORTS", color=3)
     for i in supported_nodes(model).tolist():
         msp.add_point(nodes[i], dxfattribs={"layer": "SUPPORTS"})
@@ -281,12 +425,11 @@ def write_results(
         res = results[name]
         tag = tags[name]
         bands, top = force_bands(res.axial_forces)
-        layer = doc.layers.add(f"N_{tag}", color=7)
-        layer.description = f"axial force bands of {name}, max |N| = {top / 1e3:.3f} kN"
-        new_layers = [layer]
-        for (a, b), band in zip(ends.tolist(), bands.tolist(), strict=True):
-            msp.add_line(nodes[a], nodes[b], dxfattribs={"layer": f"N_{tag}", **attribs[band]})
-
+        streamed.append(LineLayer(
+            f"N_{tag}", frame, aci=aci_of[bands + BANDS], true_color=rgb_of[bands + BANDS],
+            description=f"axial force bands of {name}, max |N| = {top / 1e3:.3f} kN",
+            on=step == 0))
+        new_layers = []
         key = doc.layers.add(f"KEY_{tag}", color=7)
         key.description = f"force band legend of {name}"
         new_layers.append(key)
@@ -346,17 +489,19 @@ def write_results(
 
         scale = scales[name]
         if scale > 0:
-            dlay = doc.layers.add(f"D_{tag}", color=6)
-            dlay.description = f"deformed shape of {name}, displacements x {scale:.6g}"
-            new_layers.append(dlay)
             moved = nodes + scale * res.displacements / per_unit
             ext_lo = np.minimum(ext_lo, moved.min(axis=0))
             ext_hi = np.maximum(ext_hi, moved.max(axis=0))
             # The note above the frame: ~60 characters.
             ext_hi = np.maximum(ext_hi, (x0 + 60 * 0.8 * text_height,
                                          float(hi[1]) + 3.0 * text_height, z0))
-            for a, b in ends.tolist():
-                msp.add_line(moved[a], moved[b], dxfattribs={"layer": f"D_{tag}"})
+            streamed.append(LineLayer(
+                f"D_{tag}", np.stack([moved[ends[:, 0]], moved[ends[:, 1]]], axis=1), color=6,
+                description=f"deformed shape of {name}, displacements x {scale:.6g}",
+                on=step == 0))
+            dnote = doc.layers.add(f"D_{tag}", color=6)
+            dnote.description = streamed[-1].description
+            new_layers.append(dnote)
             msp.add_text(
                 f"{name}: deformed shape, displacements x {format_number(scale, 3)}",
                 height=text_height,
@@ -368,17 +513,47 @@ def write_results(
             for lay in new_layers:
                 lay.off()
 
+    streamed += list(extra)
+    for ll in streamed:
+        seg = np.asarray(ll.segments, dtype=float).reshape(-1, 2, 3)
+        if seg.size:
+            ext_lo = np.minimum(ext_lo, seg.min(axis=(0, 1)))
+            ext_hi = np.maximum(ext_hi, seg.max(axis=(0, 1)))
+        if ll.name in doc.layers:
+            continue  # the deformed layer, made above with its note
+        lay = doc.layers.add(ll.name, color=ll.color)
+        if ll.description:
+            lay.description = ll.description
+        if not ll.on:
+            lay.off()
+
     # ezdxf copies the model space's extents into the header when saving.
     msp.dxf.extmin = tuple(float(v) for v in ext_lo)
     msp.dxf.extmax = tuple(float(v) for v in ext_hi)
-    auditor = doc.audit()
-    if auditor.has_errors:
-        first = auditor.errors[0]
-        raise SpaceframeError(f"{final}: the drawing failed the DXF audit: {first.message}")
+    # Reserve the handles of the streamed lines so that $HANDSEED, which
+    # ezdxf writes from its handle generator, lies above all of them.
+    total = sum(int(np.asarray(ll.segments).reshape(-1, 6).shape[0]) for ll in streamed)
+    handles = doc.entitydb.handles
+    first = int(str(handles), 16)
+    handles.reset("%X" % (first + total))
+    owner = msp.block_record_handle
+    buffer = io.StringIO()
+    doc.write(buffer)
+    body = buffer.getvalue()
+    del buffer
+    at = body.index("  2\nENTITIES\n")
+    cut = body.index("  0\nENDSEC\n", at)
+
     final.parent.mkdir(parents=True, exist_ok=True)
     tmp = final.with_name(f".{final.stem}.{os.getpid()}-{uuid.uuid4().hex[:12]}.dxf")
     try:
-        doc.saveas(tmp)
+        with open(tmp, "w", encoding="utf-8", newline="") as fh:
+            fh.write(body[:cut])
+            handle = first
+            for ll in streamed:
+                handle += stream_lines(fh, ll.segments, ll.name, handle, owner,
+                                       aci=ll.aci, true_color=ll.true_color)
+            fh.write(body[cut:])
         os.replace(tmp, final)
     finally:
         tmp.unlink(missing_ok=True)

@@ -682,12 +682,20 @@ def _write_outputs(
 
     from spaceframe.io import tables
 
+    if importlib.util.find_spec("ezdxf") is not None:
+        from spaceframe.io.dxf_results import dxf_wanted
+
+        note = dxf_wanted(results.model.n_members, "results.dxf")[1]
+        if note is not None:  # said in the summary and by the command
+            extra["warnings"].append(note)
     files = [Path(p) for p in tables.write(folder, results, extra=extra)]
     if importlib.util.find_spec("ezdxf") is not None:
         from spaceframe.io import dxf_results
 
         progress("write DXF")
-        files.append(Path(dxf_results.write_results(folder / "results.dxf", results)))
+        dxf, _ = dxf_results.write_if_wanted(folder / "results.dxf", results)
+        if dxf is not None:
+            files.append(dxf)
     if importlib.util.find_spec("pyvista") is not None:
         from spaceframe.io import vtk
 

@@ -525,17 +525,33 @@ def _selector(ctx: _Ctx, where: str, value: Any) -> sel.Selector:
     return out
 
 
+def _box_corner(ctx: _Ctx, where: str, value: Any) -> np.ndarray:
+    # A box's bounds may be open: TOML's inf / -inf (or the strings "inf",
+    # "-inf") stand for "no bound on this axis"; NaN is still refused.
+    if not isinstance(value, list) or len(value) != 3:
+        ctx.fail(where, value, "expected a list of 3 components [x, y, z]")
+    out = []
+    for i, v in enumerate(value):
+        if isinstance(v, str) and v.strip().lower() in ("inf", "+inf", "-inf"):
+            v = float(v)
+        if isinstance(v, float) and math.isinf(v):
+            out.append(v)
+        else:
+            out.append(_quantity(ctx, _key(where, i), v, "length"))
+    return np.array(out)
+
+
 def _box(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Box:
     spec = t.raw("box")
     where = t.path("box")
     if isinstance(spec, dict):
         b = _Table(ctx, spec, where)
-        lo = b.vector("min", "length")
-        hi = b.vector("max", "length")
+        lo = _box_corner(ctx, b.path("min"), b.raw("min"))
+        hi = _box_corner(ctx, b.path("max"), b.raw("max"))
         b.done()
     elif isinstance(spec, list) and len(spec) == 2:
-        lo = _vector(ctx, _key(where, 0), spec[0], "length")
-        hi = _vector(ctx, _key(where, 1), spec[1], "length")
+        lo = _box_corner(ctx, _key(where, 0), spec[0])
+        hi = _box_corner(ctx, _key(where, 1), spec[1])
     else:
         ctx.fail(where, spec, "expected { min = [x, y, z], max = [x, y, z] }")
     return sel.Box((float(lo[0]), float(lo[1]), float(lo[2])),

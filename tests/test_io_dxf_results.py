@@ -32,7 +32,8 @@ def results() -> sf.Results:
 
 @pytest.fixture
 def drawing(tmp_path: Path, results: sf.Results) -> ezdxf.document.Drawing:
-    path = dr.write_results(tmp_path / "tripod.dxf", results, labels=True)
+    path = dr.write_results(tmp_path / "tripod.dxf", results, labels=True,
+                            deformed_scale="auto")
     assert path == tmp_path / "tripod.dxf"
     return ezdxf.readfile(path)
 
@@ -55,7 +56,7 @@ def test_layers_per_result_and_first_on(drawing: ezdxf.document.Drawing) -> None
 
 
 def test_audit_passes_on_read_back(tmp_path: Path, results: sf.Results) -> None:
-    path = dr.write_results(tmp_path / "t.dxf", results, labels=True)
+    path = dr.write_results(tmp_path / "t.dxf", results, labels=True, deformed_scale="auto")
     doc, auditor = recover.readfile(path)
     assert not auditor.has_errors
     assert not doc.audit().has_errors
@@ -159,7 +160,7 @@ def _frame_points(doc: ezdxf.document.Drawing) -> np.ndarray:
 def test_written_in_the_source_drawings_units(tmp_path: Path, results: sf.Results) -> None:
     # The model came from a drawing in millimetres: the results overlay it 1:1.
     results.model.meta["units"] = {"name": "mm", "scale": 1e-3, "source": "$INSUNITS = 4"}
-    doc = ezdxf.readfile(dr.write_results(tmp_path / "mm.dxf", results))
+    doc = ezdxf.readfile(dr.write_results(tmp_path / "mm.dxf", results, deformed_scale="auto"))
     assert doc.header["$INSUNITS"] == 4  # DXF reference: 4 = millimetres
     assert doc.header["$MEASUREMENT"] == 1
     model = results.model
@@ -198,3 +199,153 @@ def test_inline_model_in_the_model_files_unit(tmp_path: Path, results: sf.Result
     doc = ezdxf.readfile(dr.write_results(tmp_path / "m.dxf", results))
     assert doc.header["$INSUNITS"] == 6
     assert _frame_points(doc)[:, 2].max() == pytest.approx(H_APEX, rel=1e-12)
+
+
+# ----------------------------------------------------------- streamed LINEs
+def _grid_results() -> sf.Results:
+    from benchmarks.grids import double_layer_grid
+
+    m = double_layer_grid(6, 5)  # 240 members, invented demo data
+    m.add_load("side", [0, 1, 2], (3.0e3, 0.0, 0.0))
+    m.add_combination("both", {"roof": 1.35, "side": 1.5})
+    return m.solve()
+
+
+def _line_arrays(doc: ezdxf.document.Drawing, layer: str) -> tuple[np.ndarray, list, list]:
+    lines = _lines(doc, layer)
+    seg = np.array([[tuple(e.dxf.start), tuple(e.dxf.end)] for e in lines]).reshape(-1, 2, 3)
+    return seg, [e.dxf.get("color") for e in lines], [e.dxf.get("true_color") for e in lines]
+
+
+def test_streamed_drawing_reads_back_and_audits_clean(tmp_path: Path) -> None:
+    results = _grid_results()
+    results.model.meta["units"] = {"name": "mm", "scale": 1e-3, "source": "$INSUNITS = 4"}
+    path = dr.write_results(tmp_path / "grid.dxf", results)
+    doc = ezdxf.readfile(path)
+    auditor = doc.audit()
+    assert not auditor.has_errors, [e.message for e in auditor.errors]
+    assert not auditor.has_fixes, [e.message for e in auditor.fixes]
+    assert doc.header["$INSUNITS"] == 4
+    model = results.model
+    b = model.n_members
+    frame = np.stack([model.nodes[model.members[:, 0]],
+                      model.nodes[model.members[:, 1]]], axis=1) * 1e3
+    # Default: frame and force layers only; no deformed shapes or labels.
+    names = {layer.dxf.name for layer in doc.layers}
+    assert not any(n.startswith(("D_", "L_")) for n in names)
+    msp = doc.modelspace()
+    assert len(msp.query("LINE")) == b * (1 + len(results)) + 11 * len(results)  # + legends
+    assert len(msp.query("TEXT")) == 12 * len(results)  # the legends' rows only
+    seg, aci, rgb = _line_arrays(doc, "FRAME")
+    np.testing.assert_array_equal(seg, frame)  # repr() round-trips doubles exactly
+    assert set(aci) == {None} and set(rgb) == {None}  # BYLAYER
+    for name in results:
+        bands, _ = dr.force_bands(results[name].axial_forces)
+        seg, aci, rgb = _line_arrays(doc, f"N_{name}")
+        np.testing.assert_array_equal(seg, frame)
+        from ezdxf.colors import rgb2int
+
+        assert rgb == [rgb2int(dr._band_color(int(k))) for k in bands]
+        assert aci == [dr._nearest_aci(dr._band_color(int(k))) for k in bands]
+    assert {"N_roof", "N_side", "N_both"} <= names
+    assert doc.layers.get("N_roof").is_on() and not doc.layers.get("N_both").is_on()
+    # Handles are unique and below the seed for new ones.
+    handles = [int(e.dxf.handle, 16) for e in msp]
+    assert len(set(handles)) == len(handles)
+    assert int(doc.header["$HANDSEED"], 16) > max(handles)
+    # ezdxf's recover loader finds nothing to repair either.
+    _, recovered = recover.readfile(path)
+    assert not recovered.has_errors and not recovered.has_fixes
+
+
+def test_deformed_shapes_and_labels_only_on_request(tmp_path: Path) -> None:
+    results = _grid_results()
+    doc = ezdxf.readfile(dr.write_results(tmp_path / "d.dxf", results, labels=True,
+                                          deformed_scale=10.0))
+    assert not doc.audit().has_errors
+    model = results.model
+    for name in results:
+        moved = model.nodes + 10.0 * results[name].displacements
+        seg, _, _ = _line_arrays(doc, f"D_{name}")
+        np.testing.assert_allclose(seg, np.stack([moved[model.members[:, 0]],
+                                                  moved[model.members[:, 1]]], axis=1),
+                                   rtol=0, atol=1e-12)
+        assert len(doc.modelspace().query(f'TEXT[layer=="L_{name}"]')) == model.n_members
+
+
+def test_extra_layer_of_segments_is_streamed(tmp_path: Path) -> None:
+    results = _grid_results()
+    seg = np.array([[[0.0, 0.0, 0.0], [1.0, 2.0, 3.0]], [[0.5, -1.0, 2.0], [7.0, 8.0, 9.25]]])
+    extra = dr.LineLayer("MARKED", seg, aci=np.array([1, 5]), color=1, description="two lines")
+    doc = ezdxf.readfile(dr.write_results(tmp_path / "e.dxf", results, extra=[extra]))
+    assert not doc.audit().has_errors
+    got, aci, rgb = _line_arrays(doc, "MARKED")
+    np.testing.assert_array_equal(got, seg)
+    assert aci == [1, 5] and rgb == [None, None]
+    lay = doc.layers.get("MARKED")
+    assert lay.color == 1 and lay.description == "two lines"
+    assert np.all(np.array(doc.header["$EXTMAX"]) >= seg.max(axis=(0, 1)))
+
+
+def test_stream_lines_refuses_non_finite_coordinates() -> None:
+    import io
+
+    seg = np.zeros((3, 2, 3))
+    seg[2, 1, 0] = np.nan
+    with pytest.raises(sf.SpaceframeError, match="layer X: line 2 "):
+        dr.stream_lines(io.StringIO(), seg, "X", 0x100, "17")
+
+
+def test_stream_lines_chunks_give_the_same_text() -> None:
+    import io
+
+    rng = np.random.default_rng(1)
+    seg = rng.normal(size=(7, 2, 3))
+    a, b = io.StringIO(), io.StringIO()
+    assert dr.stream_lines(a, seg, "L", 0x2A, "17", aci=np.arange(1, 8)) == 7
+    dr.stream_lines(b, seg, "L", 0x2A, "17", aci=np.arange(1, 8), chunk=3)
+    assert a.getvalue() == b.getvalue()
+    assert a.getvalue().count("  0\nLINE\n") == 7 and "  5\n2A\n" in a.getvalue()
+
+
+def test_no_audit_on_the_tools_own_drawing(tmp_path: Path, results: sf.Results,
+                                          monkeypatch: pytest.MonkeyPatch) -> None:
+    def refuse(self: object) -> None:
+        raise AssertionError("audit called")
+
+    monkeypatch.setattr(ezdxf.document.Drawing, "audit", refuse)
+    assert dr.write_results(tmp_path / "a.dxf", results).exists()
+
+
+def test_large_models_get_the_drawing_only_on_request(tmp_path: Path,
+                                                     results: sf.Results) -> None:
+    path, note = dr.write_if_wanted(tmp_path / "r.dxf", results, limit=2)
+    assert path is None and note is not None
+    assert "3 members is above 2" in note and "r.dxf" in note
+    assert list(tmp_path.iterdir()) == []
+    path, note = dr.write_if_wanted(tmp_path / "r.dxf", results, limit=2, requested=True)
+    assert path == tmp_path / "r.dxf" and path.exists() and note is None
+    path, note = dr.write_if_wanted(tmp_path / "s.dxf", results, requested=False)
+    assert path is None and note is None and not (tmp_path / "s.dxf").exists()
+    path, note = dr.write_if_wanted(tmp_path / "t.dxf", results, labels=True)
+    assert path is not None and note is None
+    assert len(ezdxf.readfile(path).modelspace().query('TEXT[layer=="L_snow"]')) == 3
+
+
+def test_run_says_when_the_drawing_is_left_out(tmp_path: Path,
+                                               monkeypatch: pytest.MonkeyPatch) -> None:
+    from spaceframe import batch
+    from spaceframe.io import dxf_results as mod
+
+    assert mod.dxf_wanted(200_001) == (False, "results.dxf: results DXF not written: 200001 "
+                                       "members is above 200000; ask for it explicitly to "
+                                       "write it")
+    assert mod.dxf_wanted(200_000) == (True, None)
+    model = Path(__file__).parent.parent / "examples" / "canopy" / "canopy.toml"
+    monkeypatch.setattr(mod, "MEMBER_LIMIT", 1)
+    out = batch.run(model, output=tmp_path / "out", pictures=False)
+    assert not (out.output / "results.dxf").exists()
+    assert (out.output / "members.csv").exists()
+    assert any("results DXF not written" in w for w in out.summary["warnings"])
+    summary = (out.output / "summary.json").read_text(encoding="utf-8")
+    assert "results DXF not written" in summary

@@ -182,3 +182,37 @@ def test_selections_at_site_coordinates() -> None:
     assert ids(m, s.Plane((1, 1, 0), (ox + oy + 4) / np.sqrt(2))) == [2, 4, 6, 10, 11]
     assert ids(m, s.Markers(("SUPPORTS",))) == [0, 2, 6, 8]
     assert ids(m, s.Points(((ox + 2, oy + 2, oz + 1.0005), (ox + 1, oy + 1, oz)))) == [4, 9]
+
+
+def test_model_file_box_bounds_may_be_infinite(tmp_path) -> None:
+    # README: box bounds take inf / -inf for "no bound". The canopy's centre box,
+    # opened downwards in z and to +x / +y, picks the nodes with x >= 1.5 and
+    # y >= 1.5: top nodes 4, 5, 7, 8 and bottom node 12 at (3, 3, 0) (ids known by
+    # construction).
+    from test_project import CANOPY
+
+    from spaceframe.project import load_project
+
+    old = "centre = { box = { min = [1.5, 1.5, 0.5], max = [2.5, 2.5, 1.5] } }"
+    assert old in CANOPY
+    text = CANOPY.replace(
+        old, 'centre = { box = { min = [1.5, 1.5, -inf], max = [inf, "inf", 1.5] } }'
+    )
+    path = tmp_path / "canopy.toml"
+    path.write_text(text, encoding="utf-8")
+    r = load_project(path).solve()["service"]
+    # 1.5 kN down on each picked node (plus the 0.9 kN along x shared by the top nodes).
+    fz = r.loads[:, 2]
+    assert np.flatnonzero(fz).tolist() == [4, 5, 7, 8, 12]
+    np.testing.assert_allclose(fz[[4, 5, 7, 8, 12]], -1.5e3, rtol=1e-12)
+    # NaN is still refused, naming the key.
+    bad = CANOPY.replace(old, "centre = { box = { min = [1.5, nan, 0.5], max = [2.5, 2.5, 1.5] } }")
+    path.write_text(bad, encoding="utf-8")
+    with pytest.raises(sf.SpaceframeError, match=r"selections\.centre\.box\.min\[1\]"):
+        load_project(path)
+
+
+def test_box_with_open_bounds_selects_by_the_finite_ones(model: sf.Model) -> None:
+    inf = float("inf")
+    assert ids(model, s.Box((-inf, -inf, -inf), (inf, inf, 0.5))) == BOTTOM
+    assert ids(model, s.Box((3.0, -inf, -inf), (inf, inf, inf))) == [2, 5, 8, 10, 12]

@@ -1,0 +1,77 @@
+"""The self-checks of all results in one pass give what the column-by-column checks give."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import spaceframe as sf
+from spaceframe.analysis import static
+
+sys.path.insert(0, str(Path(__file__).resolve().parent / "benchmarks"))
+from grids import double_layer_grid
+
+
+def _model() -> sf.Model:
+    # Invented demo data: a 3 x 3 bay grid with a spring, a warmed chord, a settled
+    # support, an unloaded case and combinations of them all.
+    m = double_layer_grid(3, 3)
+    m.set_member_properties(np.arange(m.n_members), alpha=12e-6)  # steel, common practice
+    m.add_spring([5], kz=2.0e6)
+    m.add_load("side", [0, 1], (4.0e3, 0.0, 0.0))
+    m.add_temperature("warm", [0, 1, 2], 30.0)
+    m.add_settlement("settle", [0], (0.0, 0.0, -0.004))
+    m.add_load("nothing", [0], (0.0, 0.0, 0.0))
+    m.add_combination("ULS", {"roof": 1.35, "side": 1.5, "warm": 0.6})
+    m.add_combination("SLS", {"roof": 1.0, "settle": 1.0})
+    m.add_combination("twice", {"side": 1.0, "nothing": 2.0})
+    return m
+
+
+def _per_column(model, labels, U, T, R, F, elong, E0, A, absA, spring, restrained):  # type: ignore[no-untyped-def]
+    return {name: static._make_result(model, name, kind, U[:, j], T[:, j], R[:, j], F[:, j],
+                                      elong[:, j], E0[:, j], A, absA, spring, restrained,
+                                      factors=factors)
+            for j, (kind, name, factors) in enumerate(labels)}
+
+
+def test_batched_checks_equal_the_per_result_checks(monkeypatch: pytest.MonkeyPatch) -> None:
+    batched = _model().solve()
+    monkeypatch.setattr(static, "_make_results", _per_column)
+    reference = _model().solve()
+    assert list(batched) == list(reference)
+    for name in reference:
+        a, b = batched[name], reference[name]
+        assert a.kind == b.kind and a.factors == b.factors
+        for field in ("displacements", "axial_forces", "reactions", "loads", "elongations"):
+            np.testing.assert_array_equal(getattr(a, field), getattr(b, field), err_msg=name)
+        assert a.residual == b.residual, name
+    # The unloaded case's forces are all exactly zero (round-off cleared).
+    assert not np.any(batched["nothing"].axial_forces)
+    # Warmed chords between pinned perimeter nodes carry force (common practice),
+    # and so does a settled support of this statically indeterminate frame.
+    assert np.any(batched["warm"].axial_forces)
+    assert np.any(batched["settle"].axial_forces)
+
+
+def test_batched_checks_fail_closed_on_the_right_result() -> None:
+    m = _model()
+    r = m.solve()
+    n3 = 3 * m.n_nodes
+    U = np.column_stack([r[k].displacements.ravel() for k in r])
+    T = np.column_stack([r[k].axial_forces for k in r])
+    R = np.column_stack([r[k].reactions.ravel() for k in r])
+    F = np.column_stack([r[k].loads.ravel() for k in r])
+    E = np.column_stack([r[k].elongations for k in r])
+    E0 = np.zeros_like(E)
+    labels = [(r[k].kind, k, None) for k in r]
+    U[1, 5] = np.nan  # column 5: ULS, after the five cases
+    A = static.equilibrium_matrix(m)
+    with pytest.raises(sf.SolverError, match=r"combination 'ULS': the solver returned non-finite "
+                       "displacements"):
+        static._make_results(m, labels, U, T, R, F, E, E0, A, abs(A), m.springs.ravel(),
+                             m.restraint.ravel())
+    assert U.shape[0] == n3
