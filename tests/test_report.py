@@ -253,3 +253,21 @@ def test_run_pictures_default_to_combinations_and_envelopes(tmp_path: Path) -> N
     with pytest.raises(sf.ModelError, match="no result named 'rain'"):
         batch.run(toml, tmp_path / "out3", pictures="rain")
     assert not (tmp_path / "out3").exists()
+
+
+def test_cases_whose_names_differ_only_in_dropped_characters_get_their_own_charts(
+    tmp_path: Path,
+) -> None:
+    # "heat x" and "heat_x" make the same safe file name; each must keep its own chart.
+    m = sf.Model()
+    m.add_nodes([[0, 0, 0], [2, 0, 0], [1, 0, 1.5]])
+    m.add_members([[0, 2], [1, 2], [0, 1]], area=1e-3, E=210e9, alpha=12e-6)
+    m.add_support([0, 1])
+    m.add_support([2], x=False, z=False)
+    m.add_load("heat x", 2, (0.0, 0.0, -1e3))
+    m.add_load("heat_x", 2, (0.0, 0.0, -2e3))
+    res = m.solve()
+    charts = report.write_charts(tmp_path, res, cases=["heat x", "heat_x"])
+    names = [p.name for p in charts]
+    assert len(names) == 4 and len(set(n.lower() for n in names)) == 4
+    assert all(p.is_file() for p in charts)
