@@ -201,6 +201,7 @@ def write_results(
     deformed_scale: float | str | None = "auto",
     dxfversion: str = "R2010",
     units: str | None = None,
+    failing: Sequence[int] | None = None,
 ) -> Path:
     """Write a DXF drawing of the results (layers as in the module docstring).
 
@@ -222,6 +223,8 @@ def write_results(
     units : str, optional
         Length unit of the drawing ("mm", "m", "ft", ...); default as in
         :func:`drawing_units` (the source drawing's, else the model file's).
+    failing : sequence of int, optional
+        Members that fail a design check: drawn on a layer ``FAILING`` (red).
 
     Returns
     -------
@@ -275,6 +278,12 @@ def write_results(
     doc.layers.add("SUPPORTS", color=3)
     for i in supported_nodes(model).tolist():
         msp.add_point(nodes[i], dxfattribs={"layer": "SUPPORTS"})
+    if failing is not None:  # design checks: the failing members on a layer of their own
+        bad = np.unique(np.asarray(failing, dtype=np.int64))
+        doc.layers.add("FAILING", color=1).description = (
+            f"{bad.size} members that fail a design check")
+        for a, b in ends[bad].tolist():
+            msp.add_line(nodes[a], nodes[b], dxfattribs={"layer": "FAILING"})
 
     tags = layer_names(results, names)
     for step, name in enumerate(names):
