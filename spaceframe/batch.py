@@ -699,8 +699,8 @@ def run(
         _fault("after-mkdtemp")
         progress("write tables")
         t = time.perf_counter()
-        extra = {k: summ[k] for k in ("source", "title", "warnings", "envelopes", "design")
-                 if k in summ}
+        extra: dict[str, Any] = {k: summ[k] for k in ("source", "title", "warnings",
+                                                      "envelopes", "design") if k in summ}
         files += _write_outputs(tmp, results, loaded, pictures, progress, extra, design)
         files += tables.write_envelopes(tmp, results, envelopes)
         _fault("after-write")
@@ -772,9 +772,9 @@ def _write_outputs(
                 util = {n: u for n, u in design.per_result.items() if n in drawable}
                 shown = [n for n in chosen if n in util] or list(util)[:1]
                 pics += [Path(p) for p in report.write_pictures(
-                    folder / "pictures", drawable, views=("iso",), cases=shown,
+                    folder / "pictures" / "utilisation", drawable, views=("iso",), cases=shown,
                     color_by="utilisation", utilisation=util, prefix="utilisation_",
-                    progress=progress)]
+                    progress=lambda text: progress("utilisation " + text))]
             charts = [Path(p) for p in report.write_charts(folder / "pictures", drawable,
                                                            cases=chosen)]
             progress("write report")

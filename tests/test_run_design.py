@@ -174,7 +174,7 @@ def test_report_first_page_and_utilisation_picture(tmp_path):
     assert ("member resistance to axial force only; joints, connections, local effects, "
             "fatigue, fire and the national annex are the engineer&#x27;s") in text
     assert "Results must be checked by a qualified engineer" in text
-    pic = out.output / "pictures" / "utilisation_ULS_iso.png"
+    pic = out.output / "pictures" / "utilisation" / "utilisation_ULS_iso.png"
     assert pic in out.files and pic.stat().st_size > 0
 
 
