@@ -12,6 +12,9 @@ for ids and text):
   restrained directions, then per result ``<result>: Rx [N]``, ``Ry``, ``Rz``
 - ``summary.json``: :func:`spaceframe.summary.summary`, plus ``"tables"``
   stating the precision of the CSV files
+- ``member_design.csv`` (:func:`write_member_design`, when design checks ran):
+  per member its section, material, governing force, resistance, utilisation,
+  governing result and check
 
 Precision: the model's own numbers (coordinates, lengths, areas, moduli)
 with :data:`INPUT_DIGITS` = 15 significant digits, so every value that was

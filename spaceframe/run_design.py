@@ -243,7 +243,9 @@ class DesignOutcome:
             out["sizing"] = {
                 "converged": bool(self.sizing.converged),
                 "sections": {g: s.name for g, s in self.sizing.sections.items()},
-                "iterations": [{g: {"section": sec, "utilisation": u}
+                # None: too slender for any check (the library's inf), kept valid JSON.
+                "iterations": [{g: {"section": sec,
+                                    "utilisation": u if np.isfinite(u) else None}
                                 for g, (sec, u) in step.items()}
                                for step in self.sizing.iterations],
                 "no_section": dict(self.sizing.no_section),

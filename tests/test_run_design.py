@@ -262,3 +262,23 @@ def test_viewer_utilisation_colours(tmp_path):
         assert path.stat().st_size > 0
     finally:
         scene.close()
+
+
+def test_sizing_runs_before_the_final_solve_and_reports_iterations(tmp_path):
+    text = HEAVY + "\n[design]\n[design.sizing]\ngroups = [\"BOTTOM\"]\n"
+    out = batch.run(_write(tmp_path, text), pictures=False)
+    d = out.summary["design"]["sizing"]
+    # The library on a fresh copy of the same model gives the same choice and iterations.
+    loaded = batch.load(out.summary["source"])
+    ref = sf.size_groups(loaded.model, ["BOTTOM"], names=["ULS", "SLS"])
+    assert d["sections"] == {"BOTTOM": ref.sections["BOTTOM"].name}
+    assert d["converged"] is ref.converged is True
+    assert len(d["iterations"]) == len(ref.iterations) >= 2
+    for step, want in zip(d["iterations"], ref.iterations, strict=True):
+        assert step["BOTTOM"]["section"] == want["BOTTOM"][0]
+        assert step["BOTTOM"]["utilisation"] == pytest.approx(want["BOTTOM"][1], rel=1e-12)
+    model = out.results.model
+    bottom = model.groups["BOTTOM"]
+    np.testing.assert_allclose(model.area[bottom], ref.sections["BOTTOM"].area)  # final solve
+    rows = _rows(out.output / "member_design.csv")
+    assert {rows[j]["section [-]"] for j in bottom} == {ref.sections["BOTTOM"].name}
