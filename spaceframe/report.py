@@ -310,7 +310,8 @@ def _design_section(d: Mapping[str, Any], model: Any, unit: str, per_unit: float
             f" {_e(unit)}): <strong>{'passes' if de['passes'] else 'FAILS'}</strong>.</p>")
     sz = d.get("sizing")
     if sz:
-        rows = [(k + 1, g, v["section"], format_number(v["utilisation"], 3))
+        rows = [(k + 1, g, v["section"], "too slender" if v["utilisation"] is None
+                 else format_number(v["utilisation"], 3))
                 for k, step in enumerate(sz["iterations"]) for g, v in step.items()]
         parts.append(
             "<h3>Sizing</h3><p>"

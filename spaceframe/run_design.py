@@ -18,6 +18,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.design.steel import IMPERFECTION_FACTORS, GoverningCheck, check_results
+from spaceframe.errors import ModelError
 
 if TYPE_CHECKING:
     from spaceframe.design.deflection import DeflectionCheck
@@ -346,9 +347,17 @@ def run_checks(model: Model, results: Any, envelopes: dict[str, Any], project: A
             if n not in results:
                 from spaceframe.errors import ProjectError
 
-                raise ProjectError(f"design.deflection.results: no case or combination {n!r}")
-            out.deflection.append(check_deflection(model, results[n], nodes=nodes, span=d.span,
-                                                   ratio=d.ratio, direction=d.direction))
+                raise ProjectError(f"{getattr(project, 'path', 'model file')}: "
+                                   f"design.deflection.results: no case or combination {n!r}")
+            try:
+                out.deflection.append(check_deflection(
+                    model, results[n], nodes=nodes, span=d.span, ratio=d.ratio,
+                    direction=d.direction))
+            except ModelError as exc:
+                from spaceframe.errors import ProjectError
+
+                where = getattr(project, "path", "model file")
+                raise ProjectError(f"{where}: design.deflection: {exc}") from None
     return out
 
 

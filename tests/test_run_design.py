@@ -282,3 +282,12 @@ def test_sizing_runs_before_the_final_solve_and_reports_iterations(tmp_path):
     np.testing.assert_allclose(model.area[bottom], ref.sections["BOTTOM"].area)  # final solve
     rows = _rows(out.output / "member_design.csv")
     assert {rows[j]["section [-]"] for j in bottom} == {ref.sections["BOTTOM"].name}
+
+
+def test_deflection_of_an_unknown_result_names_the_key(tmp_path):
+    text = CANOPY + '\n[design]\n[design.deflection]\nresults = ["NOPE"]\n'
+    with pytest.raises(sf.ProjectError) as exc:
+        batch.run(_write(tmp_path, text), pictures=False)
+    msg = str(exc.value)
+    assert "design.deflection.results" in msg and "'NOPE'" in msg and "\n" not in msg
+    assert not (tmp_path / "out").exists()  # nothing half-written
