@@ -623,8 +623,15 @@ def run(
                 and loaded.project.design.sizing is not None:
             progress("size")
             t = time.perf_counter()
-            sizing = run_design.run_sizing(loaded.model, loaded.project,
-                                           lambda mm: mm.solve(solver=solver))
+            with warnings.catch_warnings(record=True) as trial:
+                warnings.simplefilter("always", SpaceframeWarning)
+                sizing = run_design.run_sizing(loaded.model, loaded.project,
+                                               lambda mm: mm.solve(solver=solver))
+            # Said of a trial choice of sections, not of the final model: marked so.
+            for w in trial:
+                text = f"during sizing: {w.message}"
+                if issubclass(w.category, SpaceframeWarning) and text not in solve_notes:
+                    solve_notes.append(text)
             timings["size"] = time.perf_counter() - t
         progress("solve")
         t = time.perf_counter()
@@ -667,6 +674,12 @@ def run(
             summ["design"] = design.summary(loaded.model)
             if design.missing:
                 summ["warnings"].append("design checks: " + design.missing)
+            nb = design.buckling_not_checked
+            if nb.size:
+                summ["warnings"].append(
+                    f"design checks: {nb.size} members in compression have no second moment, "
+                    f"so their buckling is not checked and they count as failing (members "
+                    f"{run_design.ranges(nb)}); give their sections a second moment")
             if sizing is not None and not sizing.converged:
                 summ["warnings"].append(
                     f"design sizing did not settle in {len(sizing.iterations)} iterations; "

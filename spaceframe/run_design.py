@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from spaceframe.design.steel import IMPERFECTION_FACTORS, GoverningCheck, check_results
+from spaceframe.design.steel import CHECKS, IMPERFECTION_FACTORS, GoverningCheck, check_results
 from spaceframe.errors import ModelError
 
 if TYPE_CHECKING:
@@ -42,7 +42,7 @@ DESIGN_CAUTION = ("The checks cover member resistance to axial force only; joint
                   "the engineer's.")
 
 
-def _ranges(ids: np.ndarray, most: int = 12) -> str:
+def ranges(ids: np.ndarray, most: int = 12) -> str:
     """'0-3, 7, 9-11' (at most ``most`` runs, then '...')."""
     ids = np.asarray(ids, dtype=np.int64)
     if ids.size == 0:
@@ -90,7 +90,7 @@ def checkable_members(model: Model) -> tuple[np.ndarray, dict[str, np.ndarray]]:
 def missing_text(reasons: dict[str, np.ndarray], b: int) -> str:
     """One line naming the members that cannot be checked, and why."""
     n = int(sum(v.size for v in reasons.values()))
-    why = "; ".join(f"{k}: member{'s' if v.size > 1 else ''} {_ranges(v)}"
+    why = "; ".join(f"{k}: member{'s' if v.size > 1 else ''} {ranges(v)}"
                     for k, v in reasons.items())
     return f"{n} of {b} members cannot be checked ({why})"
 
@@ -172,6 +172,15 @@ class DesignOutcome:
         """Ids of the members that fail a check."""
         return np.flatnonzero(~self.passes)
 
+    @property
+    def buckling_not_checked(self) -> np.ndarray:
+        """Ids of members in compression whose buckling could not be checked (no second
+        moment) in some result; they count as failing."""
+        bad = np.zeros(self.members.size, dtype=bool)
+        for c in self.check.checks.values():
+            bad |= c.unchecked
+        return self.members[bad]
+
     def governing(self, j: int) -> tuple[float, float, str, str]:
         """(force N, resistance N, result, check) governing member ``j`` (a model id)."""
         k = int(np.searchsorted(self.members, j))
@@ -197,8 +206,6 @@ class DesignOutcome:
                 c = g.checks[name]
                 force[ids[rows]] = c.demand[rows]
                 resistance[ids[rows]] = c.resistance[rows]
-                from spaceframe.design.steel import CHECKS
-
                 check[ids[rows]] = np.array(CHECKS, dtype=object)[c.governing[rows]]
             result[ids] = names[g.result_index]
         return {"force": force, "resistance": resistance, "result": result, "check": check}
@@ -214,6 +221,7 @@ class DesignOutcome:
             "gammas": dict(self.gammas),
             "gammas_note": GAMMA_NOTE,
             "not_checked": self.missing,
+            "buckling_not_checked": [int(i) for i in self.buckling_not_checked[:200]],
             "caution": DESIGN_CAUTION,
         }
         if self.members.size:

@@ -291,3 +291,26 @@ def test_deflection_of_an_unknown_result_names_the_key(tmp_path):
     msg = str(exc.value)
     assert "design.deflection.results" in msg and "'NOPE'" in msg and "\n" not in msg
     assert not (tmp_path / "out").exists()  # nothing half-written
+
+
+def test_members_without_a_second_moment_are_named_and_fail(tmp_path):
+    # A user section given by its area only: no buckling check in compression
+    # (EN 1993-1-1 §6.3.1 needs the radius of gyration), so those members fail.
+    text = HEAVY.replace(
+        'brace = { shape = "chs", diameter = 60.3, thickness = 3.2 }',
+        'brace = { shape = "user", area = 574 }',
+    )
+    out = batch.run(_write(tmp_path, text), pictures=False)
+    model = out.results.model
+    proj = batch.load(out.summary["source"]).project
+    pool = {**{n: out.results[n] for n in out.results}, **proj.envelope_results(out.results)}
+    ref = sf.check_results(model, pool, ["ULS", "SLS", "design"])
+    bad = np.zeros(model.n_members, dtype=bool)
+    for c in ref.checks.values():
+        bad |= c.unchecked
+    assert bad.any()
+    d = out.summary["design"]
+    assert d["buckling_not_checked"] == np.flatnonzero(bad).tolist()
+    assert set(d["buckling_not_checked"]) <= set(d["failing_members"])
+    assert any("have no second moment, so their buckling is not checked" in w
+               for w in out.summary["warnings"])
