@@ -286,9 +286,16 @@ def _design_section(d: Mapping[str, Any], model: Any, unit: str, per_unit: float
         + f". The worst is member {w['member']} ({_e(groups)}) at utilisation "
         f"{format_number(w['utilisation'], 3)} in {_e(w['result'])} ({_e(w['check'])}: "
         f"N = {_kn(w['force'])} kN against {_kn(w['resistance'])} kN).</p>")
+    if d.get("most_utilised"):
+        parts.append("<h3>Most utilised members</h3>")
+        parts.append(_table(
+            ["member", "group", "utilisation", "governing result", "governing check"],
+            [(v["member"], ", ".join(v["groups"]) or "-", format_number(v["utilisation"], 3),
+              v["result"], v["check"]) for v in d["most_utilised"]], text_cols=0))
     if d.get("not_checked"):
         parts.append(f"<p>Not checked: {_e(d['not_checked'])}.</p>")
     if d.get("groups"):
+        parts.append("<h3>Worst member per group</h3>")
         parts.append(_table(
             ["group", "worst member", "utilisation", "governing result"],
             [(g, v["member"], format_number(v["utilisation"], 3), v["result"])

@@ -230,6 +230,12 @@ class DesignOutcome:
             out["worst"] = {"member": j, "groups": model.groups_of(j),
                             "utilisation": float(self.utilisation[j]), "result": name,
                             "check": chk, "force": force, "resistance": res}
+            order = self.members[np.argsort(-self.check.utilisation, kind="stable")[:10]]
+            out["most_utilised"] = [
+                {"member": int(k), "groups": model.groups_of(int(k)),
+                 "utilisation": float(self.utilisation[k]),
+                 "result": self.governing(int(k))[2], "check": self.governing(int(k))[3]}
+                for k in order]
             groups = {g: ids for g, ids in model.groups.items()}
             per: dict[str, Any] = {}
             for g, ids in groups.items():

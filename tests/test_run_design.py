@@ -116,6 +116,8 @@ def test_summary_block_and_failing_members(heavy_run):
     assert math.isclose(d["worst"]["utilisation"], g.utilisation[j], rel_tol=1e-12)
     assert d["worst"]["result"] == g.governing_result(j)
     assert d["worst"]["check"] == g.governing_check(j)
+    order = np.argsort(-g.utilisation, kind="stable")[:10]
+    assert [v["member"] for v in d["most_utilised"]] == order.tolist()
     assert d["gammas"] == {"gamma_M0": 1.0, "gamma_M1": 1.1, "gamma_M2": 1.25,
                            "gamma_cable": 1.5}
     assert "Note 2B" in d["gammas_note"] and "national annexes" in d["gammas_note"]
@@ -170,7 +172,8 @@ def test_report_first_page_and_utilisation_picture(tmp_path):
     assert design_at < text.index("<h2>Job</h2>")  # first on the page
     assert f"{g.failing.size} of {out.results.model.n_members} checked members fail" in text
     assert "EN 1993-1-1 §6.1 Note 2B; national annexes change them" in text
-    assert "γ_M1 = 1.1" in text
+    assert "γ_M1 = 1.10" in text
+    assert "Most utilised members" in text and "Worst member per group" in text
     assert ("member resistance to axial force only; joints, connections, local effects, "
             "fatigue, fire and the national annex are the engineer&#x27;s") in text
     assert "Results must be checked by a qualified engineer" in text
