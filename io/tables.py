@@ -321,7 +321,9 @@ def write_member_design(
     Columns: member [-], group [-], section [-], material [-], governing
     force [N] (tension positive), resistance [N], utilisation [-], passes
     [-] (yes / no / empty when not checked), governing result [-], governing
-    check [-].  Numbers of members that were not checked are left empty.
+    check [-], slenderness [-] (L_cr / i in the governing result) and its
+    limit [-].  Numbers of members that were not checked (and limits that do
+    not apply) are left empty.
 
     Parameters
     ----------
@@ -351,12 +353,14 @@ def write_member_design(
                       "")
     header = ["member [-]", "group [-]", "section [-]", "material [-]", "governing force [N]",
               "resistance [N]", "utilisation [-]", "passes [-]", "governing result [-]",
-              "governing check [-]"]
+              "governing check [-]", "slenderness [-]", "slenderness limit [-]"]
     cols = [_ints(np.arange(b)), _texts(member_group_labels(model)),
             _texts(columns["section"]), _texts(columns["material"]),
             _maybe(columns["force"], digits), _maybe(columns["resistance"], digits),
             _maybe(columns["utilisation"], digits), _texts(passes),
-            _texts(columns["result"]), _texts(columns["check"])]
+            _texts(columns["result"]), _texts(columns["check"]),
+            _maybe(columns.get("slenderness", np.full(b, np.nan)), digits),
+            _maybe(columns.get("slenderness_limit", np.full(b, np.nan)), digits)]
     final = Path(folder) / DESIGN_FILE
     tmp = _temp_name(final)
     try:

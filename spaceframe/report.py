@@ -279,11 +279,13 @@ def _design_section(d: Mapping[str, Any], model: Any, unit: str, per_unit: float
     fail = int(d["failing"])
     w = d["worst"]
     groups = ", ".join(w["groups"]) or "no group"
+    slender = int(d.get("too_slender", 0))
     parts.append(
         f"<p><strong>{fail} of {n} checked members fail</strong>"
+        + (f" ({slender} of them too slender: L_cr/i above its limit)" if slender else "")
         + (f" (members {_e(', '.join(str(i) for i in d['failing_members'][:20]))}"
            + (", ..." if fail > 20 else "") + ")" if fail else "")
-        + f". The worst is member {w['member']} ({_e(groups)}) at utilisation "
+        + f". The most utilised is member {w['member']} ({_e(groups)}) at utilisation "
         f"{format_number(w['utilisation'], 3)} in {_e(w['result'])} ({_e(w['check'])}: "
         f"N = {_kn(w['force'])} kN against {_kn(w['resistance'])} kN).</p>")
     if d.get("most_utilised"):

@@ -197,6 +197,8 @@ class DesignOutcome:
         resistance = np.full(b, np.nan)
         result = np.full(b, "", dtype=object)
         check = np.full(b, "not checked", dtype=object)
+        lam = np.full(b, np.nan)
+        lam_limit = np.full(b, np.nan)
         g = self.check
         ids = self.members
         if ids.size:
@@ -207,8 +209,20 @@ class DesignOutcome:
                 force[ids[rows]] = c.demand[rows]
                 resistance[ids[rows]] = c.resistance[rows]
                 check[ids[rows]] = np.array(CHECKS, dtype=object)[c.governing[rows]]
+                lam[ids[rows]] = c.slenderness[rows]
+                lam_limit[ids[rows]] = c.slenderness_limit[rows]
             result[ids] = names[g.result_index]
-        return {"force": force, "resistance": resistance, "result": result, "check": check}
+        lam_limit[~np.isfinite(lam_limit)] = np.nan  # no limit (cables): shown empty
+        return {"force": force, "resistance": resistance, "result": result, "check": check,
+                "slenderness": lam, "slenderness_limit": lam_limit}
+
+    @property
+    def too_slender(self) -> np.ndarray:
+        """Ids of members whose slenderness L_cr/i exceeds its limit in some result."""
+        bad = np.zeros(self.members.size, dtype=bool)
+        for c in self.check.checks.values():
+            bad |= ~c.slenderness_ok
+        return self.members[bad]
 
     def summary(self, model: Model) -> dict[str, Any]:
         """The JSON-able "design" block of summary.json."""
@@ -222,6 +236,8 @@ class DesignOutcome:
             "gammas_note": GAMMA_NOTE,
             "not_checked": self.missing,
             "buckling_not_checked": [int(i) for i in self.buckling_not_checked[:200]],
+            "too_slender": int(self.too_slender.size),
+            "too_slender_members": [int(i) for i in self.too_slender[:200]],
             "caution": DESIGN_CAUTION,
         }
         if self.members.size:
@@ -272,8 +288,10 @@ class DesignOutcome:
         if not self.members.size:
             return "design: no member could be checked; " + self.missing
         w = self.summary_worst
-        text = (f"design: {self.failing.size} of {self.members.size} checked members fail; "
-                f"worst member {w[0]} at {w[1]:.3g} ({w[2]}, {w[3]})")
+        slender = self.too_slender.size
+        text = (f"design: {self.failing.size} of {self.members.size} checked members fail"
+                + (f" ({slender} too slender: L_cr/i above its limit)" if slender else "")
+                + f"; worst utilisation member {w[0]} at {w[1]:.3g} ({w[2]}, {w[3]})")
         if self.deflection:
             bad = [d for d in self.deflection if not d.passes]
             text += ("; deflection " + ("fails in " + ", ".join(d.result for d in bad)

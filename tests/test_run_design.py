@@ -74,7 +74,8 @@ def test_members_table_equals_the_library_check(heavy_run):
     rows = _rows(heavy_run.output / "member_design.csv")
     assert list(rows[0]) == ["member [-]", "group [-]", "section [-]", "material [-]",
                              "governing force [N]", "resistance [N]", "utilisation [-]",
-                             "passes [-]", "governing result [-]", "governing check [-]"]
+                             "passes [-]", "governing result [-]", "governing check [-]",
+                             "slenderness [-]", "slenderness limit [-]"]
     b = heavy_run.results.model.n_members
     assert len(rows) == b
     util = np.array([float(r["utilisation [-]"]) for r in rows])
@@ -88,6 +89,9 @@ def test_members_table_equals_the_library_check(heavy_run):
         assert math.isclose(float(r["governing force [N]"]), c.demand[j], rel_tol=1e-6,
                             abs_tol=1e-9)
         assert r["passes [-]"] == ("yes" if g.passes[j] else "no")
+        lam = c.slenderness[j]
+        assert (r["slenderness [-]"] == "") if not np.isfinite(lam) else math.isclose(
+            float(r["slenderness [-]"]), lam, rel_tol=1e-6)
         assert r["material [-]"] == "S355"
     top = heavy_run.results.model.groups["TOP"]
     assert {rows[j]["section [-]"] for j in top} == {"chord"}
@@ -231,7 +235,8 @@ def test_command_line_prints_a_design_line(tmp_path, capsys):
     assert main(["run", str(path), "--no-pictures"]) == 0
     lines = capsys.readouterr().out.splitlines()
     design = [ln for ln in lines if ln.startswith("design: ")]
-    assert len(design) == 1 and "checked members fail; worst member" in design[0]
+    assert len(design) == 1 and "checked members fail" in design[0]
+    assert "worst utilisation member" in design[0]
 
 
 def test_viewer_utilisation_colours(tmp_path):
@@ -317,3 +322,25 @@ def test_members_without_a_second_moment_are_named_and_fail(tmp_path):
     assert set(d["buckling_not_checked"]) <= set(d["failing_members"])
     assert any("have no second moment, so their buckling is not checked" in w
                for w in out.summary["warnings"])
+
+
+def test_too_slender_members_fail_and_are_counted(tmp_path):
+    # A limit on L_cr/i of 20 for the TOP group (set per group; EN 1993-1-1 sets
+    # none): the chords in compression (L = 2 m, i about 30 mm) exceed it.
+    text = CANOPY + "\n[design]\n[design.groups.TOP]\nslenderness_limit = 20\n"
+    out = batch.run(_write(tmp_path, text), pictures=False)
+    model = out.results.model
+    proj = batch.load(out.summary["source"]).project
+    pool = {**{n: out.results[n] for n in out.results}, **proj.envelope_results(out.results)}
+    ref = sf.check_results(model, pool, ["ULS", "SLS", "design"])
+    slender = np.zeros(model.n_members, dtype=bool)
+    for c in ref.checks.values():
+        slender |= ~c.slenderness_ok
+    assert slender.any() and set(np.flatnonzero(slender)) <= set(model.groups["TOP"])
+    d = out.summary["design"]
+    assert d["too_slender_members"] == np.flatnonzero(slender).tolist()
+    assert d["failing_members"] == ref.failing.tolist()
+    assert f"({slender.sum()} too slender" in out.design.line()
+    rows = _rows(out.output / "member_design.csv")
+    for j in np.flatnonzero(slender):
+        assert rows[j]["passes [-]"] == "no"
