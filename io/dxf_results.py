@@ -339,6 +339,7 @@ def write_results(
     dxfversion: str = "R2010",
     units: str | None = None,
     extra: Sequence[LineLayer] = (),
+    failing: Sequence[int] | None = None,
 ) -> Path:
     """Write a DXF drawing of the results (layers as in the module docstring).
 
@@ -363,6 +364,8 @@ def write_results(
         :func:`drawing_units` (the source drawing's, else the model file's).
     extra : sequence of LineLayer
         Further layers of lines (in drawing units) streamed like the others.
+    failing : sequence of int, optional
+        Members that fail a design check: drawn on a layer ``FAILING`` (red).
 
     Returns
     -------
@@ -419,6 +422,10 @@ def write_results(
     doc.layers.add("SUPPORTS", color=3)
     for i in supported_nodes(model).tolist():
         msp.add_point(nodes[i], dxfattribs={"layer": "SUPPORTS"})
+    if failing is not None:  # design checks: the failing members on a layer of their own
+        bad = np.unique(np.asarray(failing, dtype=np.int64))
+        streamed.append(LineLayer("FAILING", frame[bad], color=1,
+                                  description=f"{bad.size} members that fail a design check"))
 
     tags = layer_names(results, names)
     for step, name in enumerate(names):

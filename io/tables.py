@@ -12,6 +12,9 @@ for ids and text):
   restrained directions, then per result ``<result>: Rx [N]``, ``Ry``, ``Rz``
 - ``summary.json``: :func:`spaceframe.summary.summary`, plus ``"tables"``
   stating the precision of the CSV files
+- ``member_design.csv`` (:func:`write_member_design`, when design checks ran):
+  per member its section, material, governing force, resistance, utilisation,
+  governing result and check
 
 Precision: the model's own numbers (coordinates, lengths, areas, moduli)
 with :data:`INPUT_DIGITS` = 15 significant digits, so every value that was
@@ -293,3 +296,77 @@ def envelope_summary(results: Results, envelopes: Mapping[str, Envelope]) -> dic
             "max_displacement_component": {"node": node, "value": float(disp[node].max())},
         }
     return out
+
+
+#: File of :func:`write_member_design`.
+DESIGN_FILE = "member_design.csv"
+
+
+def _maybe(values: Any, digits: int) -> _Col:
+    """A float column printed with ``digits`` significant digits, empty where NaN."""
+    v = np.asarray(values, dtype=np.float64) + 0.0
+    text = np.char.mod(f"%.{int(digits)}g", v)
+    return _Col(np.where(np.isfinite(v), text, ""), "text")
+
+
+def write_member_design(
+    folder: str | os.PathLike[str],
+    results: Results,
+    columns: Mapping[str, Any],
+    *,
+    digits: int = RESULT_DIGITS,
+) -> list[Path]:
+    """Write ``member_design.csv``: per member its governing design check.
+
+    Columns: member [-], group [-], section [-], material [-], governing
+    force [N] (tension positive), resistance [N], utilisation [-], passes
+    [-] (yes / no / empty when not checked), governing result [-], governing
+    check [-], slenderness [-] (L_cr / i in the governing result) and its
+    limit [-].  Numbers of members that were not checked (and limits that do
+    not apply) are left empty.
+
+    Parameters
+    ----------
+    folder : path-like
+        Output folder (must exist).
+    results : Results
+        For the model (ids, groups).
+    columns : mapping
+        (b,) arrays under "section", "material", "force", "resistance",
+        "utilisation", "passes" (bool, checked members), "checked" (bool),
+        "result", "check".
+
+    Returns
+    -------
+    list of Path
+        ``[member_design.csv]``.
+    """
+    model = results.model
+    b = model.n_members
+    for key in ("section", "material", "force", "resistance", "utilisation", "passes",
+                "checked", "result", "check"):
+        if len(columns[key]) != b:
+            raise ModelError(f"{DESIGN_FILE}: column {key!r} has {len(columns[key])} values, "
+                             f"the model {b} members")
+    checked = np.asarray(columns["checked"], dtype=bool)
+    passes = np.where(checked, np.where(np.asarray(columns["passes"], dtype=bool), "yes", "no"),
+                      "")
+    header = ["member [-]", "group [-]", "section [-]", "material [-]", "governing force [N]",
+              "resistance [N]", "utilisation [-]", "passes [-]", "governing result [-]",
+              "governing check [-]", "slenderness [-]", "slenderness limit [-]"]
+    cols = [_ints(np.arange(b)), _texts(member_group_labels(model)),
+            _texts(columns["section"]), _texts(columns["material"]),
+            _maybe(columns["force"], digits), _maybe(columns["resistance"], digits),
+            _maybe(columns["utilisation"], digits), _texts(passes),
+            _texts(columns["result"]), _texts(columns["check"]),
+            _maybe(columns.get("slenderness", np.full(b, np.nan)), digits),
+            _maybe(columns.get("slenderness_limit", np.full(b, np.nan)), digits)]
+    final = Path(folder) / DESIGN_FILE
+    tmp = _temp_name(final)
+    try:
+        _write_csv(tmp, header, cols)
+        _commit([(tmp, final)])
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return [final]

@@ -11,7 +11,9 @@ Arrays (SI units, tension positive):
   ``restraint`` (0/1 per axis), ``node_id``
 - cell data (members): ``member_id``, ``axial_force`` (N), ``stress`` (Pa),
   ``strain`` (elastic, N/(EA)), ``group`` (an integer per member, -1 for
-  none), ``length`` (m)
+  none), ``length`` (m); after design checks ``utilisation`` (demand /
+  design resistance, for the checked results; NaN where a member was not
+  checked) and ``utilisation_governing`` (the largest over every result checked)
 - cell data (panels): ``panel_id``, ``panel_group`` (an integer per panel)
 - field data, the legends: one integer array per group whose *name* is the
   legend entry and whose value is the group's number, ``group 0: chords``
@@ -36,7 +38,7 @@ import os
 import re
 import sys
 import uuid
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -62,6 +64,8 @@ UNITS: dict[str, str] = {
     "stress": "Pa",
     "strain": "1",
     "length": "m",
+    "utilisation": "1",
+    "utilisation_governing": "1",
 }
 
 _UNSAFE = re.compile(r"[^A-Za-z0-9_.+-]+")
@@ -217,6 +221,21 @@ def _add_point_data(grid: pyvista.UnstructuredGrid, results: Results, name: str)
     grid.field_data["auto_scale"] = np.array([auto_scale(model, res.displacements)])
 
 
+def _add_utilisation(grid: pyvista.UnstructuredGrid, results: Results, name: str,
+                     utilisation: Mapping[str, Any] | None, governing: Any) -> None:
+    """Design utilisation as cell data (demand / resistance, NaN where not checked)."""
+    b = results.model.n_members
+    for key, values in (("utilisation", (utilisation or {}).get(name)),
+                        ("utilisation_governing", governing)):
+        if values is None:
+            continue
+        arr = np.asarray(values, dtype=float)
+        if arr.shape != (b,):
+            raise ModelError(f"VTK output: {key} of {name!r} has {arr.size} values, the model "
+                             f"{b} members")
+        grid.cell_data[key] = arr
+
+
 def _temp_beside(final: Path) -> Path:
     # Same folder as the target so os.replace is a rename, never a copy; the
     # real suffix last because VTK picks its writer from it.  Only a name: the
@@ -259,6 +278,8 @@ def write(
     prefix: str | None = None,
     panels: bool = True,
     binary: bool = True,
+    utilisation: Mapping[str, Any] | None = None,
+    governing_utilisation: Any = None,
 ) -> Path:
     """Write every load case and combination as VTK files plus a ``.pvd`` series.
 
@@ -275,6 +296,12 @@ def write(
         Also write the load panels (when the model has any) as a second file per result.
     binary : bool
         Base64-encoded, zlib-compressed arrays (default) or ASCII.
+    utilisation : mapping, optional
+        Result name -> (b,) design utilisation of each member (NaN where not
+        checked): cell data ``utilisation`` of that result's file.
+    governing_utilisation : (b,) float, optional
+        The largest utilisation over every result checked: cell data
+        ``utilisation_governing`` of every file.
 
     Returns
     -------
@@ -328,7 +355,10 @@ def write(
                 final = folder / file
                 tmp = _temp_beside(final)
                 done.append((tmp, final))
-                build(results, name).save(tmp, binary=binary)
+                grid = build(results, name)
+                if part == 0:
+                    _add_utilisation(grid, results, name, utilisation, governing_utilisation)
+                grid.save(tmp, binary=binary)
                 entries.append((step, part, file, name))
         tmp_pvd = _temp_beside(pvd)
         done.append((tmp_pvd, pvd))

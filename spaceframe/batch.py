@@ -245,6 +245,7 @@ class RunOutcome:
     output: Path
     files: list[Path]
     timings: dict[str, float]
+    design: Any = None  # spaceframe.run_design.DesignOutcome when checks ran
 
 
 #: Marker file the tool writes inside every results folder (and every temporary or old
@@ -610,10 +611,39 @@ def run(
     progress("read")
     loaded = load(path)
     timings["read"] = time.perf_counter() - t
-    progress("solve")
-    t = time.perf_counter()
-    results = loaded.solve(solver=solver)
-    timings["solve"] = time.perf_counter() - t
+    from spaceframe import run_design
+
+    solve_notes: list[str] = []
+    sizing = None
+    # Warnings of the solves (a displacement beyond the linear range, ...) go
+    # into the run's warning list, as the reader's do.
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", SpaceframeWarning)
+        if loaded.project is not None and loaded.project.design is not None \
+                and loaded.project.design.sizing is not None:
+            progress("size")
+            t = time.perf_counter()
+            with warnings.catch_warnings(record=True) as trial:
+                warnings.simplefilter("always", SpaceframeWarning)
+                sizing = run_design.run_sizing(loaded.model, loaded.project,
+                                               lambda mm: mm.solve(solver=solver))
+            # Said of a trial choice of sections, not of the final model: marked so.
+            for w in trial:
+                text = f"during sizing: {w.message}"
+                if issubclass(w.category, SpaceframeWarning) and text not in solve_notes:
+                    solve_notes.append(text)
+            timings["size"] = time.perf_counter() - t
+        progress("solve")
+        t = time.perf_counter()
+        results = loaded.solve(solver=solver)
+        timings["solve"] = time.perf_counter() - t
+    for w in caught:
+        if issubclass(w.category, SpaceframeWarning):
+            text = str(w.message)
+            if text not in solve_notes and text not in loaded.warnings:
+                solve_notes.append(text)
+        else:
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
     from spaceframe.io import tables
     from spaceframe.summary import summary as make_summary
 
@@ -624,7 +654,41 @@ def run(
     summ["envelopes"] = envelope_summary(results, envelopes)
     summ["source"] = str(loaded.path.resolve())
     summ["title"] = loaded.title
-    summ["warnings"] = loaded.warnings
+    summ["warnings"] = [*loaded.warnings, *solve_notes]
+    design = None
+    if loaded.model.n_members:
+        progress("check members")
+        t = time.perf_counter()
+        design = run_design.run_checks(loaded.model, results, envelopes, loaded.project,
+                                       sizing=sizing)
+        timings["design"] = time.perf_counter() - t
+        if design is None:
+            _, reasons = run_design.checkable_members(loaded.model)
+            line = ("design checks not run: " + run_design.missing_text(
+                reasons, loaded.model.n_members)
+                    + "; give the materials a yield strength (cables a breaking force) "
+                    "or add a [design] table to check the others")
+            summ["warnings"].append(line)
+            summ["design"] = {"checked_members": 0, "not_checked": line}
+        else:
+            summ["design"] = design.summary(loaded.model)
+            if design.missing:
+                summ["warnings"].append("design checks: " + design.missing)
+            nb = design.buckling_not_checked
+            if nb.size:
+                summ["warnings"].append(
+                    f"design checks: {nb.size} members in compression have no second moment, "
+                    f"so their buckling is not checked and they count as failing (members "
+                    f"{run_design.ranges(nb)}); give their sections a second moment")
+            if sizing is not None and not sizing.converged:
+                summ["warnings"].append(
+                    f"design sizing did not settle in {len(sizing.iterations)} iterations; "
+                    "the last choice is used")
+            if sizing is not None and sizing.no_section:
+                g, n = next(iter(sizing.no_section.items()))
+                summ["warnings"].append(
+                    f"design sizing: no catalogue section makes every member of group {g!r} "
+                    f"pass ({n} members fail with the largest)")
     target = _target(Path(output) if output is not None else loaded.output, loaded, force)
     final = target.final
     notes: list[str] = []
@@ -648,8 +712,9 @@ def run(
         _fault("after-mkdtemp")
         progress("write tables")
         t = time.perf_counter()
-        extra = {k: summ[k] for k in ("source", "title", "warnings", "envelopes")}
-        files += _write_outputs(tmp, results, loaded, pictures, progress, extra)
+        extra: dict[str, Any] = {k: summ[k] for k in ("source", "title", "warnings",
+                                                      "envelopes", "design") if k in summ}
+        files += _write_outputs(tmp, results, loaded, pictures, progress, extra, design)
         files += tables.write_envelopes(tmp, results, envelopes)
         _fault("after-write")
         if "disk-full" in _faults():
@@ -666,7 +731,7 @@ def run(
         raise
     summ["warnings"] = [*summ["warnings"], *notes]
     files = [final / f.relative_to(tmp) for f in files]
-    return RunOutcome(results, summ, final, files, timings)
+    return RunOutcome(results, summ, final, files, timings, design)
 
 
 def _write_outputs(
@@ -676,6 +741,7 @@ def _write_outputs(
     pictures: bool | str,
     progress: Progress,
     extra: dict[str, Any],
+    design: Any = None,
 ) -> list[Path]:
     """Every writer that is installed; tables always."""
     import importlib.util
@@ -689,18 +755,28 @@ def _write_outputs(
         if note is not None:  # said in the summary and by the command
             extra["warnings"].append(note)
     files = [Path(p) for p in tables.write(folder, results, extra=extra)]
+    if design is not None:
+        cols = design.columns()
+        checked = np.zeros(results.model.n_members, dtype=bool)
+        checked[design.members] = True
+        files += tables.write_member_design(folder, results, {
+            **cols, "section": design.sections, "material": design.materials,
+            "utilisation": design.utilisation, "passes": design.passes, "checked": checked})
     if importlib.util.find_spec("ezdxf") is not None:
         from spaceframe.io import dxf_results
 
         progress("write DXF")
-        dxf, _ = dxf_results.write_if_wanted(folder / "results.dxf", results)
+        dxf_kw = {"failing": design.failing} if design is not None else {}
+        dxf, _ = dxf_results.write_if_wanted(folder / "results.dxf", results, **dxf_kw)
         if dxf is not None:
             files.append(dxf)
     if importlib.util.find_spec("pyvista") is not None:
         from spaceframe.io import vtk
 
         progress("write VTK")
-        files.append(Path(vtk.write(folder / "vtk", results)))
+        vtk_kw = ({"utilisation": design.per_result, "governing_utilisation": design.utilisation}
+                  if design is not None else {})
+        files.append(Path(vtk.write(folder / "vtk", results, **vtk_kw)))
         if pictures:
             from spaceframe import report, viewer
 
@@ -712,6 +788,14 @@ def _write_outputs(
             progress("render pictures")
             pics = [Path(p) for p in report.write_pictures(
                 folder / "pictures", drawable, cases=chosen, progress=progress)]
+            if design is not None and design.members.size:
+                # Utilisation of each checked result that gets pictures (iso view).
+                util = {n: u for n, u in design.per_result.items() if n in drawable}
+                shown = [n for n in chosen if n in util] or list(util)[:1]
+                pics += [Path(p) for p in report.write_pictures(
+                    folder / "pictures" / "utilisation", drawable, views=("iso",), cases=shown,
+                    color_by="utilisation", utilisation=util, prefix="utilisation_",
+                    progress=lambda text: progress("utilisation " + text))]
             charts = [Path(p) for p in report.write_charts(folder / "pictures", drawable,
                                                            cases=chosen)]
             progress("write report")
@@ -723,9 +807,10 @@ def _write_outputs(
                         results,
                         title=loaded.title,
                         heal_report=loaded.model.meta.get("heal:report"),
-                        warnings=loaded.warnings,
+                        warnings=extra.get("warnings", loaded.warnings),
                         pictures=pics,
                         charts=charts,
+                        design=extra.get("design"),
                     )
                 )
             )

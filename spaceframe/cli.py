@@ -297,6 +297,8 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
             f"(member {t['member']}), max compression {c['force'] / 1e3:.1f} kN "
             f"(member {c['member']})"
         )
+    if outcome.design is not None:
+        out.line(outcome.design.line())
     for w in outcome.summary.get("warnings", []):
         out.line(f"warning: {w}")
     out.line(f"results written to {outcome.output} ({len(outcome.files)} files)")

@@ -1267,6 +1267,9 @@ def _build(spec: _Spec) -> Project:
             members = [c for c in generated if c.startswith(label)]
             if members and f"{label} envelope" not in envelopes:
                 envelopes[f"{label} envelope"] = members
+        d = spec.design.deflection
+        if d is not None and d.nodes is not None:
+            d.node_ids = pick(d.nodes, "nodes", d.nodes_where)
 
     model.meta["project:file"] = str(spec.path)
     # The model file's length unit: reports and the results drawing use it.

@@ -59,6 +59,7 @@ class DeflectionSpec:
     nodes_where: str = ""
     direction: str = "z"
     results: list[str] | None = None
+    node_ids: Any = None  # ``nodes`` resolved when the model is built
 
 
 @dataclass

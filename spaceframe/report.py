@@ -29,6 +29,7 @@ from urllib.parse import quote
 import numpy as np
 
 from spaceframe.errors import ModelError, ReadError
+from spaceframe.run_design import DESIGN_CAUTION, GAMMA_NOTE
 from spaceframe.summary import format_number, summary
 from spaceframe.tolerances import RESIDUAL_TOLERANCE
 
@@ -134,6 +135,8 @@ def write_pictures(
     size: Sequence[int] = (1200, 800),
     color_by: str = "axial_force",
     progress: Callable[[str], None] | None = None,
+    utilisation: Mapping[str, Any] | None = None,
+    prefix: str = "",
 ) -> list[Path]:
     """One PNG per result and view, rendered off-screen: ``<result>_<view>.png``.
 
@@ -147,7 +150,8 @@ def write_pictures(
         Results to draw (default all).
     size : (2,) int
         Picture width and height, pixels.
-    color_by : {"axial_force", "stress", "displacement", "group"}
+    color_by : {"axial_force", "stress", "displacement", "group", "utilisation"}
+        "utilisation" needs ``utilisation`` (result name -> (b,) values).
     progress : callable, optional
         Called with "pictures k/n" before each picture.
 
@@ -159,7 +163,8 @@ def write_pictures(
     from spaceframe import viewer
 
     return viewer.screenshots(folder, results, cases=cases, views=views, size=size,
-                              color_by=color_by, progress=progress)
+                              color_by=color_by, progress=progress, utilisation=utilisation,
+                              prefix=prefix)
 
 
 # ------------------------------------------------------------------- charts
@@ -264,6 +269,70 @@ def _no_force(ax: Any, note: str) -> None:
 
 
 # ------------------------------------------------------------------- report
+def _design_section(d: Mapping[str, Any], model: Any, unit: str, per_unit: float) -> str:
+    """The design checks: failing count, the worst members, factors, deflection, sizing."""
+    parts = ["<h2>Design checks</h2>"]
+    n = int(d.get("checked_members", 0))
+    if not n:
+        parts.append(f"<p>No member was checked: {_e(d.get('not_checked', ''))}</p>")
+        return "\n".join(parts)
+    fail = int(d["failing"])
+    w = d["worst"]
+    groups = ", ".join(w["groups"]) or "no group"
+    slender = int(d.get("too_slender", 0))
+    parts.append(
+        f"<p><strong>{fail} of {n} checked members fail</strong>"
+        + (f" ({slender} of them too slender: L_cr/i above its limit)" if slender else "")
+        + (f" (members {_e(', '.join(str(i) for i in d['failing_members'][:20]))}"
+           + (", ..." if fail > 20 else "") + ")" if fail else "")
+        + f". The most utilised is member {w['member']} ({_e(groups)}) at utilisation "
+        f"{format_number(w['utilisation'], 3)} in {_e(w['result'])} ({_e(w['check'])}: "
+        f"N = {_kn(w['force'])} kN against {_kn(w['resistance'])} kN).</p>")
+    if d.get("most_utilised"):
+        parts.append("<h3>Most utilised members</h3>")
+        parts.append(_table(
+            ["member", "group", "utilisation", "governing result", "governing check"],
+            [(v["member"], ", ".join(v["groups"]) or "-", format_number(v["utilisation"], 3),
+              v["result"], v["check"]) for v in d["most_utilised"]], text_cols=0))
+    if d.get("not_checked"):
+        parts.append(f"<p>Not checked: {_e(d['not_checked'])}.</p>")
+    if d.get("groups"):
+        parts.append("<h3>Worst member per group</h3>")
+        parts.append(_table(
+            ["group", "worst member", "utilisation", "governing result"],
+            [(g, v["member"], format_number(v["utilisation"], 3), v["result"])
+             for g, v in sorted(d["groups"].items(), key=lambda kv: -kv[1]["utilisation"])],
+            text_cols=1))
+    gam = d["gammas"]
+    parts.append(
+        "<p>Partial factors used: "
+        + ", ".join(f"{_e(k.replace('gamma_', 'γ_'))} = {format_number(v, 3)}"
+                    for k, v in gam.items())
+        + f" (γ_M0, γ_M1, γ_M2 default to the {_e(GAMMA_NOTE)}; γ_cable is this tool's "
+        "factor on a cable's breaking force, from memory: check it). Results checked: "
+        + _e(", ".join(d["results_checked"])) + ". The member table is member_design.csv.</p>")
+    for de in d.get("deflection", []):
+        parts.append(
+            f"<p>Deflection in {_e(de['result'])}: {format_number(de['deflection'] * 1e3)} mm "
+            f"({de['direction']}) at node {de['node']} against span / {format_number(de['ratio'])}"
+            f" = {format_number(de['limit'] * 1e3)} mm (span {format_number(de['span'] / per_unit)}"
+            f" {_e(unit)}): <strong>{'passes' if de['passes'] else 'FAILS'}</strong>.</p>")
+    sz = d.get("sizing")
+    if sz:
+        rows = [(k + 1, g, v["section"], "too slender" if v["utilisation"] is None
+                 else format_number(v["utilisation"], 3))
+                for k, step in enumerate(sz["iterations"]) for g, v in step.items()]
+        parts.append(
+            "<h3>Sizing</h3><p>"
+            + ("Converged" if sz["converged"] else "Did not settle")
+            + f" after {len(sz['iterations'])} iterations: "
+            + _e(", ".join(f"{g}: {s}" for g, s in sz["sections"].items())) + ".</p>"
+            + _table(["iteration", "group", "section", "largest utilisation"], rows,
+                     text_cols=0))
+    parts.append(f'<p class="caution">{_e(DESIGN_CAUTION)}</p>')
+    return "\n".join(parts)
+
+
 _PAGE = Template("""<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -358,6 +427,7 @@ def write_report(
     job: Mapping[str, Any] | None = None,
     embed_images: bool = True,
     n_critical: int = 10,
+    design: Mapping[str, Any] | None = None,
 ) -> Path:
     """Write a self-contained HTML report of the run.
 
@@ -382,6 +452,9 @@ def write_report(
         self-contained file; False references them by relative path.
     n_critical : int
         How many governing members to list.
+    design : mapping, optional
+        The "design" block of ``summary.json`` (design checks of the run):
+        shown first, with the partial factors used and the design caution.
 
     Returns
     -------
@@ -419,6 +492,8 @@ def write_report(
         return format_number(v / per_unit)
 
     sections: list[str] = []
+    if design is not None:
+        sections.append(_design_section(design, model, unit, per_unit))
 
     from spaceframe import __version__
 
@@ -550,6 +625,9 @@ def write_report(
                         f"<figcaption>{_e(p.stem)}</figcaption></figure>")
         sections.append(f"<h2>{heading}</h2>\n" + "\n".join(figs))
 
-    page = _PAGE.substitute(title=_e(title), caution=_e(CAUTION), body="\n".join(sections))
+    caution = _e(CAUTION)
+    if design is not None and design.get("checked_members"):
+        caution += "<br>" + _e(DESIGN_CAUTION)
+    page = _PAGE.substitute(title=_e(title), caution=caution, body="\n".join(sections))
     folder.mkdir(parents=True, exist_ok=True)
     return _write_bytes(final, page.encode("utf-8"))

@@ -3,7 +3,9 @@
 Members are drawn as tubes (plain lines beyond :data:`TUBE_LIMIT` members)
 coloured by axial force on a diverging map centred on zero (``coolwarm``:
 blue end compression, red end tension, the range symmetric), by
-displacement magnitude, by stress or by group.  The deformed shape is drawn
+displacement magnitude, by stress, by group, or by design utilisation (a
+sequential scale 0 to 1 in ten bands, everything above 1 in one distinct
+colour, members not checked grey; ``utilisation=`` gives the values).  The deformed shape is drawn
 with a scale factor, the undeformed shape faint beside it; supports are cones
 under the nodes and loads arrows pointing at them.
 
@@ -73,7 +75,16 @@ COLOR_BY: dict[str, tuple[str, str]] = {
     "stress": ("Stress [MPa] (tension +)", "coolwarm"),
     "displacement": ("Displacement [mm]", "viridis"),
     "group": ("Group", "tab10"),
+    "utilisation": ("Utilisation [-] (demand / resistance)", "utilisation"),
 }
+
+#: Utilisation colours: a sequential scale from 0 (pale) to 1 (dark), in
+#: :data:`UTILISATION_BANDS` bands of equal width, and one distinct colour for
+#: everything above 1 (failing); members not checked are light grey.
+UTILISATION_STOPS = ("#f4f1de", "#a8c5b5", "#4f8a8b", "#1f3c5a")
+UTILISATION_OVER = "#e0218a"
+UTILISATION_BANDS = 10
+_NOT_CHECKED_COLOR = "lightgrey"
 
 _SUPPORT_COLOR = "seagreen"
 _SPRING_COLOR = "darkgoldenrod"
@@ -172,7 +183,7 @@ class FrameScene:
     results : Results
     case : str, optional
         Result shown first (default the first of ``results``).
-    color_by : {"axial_force", "stress", "displacement", "group"}
+    color_by : {"axial_force", "stress", "displacement", "group", "utilisation"}
     scale : "auto" or float
         Multiplier of the drawn displacements; "auto" draws the largest at
         5 % of the model size (see :func:`spaceframe.summary.auto_scale`),
@@ -217,16 +228,22 @@ class FrameScene:
         view: str = "iso",
         tube_limit: int = TUBE_LIMIT,
         interactive: bool | None = None,
+        utilisation: Mapping[str, Any] | None = None,
     ) -> None:
         import pyvista as pv
 
         _check_options(color_by, view)
+        self.utilisation = dict(utilisation or {})
+        if color_by == "utilisation" and not self.utilisation:
+            raise ModelError("viewer: color_by='utilisation' needs the utilisation of the "
+                             "results (run the design checks first)")
         self.results = results
         self.names = list(results)
         if not self.names:
             raise ModelError("viewer: there are no load cases or combinations to show")
         first = case if case is not None else self.names[0]
         results[first]  # KeyError naming the known results, before any window opens
+        self._first = first
         model = results.model
         self.color_by = color_by
         self.scale_option = scale
@@ -284,6 +301,13 @@ class FrameScene:
         if self.color_by == "displacement":
             mag = np.linalg.norm(res.displacements, axis=1) * 1e3
             return mag, (0.0, float(mag.max(initial=0.0)) or 1.0)
+        if self.color_by == "utilisation":
+            if name not in self.utilisation:
+                raise ModelError(f"viewer: no utilisation for result {name!r} (checked: "
+                                 f"{', '.join(self.utilisation)})")
+            util = np.asarray(self.utilisation[name], dtype=float)
+            # Fixed 0..1: one colour means one utilisation in every picture.
+            return util, (0.0, 1.0)
         n = max(len(self.group_names), 1)
         # One colour band centred on each integer group id.
         return self.group_index.astype(float), (-0.5, n - 0.5)
@@ -300,7 +324,7 @@ class FrameScene:
 
         model = self.results.model
         lines = pv.PolyData(model.nodes.astype(float), lines=self._cells)
-        values, clim = self._member_scalars(self.names[0])
+        values, clim = self._member_scalars(self._first)
         where = "point" if self.color_by == "displacement" else "cell"
         (lines.point_data if where == "point" else lines.cell_data)["value"] = values
         self._lines = lines
@@ -346,6 +370,15 @@ class FrameScene:
                 # height, not its width, pushing a wide box past the window edge.
                 box.SetPosition(1.0 - w - 0.01, 1.0 - h - 0.06)
                 box.SetPosition2(w, h)
+        if self.color_by == "utilisation":
+            from matplotlib.colors import LinearSegmentedColormap
+
+            mesh_kw.update(
+                cmap=LinearSegmentedColormap.from_list("utilisation", UTILISATION_STOPS),
+                n_colors=UTILISATION_BANDS, above_color=UTILISATION_OVER,
+                nan_color=_NOT_CHECKED_COLOR)
+            mesh_kw["scalar_bar_args"].update(above_label="> 1 fails", fmt="%.1f",
+                                              n_labels=6 if self.window_size[0] >= 900 else 3)
         if self.large:
             # Plain lines: tube geometry or tube shading of 10^5 lines costs
             # seconds per picture in software rendering, for no gain at that density.
@@ -416,6 +449,8 @@ class FrameScene:
         shape = f"deformed x{format_number(self.scale, 3)}" if self.scale > 0 else "undeformed"
         if res.kind == "envelope":
             shape = "governing force of " + ", ".join(res.factors)
+        if self.color_by == "utilisation":
+            shape = "design utilisation, " + shape
         self.plotter.add_text(f"{name} ({kind}), {shape}", position="upper_left",
                               font_size=_TITLE_FONT, color="black", name="title", render=False)
         if self._slider is not None:
@@ -608,6 +643,8 @@ class FrameScene:
             f"L = {format_number(float(model.lengths[k]))} m",
             f"N = {format_number(n / 1e3)} kN ({sense})",
             f"stress = {format_number(float(res.stress[k]) / 1e6)} MPa",
+            *([f"utilisation = {format_number(float(self.utilisation[self.case][k]))}"]
+              if self.case in self.utilisation else []),
         ])
 
     def _on_pick(self, point: Any, *args: Any) -> None:
@@ -671,10 +708,11 @@ def build_scene(
     off_screen: bool = False,
     window_size: Sequence[int] = (1600, 1000),
     view: str = "iso",
+    utilisation: Mapping[str, Any] | None = None,
 ) -> FrameScene:
     """A :class:`FrameScene` (plotter plus case switching and picking); see there."""
     return FrameScene(results, case, color_by=color_by, scale=scale, off_screen=off_screen,
-                      window_size=window_size, view=view)
+                      window_size=window_size, view=view, utilisation=utilisation)
 
 
 def build_plotter(
@@ -694,7 +732,7 @@ def build_plotter(
     results : Results
     case : str, optional
         Load case or combination shown first (default the first).
-    color_by : {"axial_force", "stress", "displacement", "group"}
+    color_by : {"axial_force", "stress", "displacement", "group", "utilisation"}
     scale : "auto" or float
         Displacement scale; "auto" draws the largest at 5 % of the model size.
     off_screen : bool
@@ -726,6 +764,7 @@ def screenshot(
     size: Sequence[int] = (1200, 800),
     color_by: str = "axial_force",
     scale: float | str = "auto",
+    utilisation: Mapping[str, Any] | None = None,
 ) -> Path:
     """Render one result off-screen to a PNG file (no display needed).
 
@@ -735,7 +774,7 @@ def screenshot(
         The PNG written.
     """
     scene = build_scene(results, case, color_by=color_by, scale=scale, off_screen=True,
-                        window_size=size, view=view)
+                        window_size=size, view=view, utilisation=utilisation)
     try:
         return scene.save(path)
     finally:
@@ -818,6 +857,7 @@ def screenshots(
     scale: float | str = "auto",
     prefix: str = "",
     progress: Callable[[str], None] | None = None,
+    utilisation: Mapping[str, Any] | None = None,
 ) -> list[Path]:
     """One PNG per result and view, ``<prefix><case>_<view>.png``, from one off-screen scene.
 
@@ -843,7 +883,7 @@ def screenshots(
         return []
     out_dir.mkdir(parents=True, exist_ok=True)
     scene = build_scene(results, names[0], color_by=color_by, scale=scale, off_screen=True,
-                        window_size=size, view=views[0])
+                        window_size=size, view=views[0], utilisation=utilisation)
     paths: list[Path] = []
     used: set[str] = set()
     total = len(names) * len(views)
