@@ -984,7 +984,7 @@ class Model:
         self.combinations[name] = clean
 
     # ----------------------------------------------------------------- solve
-    def validate(self) -> None:
+    def validate(self) -> None:  # noqa: C901 (one independent check after another)
         """Check the whole model once more before analysis (cheap, vectorised).
 
         Raises

@@ -223,8 +223,10 @@ class StudyTable:
             w.writerow([_cell(r.get(c)) for c in self.columns])
         from spaceframe.io._common import atomic_write
 
-        text = buf.getvalue()
-        atomic_write(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+        def save(tmp: Path) -> None:
+            tmp.write_text(buf.getvalue(), encoding="utf-8")
+
+        atomic_write(path, save)
 
 
 def _cell(v: Any) -> str:
