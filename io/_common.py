@@ -13,6 +13,7 @@ import functools
 import math
 import os
 import tempfile
+import threading
 import warnings
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
@@ -340,10 +341,27 @@ def atomic_write(path: str | os.PathLike[str], save: Callable[[Path], None]) -> 
     return target
 
 
+_UMASK_LOCK = threading.Lock()
+
+
 def _umask() -> int:
-    """The process's umask (reading it means setting it: set it straight back)."""
-    mask = os.umask(0)
-    os.umask(mask)
+    """The process's umask.
+
+    Read from /proc/self/status where the kernel reports it (Linux 4.7 on):
+    ``os.umask`` can only read it by setting it, and a file that another
+    thread creates in that moment would be created under umask 0.  Elsewhere
+    ``os.umask`` under a lock (which guards against this module's own threads).
+    """
+    try:
+        with open("/proc/self/status", encoding="ascii", errors="replace") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError, IndexError):
+        pass
+    with _UMASK_LOCK:
+        mask = os.umask(0)
+        os.umask(mask)
     return mask
 
 

@@ -1,5 +1,7 @@
-"""Wavefront OBJ read here: meshio drops its ``l`` (line) statements and VTK keeps the
-lines but not their groups."""
+"""Wavefront OBJ, read here.
+
+meshio drops its ``l`` (line) statements and VTK keeps the lines but not their groups.
+"""
 
 from __future__ import annotations
 

@@ -46,7 +46,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 
 import numpy as np
 
-from spaceframe.errors import ModelError, SpaceframeError
+from spaceframe.errors import SpaceframeError, WriteError
 from spaceframe.summary import auto_scale, format_number, supported_nodes
 
 if TYPE_CHECKING:
@@ -180,11 +180,11 @@ def _resolve_scale(option: float | str | None, results: Results, name: str) -> f
         return 0.0
     if isinstance(option, str):
         if option != "auto":
-            raise ModelError(f"deformed_scale={option!r}: expected 'auto', a number >= 0 or None")
+            raise WriteError(f"deformed_scale={option!r}: expected 'auto', a number >= 0 or None")
         return auto_scale(results.model, results[name].displacements)
     value = float(option)
     if not math.isfinite(value) or value < 0:
-        raise ModelError(f"deformed_scale={option!r}: expected 'auto', a number >= 0 or None")
+        raise WriteError(f"deformed_scale={option!r}: expected 'auto', a number >= 0 or None")
     return value
 
 
@@ -374,10 +374,9 @@ def write_results(
 
     Raises
     ------
-    KeyError
-        If a name in ``cases`` is not a result.
-    ModelError
-        If there is nothing to draw or ``deformed_scale`` is invalid.
+    WriteError
+        If a name in ``cases`` is not a result, there is nothing to draw or
+        ``deformed_scale`` is invalid.
 
     Notes
     -----
@@ -393,9 +392,9 @@ def write_results(
     names = list(results) if cases is None else list(cases)
     for name in names:
         if name not in results:
-            raise KeyError(f"{final}: no result named {name!r} (have: {', '.join(results)})")
+            raise WriteError(f"{final}: no result named {name!r} (have: {', '.join(results)})")
     if not names:
-        raise ModelError(f"{final}: there are no load cases or combinations to draw")
+        raise WriteError(f"{final}: there are no load cases or combinations to draw")
     scales = {name: _resolve_scale(deformed_scale, results, name) for name in names}
     unit_name, per_unit, code = drawing_units(results, units, where=str(final))
     model = results.model

@@ -38,7 +38,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from spaceframe.errors import ModelError
+from spaceframe.errors import WriteError
 from spaceframe.summary import member_group_labels, summary, supported_nodes
 
 if TYPE_CHECKING:
@@ -193,7 +193,7 @@ def write(
 
     Raises
     ------
-    ModelError
+    WriteError
         If there are no results, ``prefix`` holds a path separator or
         ``extra`` would replace a summary key.
 
@@ -204,17 +204,17 @@ def write(
     """
     out = Path(folder)
     if Path(prefix).name != prefix and prefix:
-        raise ModelError(f"tables in {out}: prefix {prefix!r} must not contain a folder")
+        raise WriteError(f"tables in {out}: prefix {prefix!r} must not contain a folder")
     if len(results) == 0:
-        raise ModelError(f"tables in {out}: there are no load cases or combinations to write")
+        raise WriteError(f"tables in {out}: there are no load cases or combinations to write")
     if not 1 <= int(digits) <= 17:
-        raise ModelError(f"tables in {out}: digits={digits!r} must be 1 to 17")
+        raise WriteError(f"tables in {out}: digits={digits!r} must be 1 to 17")
     data = summary(results)
     data["tables"] = {"significant_digits": {"model": INPUT_DIGITS, "results": int(digits)},
                       "units": "SI, in each column name"}
     clash = sorted(set(extra or {}) & set(data))
     if clash:
-        raise ModelError(f"tables in {out}: extra summary key {clash[0]!r} is already a "
+        raise WriteError(f"tables in {out}: extra summary key {clash[0]!r} is already a "
                          "summary entry")
     data.update(extra or {})
     out.mkdir(parents=True, exist_ok=True)
@@ -346,7 +346,7 @@ def write_member_design(
     for key in ("section", "material", "force", "resistance", "utilisation", "passes",
                 "checked", "result", "check"):
         if len(columns[key]) != b:
-            raise ModelError(f"{DESIGN_FILE}: column {key!r} has {len(columns[key])} values, "
+            raise WriteError(f"{DESIGN_FILE}: column {key!r} has {len(columns[key])} values, "
                              f"the model {b} members")
     checked = np.asarray(columns["checked"], dtype=bool)
     passes = np.where(checked, np.where(np.asarray(columns["passes"], dtype=bool), "yes", "no"),

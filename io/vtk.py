@@ -44,7 +44,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from spaceframe.errors import ModelError
+from spaceframe.errors import WriteError
 from spaceframe.summary import auto_scale, member_group_index, panel_group_index
 
 if TYPE_CHECKING:
@@ -231,7 +231,7 @@ def _add_utilisation(grid: pyvista.UnstructuredGrid, results: Results, name: str
             continue
         arr = np.asarray(values, dtype=float)
         if arr.shape != (b,):
-            raise ModelError(f"VTK output: {key} of {name!r} has {arr.size} values, the model "
+            raise WriteError(f"VTK output: {key} of {name!r} has {arr.size} values, the model "
                              f"{b} members")
         grid.cell_data[key] = arr
 
@@ -310,7 +310,7 @@ def write(
 
     Raises
     ------
-    ModelError
+    WriteError
         If there are no results or ``prefix`` is not a plain file name.
 
     Notes
@@ -327,10 +327,10 @@ def write(
         stem = prefix if prefix is not None else "results"
         folder, pvd = target, target / f"{stem}.pvd"
     if not stem or Path(stem).name != stem or stem in (".", ".."):
-        raise ModelError(f"VTK output {target}: prefix {stem!r} must be a plain file name")
+        raise WriteError(f"VTK output {target}: prefix {stem!r} must be a plain file name")
     names = list(results)
     if not names:
-        raise ModelError(f"VTK output {pvd}: there are no load cases or combinations to write")
+        raise WriteError(f"VTK output {pvd}: there are no load cases or combinations to write")
     folder.mkdir(parents=True, exist_ok=True)
 
     used: set[str] = {pvd.name.lower()}

@@ -42,7 +42,9 @@ from spaceframe.errors import (
     SolverError,
     SpaceframeError,
     SpaceframeWarning,
+    WriteError,
 )
+from spaceframe.model import ANALYSES as _ANALYSES
 from spaceframe.model import STANDARD_GRAVITY, LoadCase, Model
 from spaceframe.results import CaseResult, Envelope, Results
 
@@ -93,6 +95,7 @@ __all__ = [
     "SpaceframeError",
     "SpaceframeWarning",
     "VibrationResult",
+    "WriteError",
     "__version__",
     "buckling_reduction",
     "check_deflection",
@@ -105,10 +108,42 @@ __all__ = [
     "linear_buckling",
     "natural_frequencies",
     "size_groups",
+    "solve",
     "solve_determinate",
     "solve_nonlinear",
     "stiffness_matrix",
 ]
+
+
+def solve(model: Model, solver: str = "auto") -> Results:
+    """Analyse every load case and combination of ``model`` (what ``Model.solve`` runs).
+
+    Linear statics with combinations by superposition; a model with
+    tension-only members or pretension is solved load set by load set
+    (:mod:`spaceframe.analysis.tension_only`), since superposition does not
+    hold there.
+
+    Parameters
+    ----------
+    model : Model
+    solver : {"auto", "scipy", "pardiso"}
+        Sparse direct solver back-end; "auto" prefers PARDISO when installed.
+
+    Returns
+    -------
+    Results
+        Mapping from case or combination name to its result.
+    """
+    from spaceframe.analysis.static import solve_static
+    from spaceframe.analysis.tension_only import needs_load_sets, solve_tension_only
+
+    if needs_load_sets(model):
+        return solve_tension_only(model, solver=solver)
+    return solve_static(model, solver=solver)
+
+
+# Model.solve is late-bound through this registry: the Model imports no analysis.
+_ANALYSES["default"] = solve
 
 
 def __getattr__(name: str) -> object:

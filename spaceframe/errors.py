@@ -18,6 +18,7 @@ __all__ = [
     "SolverError",
     "SpaceframeError",
     "SpaceframeWarning",
+    "WriteError",
     "one_line",
 ]
 

@@ -16,7 +16,7 @@ Python scripts all end in the same arrays:
 from __future__ import annotations
 
 import numbers
-from collections.abc import Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -111,6 +111,12 @@ def _real_array(value: Any, name: str) -> np.ndarray:
     return arr.astype(float)
 
 
+def _frozen(a: np.ndarray) -> np.ndarray:
+    """``a``, marked read-only (the model owns it)."""
+    a.flags.writeable = False
+    return a
+
+
 def _grow(a: np.ndarray, n: int) -> np.ndarray:
     if a.shape[0] >= n:
         return a
@@ -134,6 +140,12 @@ MEMBER_DESIGN_DEFAULTS: dict[str, tuple[Any, Any]] = {
 }
 
 
+#: Analyses that :meth:`Model.solve` dispatches to, by name: "default" is
+#: filled by the package root (``spaceframe/__init__.py``) with
+#: :func:`spaceframe.solve`.  The Model imports no analysis itself.
+ANALYSES: dict[str, Callable[..., Results]] = {}
+
+
 class Model:
     """A three-dimensional pin-jointed frame.
 
@@ -152,8 +164,9 @@ class Model:
     """
 
     def __init__(self) -> None:
-        self.nodes = np.zeros((0, 3))
-        self.members = np.zeros((0, 2), dtype=np.int64)
+        self._cache: dict[str, np.ndarray] = {}
+        self._nodes = _frozen(np.zeros((0, 3)))
+        self._members = _frozen(np.zeros((0, 2), dtype=np.int64))
         self.area = np.zeros(0)
         self.E = np.zeros(0)
         self.density = np.zeros(0)
@@ -187,7 +200,56 @@ class Model:
         self.marker_layers = np.zeros(0, dtype=object)
         #: Free-form, namespaced extras ("dxf:layer", "heal:report", "source", ...).
         self.meta: dict[str, Any] = {}
-        self._cache: dict[str, np.ndarray] = {}
+
+    # ---------------------------------------------- geometry (cannot go stale)
+    # Lengths and directions are cached from nodes and members.  Both arrays
+    # are read-only, so ``m.nodes[0] += ...`` raises instead of leaving the
+    # cache stale; assigning a new array goes through the setter, which
+    # checks it and drops the cache.  (A fingerprint of the arrays, checked on
+    # every access, was the alternative: hashing 1M nodes and members costs
+    # tens of milliseconds per access, and lengths are read many times a solve.)
+    @property
+    def nodes(self) -> np.ndarray:
+        """(n, 3) float, m (read-only: assign a new array to change it)."""
+        return self._nodes
+
+    @nodes.setter
+    def nodes(self, value: Any) -> None:
+        pts = _real_array(value, "nodes")
+        if pts.ndim != 2 or pts.shape[1] != 3:
+            raise ModelError(f"nodes must be an (n, 3) float array, got shape {pts.shape}")
+        bad = np.argwhere(~np.isfinite(pts))
+        if bad.size:
+            i, j = (int(v) for v in bad[0])
+            raise ModelError(f"node {i}: coordinate {_AXES[j]} is {float(pts[i, j])}")
+        # _real_array always returns a new array (astype copies): the caller
+        # keeps no handle on the model's geometry.
+        self._nodes = _frozen(pts)
+        self._invalidate()
+
+    @property
+    def members(self) -> np.ndarray:
+        """(b, 2) int64 node ids (read-only: assign a new array to change it)."""
+        return self._members
+
+    @members.setter
+    def members(self, value: Any) -> None:
+        mem = np.asarray(value)
+        if mem.ndim != 2 or mem.shape[1] != 2 or (mem.size and mem.dtype.kind not in "iu"):
+            raise ModelError(
+                f"members must be a (b, 2) integer array, got shape {mem.shape} of {mem.dtype}"
+            )
+        out = mem.astype(np.int64, copy=True)
+        self._members = _frozen(out)
+        self._invalidate()
+
+    def __setstate__(self, state: dict[str, Any]) -> None:
+        # copy.deepcopy and pickle (parameter studies) make writeable copies.
+        self.__dict__.update(state)
+        for name in ("_nodes", "_members"):
+            arr = self.__dict__[name]
+            if arr.flags.writeable:
+                self.__dict__[name] = _frozen(arr)
 
     # ------------------------------------------------------------------ sizes
     @property
@@ -327,7 +389,9 @@ class Model:
         return vec
 
     def _invalidate(self) -> None:
-        self._cache.clear()
+        # A new dict, not clear(): shallow copies (tension_only's submodels)
+        # share the old one.
+        self._cache = {}
 
     # ------------------------------------------------------------------ nodes
     def add_nodes(self, xyz: Any) -> np.ndarray:
@@ -361,7 +425,7 @@ class Model:
                 f"is {float(pts[i, j])}"
             )
         start = self.n_nodes
-        self.nodes = np.concatenate([self.nodes, pts])
+        self._nodes = _frozen(np.concatenate([self.nodes, pts]))
         k = pts.shape[0]
         self.restraint = np.concatenate([self.restraint, np.zeros((k, 3), dtype=bool)])
         self.springs = np.concatenate([self.springs, np.zeros((k, 3))])
@@ -472,7 +536,7 @@ class Model:
         if np.any(rho_a < 0):
             j = int(np.flatnonzero(rho_a < 0)[0])
             raise ModelError(f"add_members: density[{j}] = {float(rho_a[j])}: must not be negative")
-        self.members = np.concatenate([self.members, p])
+        self._members = _frozen(np.concatenate([self.members, p]))
         self.area = np.concatenate([self.area, area_a])
         self.E = np.concatenate([self.E, e_a])
         self.density = np.concatenate([self.density, rho_a])
@@ -920,7 +984,7 @@ class Model:
         self.combinations[name] = clean
 
     # ----------------------------------------------------------------- solve
-    def validate(self) -> None:
+    def validate(self) -> None:  # noqa: C901 (one independent check after another)
         """Check the whole model once more before analysis (cheap, vectorised).
 
         Raises
@@ -1054,14 +1118,16 @@ class Model:
         ModelError
             On inconsistent input.
         """
-        from spaceframe.analysis.static import solve_static
-        from spaceframe.analysis.tension_only import needs_load_sets, solve_tension_only
-
-        if needs_load_sets(self):
-            # Tension-only members or pretension: no superposition; every case
-            # and combination is solved as its own load set.
-            return solve_tension_only(self, solver=solver)
-        return solve_static(self, solver=solver)
+        # Late-bound: the Model imports no analysis (the package root registers
+        # the default one, see ANALYSES), so the import graph has no circle.
+        try:
+            analysis = ANALYSES["default"]
+        except KeyError:
+            raise ModelError(
+                "no analysis registered: import spaceframe (the package root registers the "
+                "static analysis) before calling Model.solve"
+            ) from None
+        return analysis(self, solver=solver)
 
 
 def _zero_area_panels(nodes: np.ndarray, flat: np.ndarray, offs: np.ndarray) -> np.ndarray:

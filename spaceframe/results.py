@@ -53,6 +53,11 @@ class CaseResult:
     factors: dict[str, float] = field(default_factory=dict)
     slack: np.ndarray | None = field(default=None, repr=False)
 
+    def __post_init__(self) -> None:
+        # The result owns its areas: changing the model's after a solve must
+        # not change the stresses of an earlier result.
+        self.area = np.array(self.area, dtype=float, copy=True)
+
     @property
     def stress(self) -> np.ndarray:
         """(b,) float: axial stress N/A, Pa."""

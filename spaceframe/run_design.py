@@ -174,8 +174,10 @@ class DesignOutcome:
 
     @property
     def buckling_not_checked(self) -> np.ndarray:
-        """Ids of members in compression whose buckling could not be checked (no second
-        moment) in some result; they count as failing."""
+        """Ids of members in compression whose buckling could not be checked.
+
+        They have no second moment in some result, and count as failing.
+        """
         bad = np.zeros(self.members.size, dtype=bool)
         for c in self.check.checks.values():
             bad |= c.unchecked
@@ -300,14 +302,18 @@ class DesignOutcome:
 
     @property
     def summary_worst(self) -> tuple[int, float, str, str]:
+        """(member, utilisation, governing result, governing check) of the worst member."""
         j = int(self.members[int(np.argmax(self.check.utilisation))])
         _, _, name, chk = self.governing(j)
         return j, float(self.utilisation[j]), name, chk
 
 
 def strength_results(project: Any, results: Any, envelopes: dict[str, Any]) -> list[str]:
-    """Results the resistance is checked under: combinations (or cases when none),
-    without generated serviceability combinations, and the envelopes of what is checked."""
+    """Results the resistance is checked under.
+
+    Combinations (or cases when none), without generated serviceability
+    combinations, and the envelopes of what is checked.
+    """
     kinds = {n: results[n].kind for n in results}
     generated = set(getattr(getattr(project, "design", None), "generated", []) or [])
     sls = {n for n in generated if n.startswith("SLS")}
@@ -319,8 +325,10 @@ def strength_results(project: Any, results: Any, envelopes: dict[str, Any]) -> l
 
 
 def deflection_results(project: Any, results: Any) -> list[str]:
-    """Default results of a deflection check: generated serviceability combinations,
-    else every combination, else every case."""
+    """Default results of a deflection check.
+
+    Generated serviceability combinations, else every combination, else every case.
+    """
     generated = getattr(getattr(project, "design", None), "generated", []) or []
     sls = [n for n in generated if n.startswith("SLS") and n in results]
     if sls:

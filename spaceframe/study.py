@@ -221,10 +221,12 @@ class StudyTable:
         w.writerow(self.columns)
         for r in self.rows:
             w.writerow([_cell(r.get(c)) for c in self.columns])
-        p = Path(path)
-        tmp = p.with_name(f".{p.name}.tmp-{os.getpid()}")
-        tmp.write_text(buf.getvalue(), encoding="utf-8")
-        os.replace(tmp, p)
+        from spaceframe.io._common import atomic_write
+
+        def save(tmp: Path) -> None:
+            tmp.write_text(buf.getvalue(), encoding="utf-8")
+
+        atomic_write(path, save)
 
 
 def _cell(v: Any) -> str:

@@ -265,6 +265,12 @@ def _model() -> sf.Model:
     return m
 
 
+def _changed(a: np.ndarray, where: tuple[int, int], value: float) -> np.ndarray:
+    out = a.copy()
+    out[where] = value
+    return out
+
+
 def _solve_after(change: Callable[[sf.Model], None]) -> Callable[[], None]:
     def run() -> None:
         m = _model()
@@ -303,11 +309,12 @@ API: list[tuple[str, Callable[[], Any], str]] = [
     ("api-group-out", lambda: _model().add_group("G", [5]), "5"),
     ("api-panel-zero-area", lambda: _model().add_panels([[0, 1, 1]]), "panel"),
     ("api-panel-collinear", lambda: _model().add_panels([[0, 1, 1, 0]]), "panel"),
-    ("api-nan-node-after-add", _solve_after(lambda m: m.nodes.__setitem__((3, 2), np.nan)),
-     "node"),
+    # Geometry is read-only: changed by assigning a new array (checked then and at solve).
+    ("api-nan-node-after-add",
+     _solve_after(lambda m: setattr(m, "nodes", _changed(m.nodes, (3, 2), np.nan))), "node"),
     ("api-member-out-after-add",
-     _solve_after(lambda m: m.members.__setitem__((0, 1), 99)), "99"),
+     _solve_after(lambda m: setattr(m, "members", _changed(m.members, (0, 1), 99))), "99"),
     ("api-member-neg-after-add",
-     _solve_after(lambda m: m.members.__setitem__((0, 1), -5)), "-5"),
+     _solve_after(lambda m: setattr(m, "members", _changed(m.members, (0, 1), -5))), "-5"),
     ("api-area-nan-after-add", _solve_after(lambda m: m.area.__setitem__(0, np.nan)), "area"),
 ]

@@ -40,7 +40,7 @@ def test_roof_grid_example_runs_and_balances() -> None:
 def test_readme_commands_are_what_ci_runs() -> None:
     readme = (ROOT / "README.md").read_text()
     ci = (ROOT / ".ci" / "run").read_text()
-    commands = re.findall(r"^\s*(python -m pytest.*|spaceframe run \S+.*)$", readme, re.M)
+    commands = re.findall(r"^\s*(python (?:-P )?-m pytest.*|spaceframe run \S+.*)$", readme, re.M)
     assert commands, "README shows no run/test command"
     test_cmd = next(c for c in commands if "pytest" in c)
     assert test_cmd.strip() in ci

@@ -337,15 +337,24 @@ def test_validate_catches_arrays_changed_after_add() -> None:
     m = tripod()
     m.add_load("P", [3], (0, 0, -1e3))
     m.solve()  # fills the cache of lengths
-    m.nodes[3, 2] = np.nan
+    # Geometry is read-only (in place it would leave cached lengths stale);
+    # a new array is checked when it is assigned, and again by every solve.
+    with pytest.raises(ValueError, match="read-only"):
+        m.nodes[3, 2] = np.nan
+    nodes = m.nodes.copy()
+    nodes[3, 2] = np.nan
     with pytest.raises(sf.ModelError, match="node 3: coordinate z is nan"):
-        m.solve()
+        m.nodes = nodes
     m = tripod()
-    m.members[1, 1] = 17
+    members = m.members.copy()
+    members[1, 1] = 17
+    m.members = members
     with pytest.raises(sf.ModelError, match="member 1 refers to node 17, which does not exist"):
         m.solve()
     m = tripod()
-    m.nodes[3] = m.nodes[0]  # member 0 now has zero length
+    nodes = m.nodes.copy()
+    nodes[3] = nodes[0]  # member 0 now has zero length
+    m.nodes = nodes
     with pytest.raises(sf.ModelError, match="member 0 between nodes 0 and 3 has zero length"):
         m.solve()
     m = tripod()

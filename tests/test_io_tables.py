@@ -113,7 +113,7 @@ def test_extra_summary_entries(tmp_path: Path, results: sf.Results) -> None:
     data = json.loads(path.read_text(encoding="utf-8"))
     assert data["source"] == "mast.toml" and data["warnings"] == ["w"]
     assert "results" in data
-    with pytest.raises(sf.ModelError, match="'results' is already"):
+    with pytest.raises(sf.WriteError, match="'results' is already"):
         tables.write(tmp_path / "x", results, extra={"results": {}})
     assert not (tmp_path / "x").exists()
 
@@ -130,9 +130,9 @@ def test_failure_leaves_nothing_behind(tmp_path: Path, results: sf.Results,
 
 
 def test_bad_prefix_and_empty_results(tmp_path: Path, results: sf.Results) -> None:
-    with pytest.raises(sf.ModelError, match="prefix 'sub/x_'"):
+    with pytest.raises(sf.WriteError, match="prefix 'sub/x_'"):
         tables.write(tmp_path, results, prefix="sub/x_")
-    with pytest.raises(sf.ModelError, match="no load cases"):
+    with pytest.raises(sf.WriteError, match="no load cases"):
         tables.write(tmp_path, sf.Results(results.model, {}))
     assert list(tmp_path.iterdir()) == []
 
@@ -174,5 +174,5 @@ def test_stated_precision(tmp_path: Path) -> None:
     exact = tables.write(tmp_path / "exact", res, digits=17)[1]
     n = _numbers(exact, ["pull: N [N]"])[:, 0]
     np.testing.assert_array_equal(n, res["pull"].axial_forces)
-    with pytest.raises(sf.ModelError, match="digits=0"):
+    with pytest.raises(sf.WriteError, match="digits=0"):
         tables.write(tmp_path / "bad", res, digits=0)

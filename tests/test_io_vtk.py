@@ -207,10 +207,10 @@ def test_failure_leaves_nothing_behind(tmp_path: Path, results: sf.Results,
 
 
 def test_bad_prefix_and_empty_results(tmp_path: Path, results: sf.Results) -> None:
-    with pytest.raises(sf.ModelError, match="prefix 'a/b'"):
+    with pytest.raises(sf.WriteError, match="prefix 'a/b'"):
         sfvtk.write(tmp_path, results, prefix="a/b")
     empty = sf.Results(results.model, {})
-    with pytest.raises(sf.ModelError, match="no load cases"):
+    with pytest.raises(sf.WriteError, match="no load cases"):
         sfvtk.write(tmp_path / "x.pvd", empty)
     assert not (tmp_path / "x.pvd").exists()
 

@@ -120,3 +120,105 @@ def test_exceptions_inherit_builtins() -> None:
     assert issubclass(sf.ReadError, OSError)
     assert all(issubclass(e, sf.SpaceframeError) for e in
                (sf.ModelError, sf.MechanismError, sf.ReadError, sf.SolverError))
+
+
+# --------------------------------------------- a model that cannot go stale
+def _two_bars(rise: float = 1.0) -> sf.Model:
+    """Two bars from (0,0,0) and (2,0,0) to an apex at (1,0,rise), load P down at the apex.
+
+    Joint equilibrium at the apex (closed form, common practice): each bar carries
+    N = -P / (2 sin θ), sin θ = rise / sqrt(1 + rise²).
+    """
+    m = sf.Model()
+    m.add_nodes([[0, 0, 0], [1, 0, rise], [2, 0, 0]])
+    m.add_members([[0, 1], [1, 2]], area=1e-4, E=210e9)
+    m.add_support([0, 2])
+    m.add_support([1], False, True, False)  # out of plane only
+    m.add_load("P", [1], (0, 0, -1e3))
+    return m
+
+
+def _bar_force(rise: float, p: float = 1e3) -> float:
+    return -p / (2 * rise / np.hypot(1.0, rise))
+
+
+def test_geometry_cannot_be_changed_in_place_after_a_solve() -> None:
+    m = _two_bars()
+    m.solve()
+    lengths = m.lengths.copy()
+    with pytest.raises(ValueError, match="read-only"):
+        m.nodes[1, 2] += 1.0
+    with pytest.raises(ValueError, match="read-only"):
+        m.members[0, 0] = 2
+    np.testing.assert_array_equal(m.lengths, lengths)  # nothing changed
+
+
+def test_assigned_geometry_is_seen_by_the_next_solve() -> None:
+    m = _two_bars(rise=1.0)
+    first = m.solve()["P"].axial_forces.copy()
+    np.testing.assert_allclose(first, [_bar_force(1.0)] * 2, rtol=1e-12)
+    _ = m.lengths, m.directions  # cached
+    nodes = m.nodes.copy()
+    nodes[1, 2] = 2.0
+    m.nodes = nodes
+    np.testing.assert_allclose(m.lengths, [np.sqrt(5.0)] * 2, rtol=1e-15)
+    np.testing.assert_allclose(m.solve()["P"].axial_forces, [_bar_force(2.0)] * 2, rtol=1e-12)
+    nodes[1, 2] = 3.0  # the caller's array is not the model's
+    np.testing.assert_allclose(m.lengths, [np.sqrt(5.0)] * 2, rtol=1e-15)
+
+
+def test_assigned_geometry_is_checked() -> None:
+    m = _two_bars()
+    with pytest.raises(sf.ModelError, match=r"nodes must be an \(n, 3\) float array"):
+        m.nodes = np.zeros((3, 2))
+    with pytest.raises(sf.ModelError, match="node 1: coordinate y is inf"):
+        m.nodes = [[0, 0, 0], [1, np.inf, 1], [2, 0, 0]]
+    with pytest.raises(sf.ModelError, match=r"members must be a \(b, 2\) integer array"):
+        m.members = [[0.0, 1.0]]
+    np.testing.assert_array_equal(m.nodes[1], [1, 0, 1])  # unchanged
+
+
+def test_copies_and_pickles_stay_read_only() -> None:
+    import copy
+    import pickle
+
+    m = _two_bars()
+    for other in (copy.deepcopy(m), pickle.loads(pickle.dumps(m)), copy.copy(m)):
+        assert not other.nodes.flags.writeable and not other.members.flags.writeable
+        np.testing.assert_array_equal(other.nodes, m.nodes)
+
+
+def test_results_own_their_areas() -> None:
+    m = _two_bars()
+    before = m.solve()["P"]
+    stress = before.stress.copy()
+    m.set_member_properties([0, 1], area=2e-4)
+    m.area[0] = 4e-4  # in place, too
+    np.testing.assert_array_equal(before.stress, stress)
+    np.testing.assert_allclose(stress, [_bar_force(1.0) / 1e-4] * 2, rtol=1e-12)
+    after = m.solve()["P"]
+    np.testing.assert_allclose(after.stress, _bar_force(1.0) / np.array([4e-4, 2e-4]),
+                               rtol=1e-12)
+
+
+def test_solve_is_late_bound_and_a_function(monkeypatch: pytest.MonkeyPatch) -> None:
+    import ast
+    from pathlib import Path
+
+    import spaceframe.model as model_module
+
+    m = _two_bars()
+    np.testing.assert_array_equal(sf.solve(m)["P"].axial_forces, m.solve()["P"].axial_forces)
+    # The Model imports no analysis, not even inside a function: no import circle.
+    tree = ast.parse(Path(model_module.__file__).read_text(encoding="utf-8"))
+    imported = {n.module for n in ast.walk(tree) if isinstance(n, ast.ImportFrom)}
+    imported |= {a.name for n in ast.walk(tree) if isinstance(n, ast.Import) for a in n.names}
+    assert not {i for i in imported if i and i.startswith("spaceframe.analysis")}, imported
+    monkeypatch.delitem(model_module.ANALYSES, "default")
+    with pytest.raises(sf.ModelError, match="no analysis registered"):
+        m.solve()
+
+
+def test_write_error_at_the_root() -> None:
+    assert issubclass(sf.WriteError, sf.SpaceframeError) and issubclass(sf.WriteError, OSError)
+    assert str(sf.WriteError("out.vtu: disk full\nreally")) == "out.vtu: disk full\\nreally"

@@ -69,7 +69,7 @@ def test_scale_depth_follows_self_weight():
     m = _grid()
     row = evaluate_variant(m, {"scale.z": 2.0})
     deep = _grid()
-    deep.nodes[:, 2] *= 2.0
+    deep.nodes = deep.nodes * np.array([1.0, 1.0, 2.0])
     # Longer web members: more mass (density x A x L, geometry).
     lengths = np.linalg.norm(deep.nodes[deep.members[:, 1]] - deep.nodes[deep.members[:, 0]],
                              axis=1)

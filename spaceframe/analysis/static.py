@@ -295,8 +295,10 @@ def _make_result(
     restrained: np.ndarray,
     factors: dict[str, float] | None = None,
 ) -> CaseResult:
-    """One result's self-checks, column by column: the reference that
-    :func:`_make_results` (used by the solve) is tested against."""
+    """One result's self-checks, column by column.
+
+    The reference that :func:`_make_results` (used by the solve) is tested against.
+    """
     n = model.n_nodes
     label = f"{kind} {name!r}"
     for what, arr in (("displacements", u), ("axial forces", t), ("reactions", r)):
