@@ -689,6 +689,14 @@ def run(
                 summ["warnings"].append(
                     f"design sizing: no catalogue section makes every member of group {g!r} "
                     f"pass ({n} members fail with the largest)")
+    analysis_spec = getattr(loaded.project, "analysis", None)
+    if analysis_spec is not None and (analysis_spec.buckling or analysis_spec.frequencies):
+        from spaceframe.project_analysis import run_analyses
+
+        progress("buckling and frequencies")
+        t = time.perf_counter()
+        summ["analysis"] = run_analyses(analysis_spec, loaded.model, results, solver=solver)
+        timings["analysis"] = time.perf_counter() - t
     target = _target(Path(output) if output is not None else loaded.output, loaded, force)
     final = target.final
     notes: list[str] = []
@@ -712,8 +720,8 @@ def run(
         _fault("after-mkdtemp")
         progress("write tables")
         t = time.perf_counter()
-        extra: dict[str, Any] = {k: summ[k] for k in ("source", "title", "warnings",
-                                                      "envelopes", "design") if k in summ}
+        keys = ("source", "title", "warnings", "envelopes", "design", "analysis")
+        extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
         files += _write_outputs(tmp, results, loaded, pictures, progress, extra, design)
         files += tables.write_envelopes(tmp, results, envelopes)
         _fault("after-write")

@@ -299,6 +299,8 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
         )
     if outcome.design is not None:
         out.line(outcome.design.line())
+    for text in _analysis_lines(outcome.summary.get("analysis", {})):
+        out.line(text)
     for w in outcome.summary.get("warnings", []):
         out.line(f"warning: {w}")
     out.line(f"results written to {outcome.output} ({len(outcome.files)} files)")
@@ -306,6 +308,33 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
         out.line("timings: " + ", ".join(f"{k} {v:.2f} s" for k, v in outcome.timings.items()))
     out.line(CAUTION)
     return 0
+
+
+def _analysis_lines(block: dict[str, Any]) -> list[str]:
+    """One line each for the buckling and frequency results of a run."""
+    lines = []
+    b = block.get("buckling")
+    if b is not None:
+        low = b.get("lowest")
+        if low is None:
+            lines.append("buckling: no buckling factor (" + "; ".join(
+                v["note"] for v in b["results"].values() if v.get("note")) + ")")
+        else:
+            limit = b.get("min_factor")
+            verdict = "" if limit is None else (
+                f", {'above' if low['factor'] >= limit else 'BELOW'} the limit {limit:g}")
+            lines.append(f"buckling: lowest factor {low['factor']:.3g} under "
+                         f"{low['result']!r}{verdict} (linear, first-order estimate)")
+    f = block.get("frequencies")
+    if f is not None:
+        if f["frequencies_hz"]:
+            hz = ", ".join(f"{x:.3g}" for x in f["frequencies_hz"][:6])
+            verdict = "" if "passes" not in f else (
+                f"; lowest {'above' if f['passes'] else 'BELOW'} {f['min_frequency_hz']:g} Hz")
+            lines.append(f"frequencies: {hz} Hz{verdict}")
+        else:
+            lines.append(f"frequencies: none ({f['note']})")
+    return lines
 
 
 def _cmd_new(args: argparse.Namespace, out: _Printer) -> int:

@@ -70,3 +70,18 @@ def test_analysis_errors_name_the_key(tmp_path, extra, fragment):
     with pytest.raises(ProjectError) as exc:
         _project(tmp_path, extra)
     assert fragment in str(exc.value)
+
+
+def test_run_writes_and_prints_the_analysis_block(tmp_path, capsys):
+    import json
+
+    from spaceframe.cli import main
+
+    (tmp_path / "canopy.toml").write_text(CANOPY + ANALYSIS, encoding="utf-8")
+    assert main(["run", str(tmp_path / "canopy.toml"), "--no-pictures"]) == 0
+    text = capsys.readouterr().out
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    low = summary["analysis"]["buckling"]["lowest"]
+    assert f"buckling: lowest factor {low['factor']:.3g}" in text
+    f1 = summary["analysis"]["frequencies"]["frequencies_hz"][0]
+    assert f"frequencies: {f1:.3g}" in text
