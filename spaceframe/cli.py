@@ -116,7 +116,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("model", type=Path, help="model file (.toml) or a results folder")
     p.add_argument("--case", help="load case or combination to show first")
     p.add_argument("--color-by", default="axial_force",
-                   choices=["axial_force", "displacement", "stress", "group"])
+                   choices=["axial_force", "displacement", "stress", "group", "utilisation"])
     p.add_argument("--screenshot", type=Path, help="render off-screen to this PNG")
     p.add_argument("--view", default="iso", choices=["iso", "top", "front", "side"])
     p.add_argument("--size", default="1600x1000", help="picture size, WIDTHxHEIGHT")
@@ -378,12 +378,24 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
     case = args.case or next(iter(results))
     if case not in results:
         raise ProjectError(f"--case {case!r}: no such case (have: {', '.join(results)})")
+    options: dict[str, Any] = {}
+    if args.color_by == "utilisation":
+        from spaceframe import run_design
+
+        envelopes = loaded.project.envelope_results(results) if loaded.project else {}
+        design = run_design.run_checks(loaded.model, results, envelopes, loaded.project)
+        if design is None or case not in design.per_result:
+            raise ProjectError(
+                f"--color-by utilisation: no design check of {case!r} (checks need a yield "
+                "strength per member, or a [design] table; checked results: "
+                + (", ".join(design.per_result) if design else "none") + ")")
+        options["utilisation"] = design.per_result
     if args.screenshot:
         viewer.screenshot(results, case, args.screenshot, view=args.view, size=(w, h),
-                          color_by=args.color_by)
+                          color_by=args.color_by, **options)
         out.line(f"wrote {args.screenshot}")
         return 0
-    viewer.show(results, case, color_by=args.color_by)
+    viewer.show(results, case, color_by=args.color_by, **options)
     return 0
 
 

@@ -344,3 +344,18 @@ def test_too_slender_members_fail_and_are_counted(tmp_path):
     rows = _rows(out.output / "member_design.csv")
     for j in np.flatnonzero(slender):
         assert rows[j]["passes [-]"] == "no"
+
+
+def test_view_colours_by_utilisation(tmp_path, capsys):
+    from test_project import CANOPY
+
+    from spaceframe.cli import main
+
+    (tmp_path / "canopy.toml").write_text(CANOPY, encoding="utf-8")
+    shot = tmp_path / "u.png"
+    assert main(["view", str(tmp_path / "canopy.toml"), "--case", "ULS", "--color-by",
+                 "utilisation", "--screenshot", str(shot), "--size", "400x300"]) == 0
+    assert shot.stat().st_size > 1000
+    assert main(["view", str(tmp_path / "canopy.toml"), "--case", "snow", "--color-by",
+                 "utilisation", "--screenshot", str(shot), "--size", "400x300"]) == 2
+    assert "no design check of 'snow'" in capsys.readouterr().err
