@@ -330,8 +330,8 @@ def _check_rigid_body(model: Model, label: np.ndarray, n_parts: int, held: np.nd
             )
 
 
-def _inertia_factor(Ks: sp.spmatrix, tau: float) -> tuple[Any, int]:
-    """SuperLU of ``Ks - tau I`` and the number of eigenvalues of Ks below tau.
+def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
+    """The number of eigenvalues of Ks below tau, from a factorisation of ``Ks - tau I``.
 
     Sylvester's law of inertia: K - tau I = L D L^T has as many negative
     pivots as K has eigenvalues below tau (the Sturm sequence check of
@@ -345,22 +345,10 @@ def _inertia_factor(Ks: sp.spmatrix, tau: float) -> tuple[Any, int]:
     grow; a pivot that lands almost on zero (an eigenvalue within a hair of
     tau) is retried with a shift moved by a factor 1.5.
     """
-    import scipy.sparse.linalg as spla
-
-    n = Ks.shape[0]
-    eye = sp.identity(n, format="csc")
     last: Exception | None = None
     for shift in (tau, tau * 1.5, tau / 1.5):
         try:
-            lu = spla.splu(
-                sp.csc_matrix(Ks - shift * eye),
-                # COLAMD: on these matrices (not pre-ordered) it fills
-                # several times less than MMD on A^T + A; with diagonal
-                # pivoting in symmetric mode the row order follows it.
-                permc_spec="COLAMD",
-                diag_pivot_thresh=0.0,
-                options={"SymmetricMode": True},
-            )
+            lu = _splu_shifted(Ks, shift)
         except RuntimeError as exc:  # an exactly zero pivot
             last = exc
             continue
@@ -371,28 +359,55 @@ def _inertia_factor(Ks: sp.spmatrix, tau: float) -> tuple[Any, int]:
         if np.any(np.abs(d) < 1e-3 * shift):
             last = SolverError("a pivot within round-off of zero")
             continue
-        return lu, int(np.sum(d < 0))
+        return int(np.sum(d < 0))
     raise SolverError(f"determinacy: the inertia count failed ({last})")
 
 
-def _lowest_modes(Ks: sp.spmatrix, lu: Any, k: int, tau: float) -> tuple[np.ndarray, np.ndarray]:
-    """The k lowest eigenpairs of Ks by shift-invert Lanczos on the factor of Ks - tau I.
+def _splu_shifted(Ks: sp.spmatrix, shift: float) -> Any:
+    """SuperLU of Ks - shift I: symmetric mode, diagonal pivots, COLAMD order."""
+    import scipy.sparse.linalg as spla
 
-    A bounded run: the zero eigenvalues map to about -1/tau, far from the
-    images 1/(lambda - tau) of genuine ones, so ARPACK converges in a few
-    restarts; the iteration cap keeps a hard case from running long.
+    eye = sp.identity(Ks.shape[0], format="csc")
+    # COLAMD: on these matrices (not pre-ordered) it fills several times less
+    # than MMD on A^T + A; with diagonal pivoting in symmetric mode the row
+    # order follows the column order, so this is an L D L^T.
+    return spla.splu(
+        sp.csc_matrix(Ks - shift * eye),
+        permc_spec="COLAMD",
+        diag_pivot_thresh=0.0,
+        options={"SymmetricMode": True},
+    )
+
+
+def _lowest_modes(Ks: sp.spmatrix, k: int, tau: float) -> tuple[np.ndarray, np.ndarray]:
+    """The k lowest eigenpairs of Ks by block inverse (subspace) iteration.
+
+    Hand-written rather than scipy's eigsh: a null space of dimension k is one
+    eigenvalue of multiplicity k, and Lanczos finds the copies of a multiple
+    eigenvalue only one at a time and unreliably (a flat grid's mechanisms
+    came back mixed with in-plane vectors); a block of k + a few vectors
+    holds them all at once (Bathe, "Finite Element Procedures", 1996,
+    section 11.6, subspace iteration).  The shift sits just below zero
+    (-tau/100): Ks + (tau/100) I is positive definite, its factorisation
+    stable, and each step multiplies the zero modes by about 100/tau against
+    1/lambda for the others, so a few steps suffice; a Rayleigh-Ritz step on
+    the block then sorts them.  The number of steps is capped.
     """
-    from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigsh
-
     n = Ks.shape[0]
-    op = LinearOperator((n, n), matvec=lu.solve, dtype=float)
-    k = max(1, min(k, n - 2))
-    try:
-        w, V = eigsh(Ks, k=k, sigma=tau, which="LM", OPinv=op, maxiter=200, tol=1e-10)
-    except ArpackNoConvergence as exc:
-        w, V = exc.eigenvalues, exc.eigenvectors
-    order = np.argsort(w)
-    return np.asarray(w)[order], np.asarray(V)[:, order]
+    k = max(1, min(k, n))
+    p = min(n, k + min(k, 8) + 2)
+    lu = _splu_shifted(Ks, -tau / 100.0)
+    X = np.random.default_rng(0).standard_normal((n, p))
+    w = np.zeros(p)
+    for _ in range(8):
+        X, _r = np.linalg.qr(np.asarray(lu.solve(X)))
+        H = X.T @ (Ks @ X)
+        w, Q = np.linalg.eigh((H + H.T) / 2)
+        X = X @ Q
+        res = np.linalg.norm(Ks @ X[:, :k] - X[:, :k] * w[:k], axis=0)
+        if np.all(res <= 1e-3 * np.sqrt(tau)):
+            break
+    return w[:k], X[:, :k]
 
 
 #: Largest number of rows of the reduced stiffness for a dense eigen-solve
@@ -439,12 +454,12 @@ def mechanism_modes(
         w, V = np.linalg.eigh(Ks.toarray())
         w, V = w[:k], V[:, :k]
     else:
-        # One factorisation of Ks - tau I counts the modes below tau
-        # (inertia) and drives a short shift-invert Lanczos run for them.
-        lu, count = _inertia_factor(Ks, PIVOT_TOLERANCE)
+        # A factorisation of Ks - tau I counts the modes below tau
+        # (inertia); a short shift-invert Lanczos run finds them.
+        count = _inertia_count(Ks, PIVOT_TOLERANCE)
         if count == 0:
             return np.zeros(0), []
-        w, V = _lowest_modes(Ks, lu, min(k, count), PIVOT_TOLERANCE)
+        w, V = _lowest_modes(Ks, min(k, count), PIVOT_TOLERANCE)
     zero = np.flatnonzero(w < PIVOT_TOLERANCE)
     out = []
     for j in zero:
@@ -576,7 +591,7 @@ def determinacy(model: Model, modes: bool = True) -> Determinacy:
         mech = _mechanism_array(model, free, dr[:, None] * U[:, r:])
         return Determinacy(r, b - r, free.size - r, mech, _unit_rows(Vt[r:]))
     Ks = sp.csc_matrix(As @ As.T)
-    lu, m = _inertia_factor(Ks, tau)
+    m = _inertia_count(Ks, tau)
     r = free.size - m
     s = b - r
     out = Determinacy(r, s, m, method="sparse")
@@ -585,7 +600,7 @@ def determinacy(model: Model, modes: bool = True) -> Determinacy:
     notes = []
     if m <= SPARSE_MODE_LIMIT:
         if m:
-            _, V = _lowest_modes(Ks, lu, m, tau)
+            _, V = _lowest_modes(Ks, m, tau)
             out.mechanism_modes = _mechanism_array(model, free, dr[:, None] * V)
         else:
             out.mechanism_modes = np.zeros((0, model.n_nodes, 3))
@@ -594,12 +609,12 @@ def determinacy(model: Model, modes: bool = True) -> Determinacy:
     if s <= SPARSE_MODE_LIMIT:
         if s:
             Gs = sp.csc_matrix(As.T @ As)
-            glu, count = _inertia_factor(Gs, tau)
+            count = _inertia_count(Gs, tau)
             if count != s:
                 notes.append(f"states of self-stress: the member-side count {count} differs "
                              f"from s = {s}; states not computed")
             else:
-                _, V = _lowest_modes(Gs, glu, s, tau)
+                _, V = _lowest_modes(Gs, s, tau)
                 out.self_stress_states = _unit_rows(V.T)
         else:
             out.self_stress_states = np.zeros((0, b))
