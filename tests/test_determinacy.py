@@ -187,3 +187,24 @@ def test_sparse_naming_names_the_same_nodes(monkeypatch: pytest.MonkeyPatch) -> 
     assert np.all(w < 1e-12)
     np.testing.assert_array_equal(modes[0], dense[0])
     assert {int(x) // 3 for x in modes[0]} == {2, 3, 4}
+
+
+@pytest.mark.parametrize("force_sparse", [False, True])
+def test_two_collinear_bars(force_sparse: bool, monkeypatch: pytest.MonkeyPatch) -> None:
+    # Two collinear bars between two pins, the joint between them free: the
+    # introductory example of Pellegrino and Calladine (1986), there in the
+    # plane with one mechanism and one state of self-stress (from memory).
+    # In space the joint has a second transverse direction: r = 1 (only the
+    # axial direction is held), s = 2 - 1 = 1, m = 3 - 1 = 2.
+    m = sf.Model()
+    m.add_nodes([[0, 0, 0], [1, 0, 0], [2, 0, 0]])
+    m.add_members([[0, 1], [1, 2]], area=1e-4, E=2e11)
+    m.add_support([0, 2])
+    d = sparse(m, monkeypatch) if force_sparse else st.determinacy(m)
+    assert _counts(d) == (1, 1, 2)
+    assert d.self_stress_states is not None and d.mechanism_modes is not None
+    # The self-stress is equal tension (or compression) in both bars.
+    np.testing.assert_allclose(np.abs(d.self_stress_states), [[1.0, 1.0]], atol=1e-9)
+    # The mechanisms move the joint across the line only.
+    np.testing.assert_allclose(d.mechanism_modes[:, [0, 2]], 0.0, atol=1e-12)
+    np.testing.assert_allclose(d.mechanism_modes[:, 1, 0], 0.0, atol=1e-9)

@@ -11,11 +11,12 @@ Cheap checks run before any factorisation (all vectorised):
 Whatever still makes the stiffness singular is named from the zero-energy
 modes of the reduced stiffness (:func:`mechanism_modes`).
 
-:func:`determinacy` gives, for small models, the rank r of the equilibrium
+:func:`determinacy` gives, at any size, the rank r of the equilibrium
 matrix, the number of states of self-stress s = b - r and of inextensional
 mechanisms m = 3j - k - r (Pellegrino and Calladine, "Matrix analysis of
 statically and kinematically indeterminate frameworks", Int. J. Solids
-Structures 22(4), 1986).
+Structures 22(4), 1986): by a dense SVD for small models, by a sparse
+inertia count above, with bases of both null spaces where they are few.
 """
 
 from __future__ import annotations
