@@ -11,17 +11,18 @@ Cheap checks run before any factorisation (all vectorised):
 Whatever still makes the stiffness singular is named from the zero-energy
 modes of the reduced stiffness (:func:`mechanism_modes`).
 
-:func:`determinacy` gives, for small models, the rank r of the equilibrium
+:func:`determinacy` gives, at any size, the rank r of the equilibrium
 matrix, the number of states of self-stress s = b - r and of inextensional
 mechanisms m = 3j - k - r (Pellegrino and Calladine, "Matrix analysis of
 statically and kinematically indeterminate frameworks", Int. J. Solids
-Structures 22(4), 1986).
+Structures 22(4), 1986): by a dense SVD for small models, by a sparse
+inertia count above, with bases of both null spaces where they are few.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import scipy.sparse as sp
@@ -330,6 +331,92 @@ def _check_rigid_body(model: Model, label: np.ndarray, n_parts: int, held: np.nd
             )
 
 
+def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
+    """The number of eigenvalues of Ks below tau, from a factorisation of ``Ks - tau I``.
+
+    Sylvester's law of inertia: K - tau I = L D L^T has as many negative
+    pivots as K has eigenvalues below tau (the Sturm sequence check of
+    structural eigenvalue solvers, Bathe, "Finite Element Procedures", 1996,
+    section 11.4.3).  SuperLU in symmetric mode with diagonal pivoting and
+    one ordering for rows and columns is such an L D L^T (U = D L^T), so the
+    signs of U's diagonal are those pivots.  scipy has no sparse LDL^T or
+    rank-revealing sparse QR; this is why SuperLU is driven this way here.
+    A mechanism's pivot is -tau plus round-off and its column below is
+    round-off too (Ks is positive semi-definite), so the elimination does not
+    grow; a pivot that lands almost on zero (an eigenvalue within a hair of
+    tau) is retried with a shift moved by a factor 1.5.
+    """
+    last: Exception | None = None
+    for shift in (tau, tau * 1.5, tau / 1.5):
+        try:
+            lu = _splu_shifted(Ks, shift)
+        except RuntimeError as exc:  # an exactly zero pivot
+            last = exc
+            continue
+        d = lu.U.diagonal()
+        if not np.all(np.isfinite(d)):
+            last = SolverError("non-finite pivots")
+            continue
+        if np.any(np.abs(d) < 1e-3 * shift):
+            last = SolverError("a pivot within round-off of zero")
+            continue
+        return int(np.sum(d < 0))
+    raise SolverError(f"determinacy: the inertia count failed ({last})")
+
+
+def _splu_shifted(Ks: sp.spmatrix, shift: float) -> Any:
+    """SuperLU of Ks - shift I: symmetric mode, diagonal pivots, COLAMD order."""
+    import scipy.sparse.linalg as spla
+
+    eye = sp.identity(Ks.shape[0], format="csc")
+    # COLAMD: on these matrices (not pre-ordered) it fills several times less
+    # than MMD on A^T + A; with diagonal pivoting in symmetric mode the row
+    # order follows the column order, so this is an L D L^T.
+    return spla.splu(
+        sp.csc_matrix(Ks - shift * eye),
+        permc_spec="COLAMD",
+        diag_pivot_thresh=0.0,
+        options={"SymmetricMode": True},
+    )
+
+
+def _lowest_modes(Ks: sp.spmatrix, k: int, tau: float) -> tuple[np.ndarray, np.ndarray]:
+    """The k lowest eigenpairs of Ks by block inverse (subspace) iteration.
+
+    Hand-written rather than scipy's eigsh: a null space of dimension k is one
+    eigenvalue of multiplicity k, and Lanczos finds the copies of a multiple
+    eigenvalue only one at a time and unreliably (a flat grid's mechanisms
+    came back mixed with in-plane vectors); a block of k + a few vectors
+    holds them all at once (Bathe, "Finite Element Procedures", 1996,
+    section 11.6, subspace iteration).  The shift sits just below zero
+    (-tau/100): Ks + (tau/100) I is positive definite, its factorisation
+    stable, and each step multiplies the zero modes by about 100/tau against
+    1/lambda for the others, so a few steps suffice; a Rayleigh-Ritz step on
+    the block then sorts them.  The number of steps is capped.
+    """
+    n = Ks.shape[0]
+    k = max(1, min(k, n))
+    p = min(n, k + min(k, 8) + 2)
+    lu = _splu_shifted(Ks, -tau / 100.0)
+    X = np.random.default_rng(0).standard_normal((n, p))
+    w = np.zeros(p)
+    for _ in range(8):
+        X, _r = np.linalg.qr(np.asarray(lu.solve(X)))
+        H = X.T @ (Ks @ X)
+        w, Q = np.linalg.eigh((H + H.T) / 2)
+        X = X @ Q
+        res = np.linalg.norm(Ks @ X[:, :k] - X[:, :k] * w[:k], axis=0)
+        if np.all(res <= 1e-3 * np.sqrt(tau)):
+            break
+    return w[:k], X[:, :k]
+
+
+#: Largest number of rows of the reduced stiffness for a dense eigen-solve
+#: when naming a mechanism (about a second on two cores); above, the sparse
+#: factor and a shift-invert Lanczos are used.
+_DENSE_NAMING = 1500
+
+
 def mechanism_modes(
     K: sp.spmatrix, free_dofs: np.ndarray, k: int = 3
 ) -> tuple[np.ndarray, list[np.ndarray]]:
@@ -364,15 +451,16 @@ def mechanism_modes(
     S = sp.diags(s)
     Ks = sp.csc_matrix(S @ K @ S)
     k = max(1, min(k, m - 1))
-    if m <= 3000:
+    if m <= _DENSE_NAMING:
         w, V = np.linalg.eigh(Ks.toarray())
         w, V = w[:k], V[:, :k]
     else:
-        from scipy.sparse.linalg import eigsh
-
-        # Shift-invert about a small negative value: (K - sigma I) is then
-        # positive definite and factorisable even though K is singular.
-        w, V = eigsh(Ks, k=k, sigma=-1e-6, which="LM")
+        # A factorisation of Ks - tau I counts the modes below tau
+        # (inertia); a short shift-invert Lanczos run finds them.
+        count = _inertia_count(Ks, PIVOT_TOLERANCE)
+        if count == 0:
+            return np.zeros(0), []
+        w, V = _lowest_modes(Ks, min(k, count), PIVOT_TOLERANCE)
     zero = np.flatnonzero(w < PIVOT_TOLERANCE)
     out = []
     for j in zero:
@@ -383,7 +471,7 @@ def mechanism_modes(
 
 @dataclass
 class Determinacy:
-    """Counts from the rank of the equilibrium matrix.
+    """Counts from the rank of the equilibrium matrix, and the null spaces.
 
     Attributes
     ----------
@@ -393,11 +481,28 @@ class Determinacy:
         States of self-stress s = b - r.
     mechanisms : int
         Inextensional mechanisms m = 3j - k - r (k restrained directions).
+    mechanism_modes : (m, n_nodes, 3) float or None
+        A basis of the inextensional mechanisms (nodal movements with
+        A^T d = 0 at the free directions), each scaled to a largest nodal
+        movement of 1; None when not computed (see ``note``).
+    self_stress_states : (s, b) float or None
+        A basis of the states of self-stress (member forces with A t = 0 at
+        the free directions), each scaled to a largest force of 1; None when
+        not computed (see ``note``).
+    method : str
+        "dense" (singular value decomposition) or "sparse" (inertia count of
+        a sparse factorisation).
+    note : str
+        Why a basis was not computed, or empty.
     """
 
     rank: int
     self_stress: int
     mechanisms: int
+    mechanism_modes: np.ndarray | None = None
+    self_stress_states: np.ndarray | None = None
+    method: str = "dense"
+    note: str = ""
 
     @property
     def statically_determinate(self) -> bool:
@@ -405,30 +510,120 @@ class Determinacy:
         return self.self_stress == 0 and self.mechanisms == 0
 
 
-#: Largest number of degrees of freedom for which determinacy uses a dense SVD.
-DENSE_LIMIT = 6000
+#: Largest number of free degrees of freedom and of members for which
+#: determinacy uses a dense singular value decomposition (seconds on two
+#: cores); above it the counts come from a sparse inertia count.
+DENSE_LIMIT = 2000
+
+#: Largest number of mechanisms or states of self-stress whose basis a large
+#: (sparse) model gets, by shift-invert Lanczos; beyond it only the count.
+SPARSE_MODE_LIMIT = 50
 
 
-def determinacy(model: Model) -> Determinacy:
-    """Rank of the equilibrium matrix and the counts s and m (small models).
+def _scaled_rows(A_f: sp.spmatrix) -> np.ndarray:
+    """D^-1/2 for D = diag(A_f A_f^T) (1 where a row is empty)."""
+    d = np.asarray(A_f.multiply(A_f).sum(axis=1)).ravel()
+    return 1.0 / np.sqrt(np.where(d > 0, d, 1.0))
 
-    Raises
-    ------
-    ModelError
-        If the model is too large for a dense rank computation.
+
+def _unit_rows(V: np.ndarray) -> np.ndarray:
+    """Each row scaled to a largest absolute entry of 1, its largest entry positive."""
+    if V.size == 0:
+        return V
+    k = np.argmax(np.abs(V), axis=1)
+    peak = V[np.arange(V.shape[0]), k]
+    return V / peak[:, None]
+
+
+def _mechanism_array(model: Model, free: np.ndarray, D: np.ndarray) -> np.ndarray:
+    """(k, n_nodes, 3) nodal movements from (n_free, k) columns, largest node movement 1."""
+    flat = np.zeros((D.shape[1], 3 * model.n_nodes))
+    flat[:, free] = D.T
+    out = flat.reshape(D.shape[1], model.n_nodes, 3)
+    if out.size:
+        peak = np.linalg.norm(out, axis=2).max(axis=1)
+        out /= np.where(peak > 0, peak, 1.0)[:, None, None]
+    return out
+
+
+def determinacy(model: Model, modes: bool = True) -> Determinacy:
+    """Rank of the equilibrium matrix, the counts s and m, and their bases.
+
+    The rank criterion is one for all sizes: with A_f the equilibrium matrix
+    at the free directions and D = diag(A_f A_f^T), a mechanism is an
+    eigenvalue of D^-1/2 A_f A_f^T D^-1/2 below PIVOT_TOLERANCE (a singular
+    value of D^-1/2 A_f below its square root, 1e-6).  A_f holds direction
+    cosines only, so the count is geometric: independent of units, sections,
+    materials and the frame's size; springs are not restraints in it.
+
+    - Up to DENSE_LIMIT free directions and members: a singular value
+      decomposition of D^-1/2 A_f, which also gives both bases.
+    - Above: m is the number of negative pivots of a sparse factorisation of
+      D^-1/2 A_f A_f^T D^-1/2 - tau I (Sylvester's law of inertia), the rank
+      r = 3j - k - m and s = b - r (Pellegrino and Calladine, "Matrix
+      analysis of statically and kinematically indeterminate frameworks",
+      Int. J. Solids Structures 22(4), 1986).  Bases are computed by
+      shift-invert Lanczos when there are at most SPARSE_MODE_LIMIT of them
+      (and ``modes``); otherwise ``note`` says so.
+
+    Parameters
+    ----------
+    modes : bool
+        Compute the bases (mechanism modes, states of self-stress).
     """
     free = np.flatnonzero(~model.restraint.ravel())
-    if free.size > DENSE_LIMIT or model.n_members > DENSE_LIMIT:
-        raise ModelError(
-            f"determinacy: {free.size} free directions and {model.n_members} members exceed the "
-            f"dense limit of {DENSE_LIMIT}; use the stability check instead"
-        )
-    A = equilibrium_matrix(model).tocsr()[free].toarray()
-    if A.size == 0:
-        return Determinacy(0, model.n_members, free.size)
-    s = np.linalg.svd(A, compute_uv=False)
-    r = int(np.sum(s > RANK_TOLERANCE * s[0])) if s.size else 0
-    return Determinacy(rank=r, self_stress=model.n_members - r, mechanisms=free.size - r)
+    b = model.n_members
+    A_f = equilibrium_matrix(model).tocsr()[free]
+    if free.size == 0 or b == 0:
+        states = np.eye(b) if modes else None
+        mech = _mechanism_array(model, free, np.eye(free.size)) if modes else None
+        return Determinacy(0, b, free.size, mech, states)
+    dr = _scaled_rows(A_f)
+    As = sp.diags(dr) @ A_f
+    tau = PIVOT_TOLERANCE
+    if free.size <= DENSE_LIMIT and b <= DENSE_LIMIT:
+        dense = As.toarray()
+        if not modes:
+            sv = np.linalg.svd(dense, compute_uv=False)
+            r = int(np.sum(sv**2 >= tau))
+            return Determinacy(r, b - r, free.size - r)
+        U, sv, Vt = np.linalg.svd(dense, full_matrices=True)
+        r = int(np.sum(sv**2 >= tau))
+        mech = _mechanism_array(model, free, dr[:, None] * U[:, r:])
+        return Determinacy(r, b - r, free.size - r, mech, _unit_rows(Vt[r:]))
+    Ks = sp.csc_matrix(As @ As.T)
+    m = _inertia_count(Ks, tau)
+    r = free.size - m
+    s = b - r
+    out = Determinacy(r, s, m, method="sparse")
+    if not modes:
+        return out
+    notes = []
+    if m <= SPARSE_MODE_LIMIT:
+        if m:
+            _, V = _lowest_modes(Ks, m, tau)
+            out.mechanism_modes = _mechanism_array(model, free, dr[:, None] * V)
+        else:
+            out.mechanism_modes = np.zeros((0, model.n_nodes, 3))
+    else:
+        notes.append(f"{m} mechanisms: more than {SPARSE_MODE_LIMIT}, modes not computed")
+    if s <= SPARSE_MODE_LIMIT:
+        if s:
+            Gs = sp.csc_matrix(As.T @ As)
+            count = _inertia_count(Gs, tau)
+            if count != s:
+                notes.append(f"states of self-stress: the member-side count {count} differs "
+                             f"from s = {s}; states not computed")
+            else:
+                _, V = _lowest_modes(Gs, s, tau)
+                out.self_stress_states = _unit_rows(V.T)
+        else:
+            out.self_stress_states = np.zeros((0, b))
+    else:
+        notes.append(f"{s} states of self-stress: more than {SPARSE_MODE_LIMIT}, "
+                     "states not computed")
+    out.note = "; ".join(notes)
+    return out
 
 
 def solve_determinate(model: Model, forces: np.ndarray) -> np.ndarray:
@@ -452,7 +647,7 @@ def solve_determinate(model: Model, forces: np.ndarray) -> np.ndarray:
     ModelError
         If the frame is not statically determinate.
     """
-    d = determinacy(model)
+    d = determinacy(model, modes=False)
     if not d.statically_determinate:
         raise ModelError(
             f"not statically determinate: {d.self_stress} state(s) of self-stress and "
