@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from benchmarks.grids import double_layer_grid
 
 import spaceframe as sf
 import spaceframe.analysis.eigen as eigen
@@ -14,7 +15,6 @@ from spaceframe.analysis.matrices import (
     member_geometry,
 )
 from spaceframe.assembly import stiffness_matrix
-from tests.benchmarks.grids import double_layer_grid
 
 E, A = 210e9, 1e-3  # Pa, m²
 

@@ -120,7 +120,7 @@ def test_frequencies_scale_with_sqrt_E_over_rho(dome: sf.Model, e_scale: float,
 
 
 def test_lanczos_agrees_with_dense(monkeypatch: pytest.MonkeyPatch) -> None:
-    from tests.benchmarks.grids import double_layer_grid
+    from benchmarks.grids import double_layer_grid
 
     m = double_layer_grid(6, 6)
     dense = sf.natural_frequencies(m, n_modes=8, mass="lumped")
