@@ -126,6 +126,7 @@ class CheckReport:
     mechanism: str
     mechanism_nodes: list[int]
     warnings: list[str]
+    determinacy: dict[str, Any] | None = None
 
     def as_dict(self) -> dict[str, Any]:
         """JSON-able form."""
@@ -209,6 +210,17 @@ def check(
             if quick:
                 mechanism = ("quick checks only (no factorisation): no mechanism found by "
                              "them; run check without --quick for the full test")
+    det = None
+    if stable is not None and m.n_members and not quick:
+        from spaceframe.analysis.stability import determinacy
+        from spaceframe.errors import SpaceframeError
+
+        try:
+            d = determinacy(m, modes=False)
+            det = {"mechanisms": int(d.mechanisms), "self_stress": int(d.self_stress),
+                   "method": d.method}
+        except SpaceframeError as exc:
+            det = {"note": str(exc)}
     cases = {
         name: {"Fx": float(lc.forces[:, 0].sum()), "Fy": float(lc.forces[:, 1].sum()),
                "Fz": float(lc.forces[:, 2].sum())}
@@ -233,6 +245,7 @@ def check(
         mechanism=mechanism,
         mechanism_nodes=nodes,
         warnings=loaded.warnings,
+        determinacy=det,
     )
 
 

@@ -214,6 +214,13 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
         )
     for w in rep.warnings:
         out.line(f"warning: {w}")
+    d = rep.determinacy
+    if d is not None and "mechanisms" in d:
+        from spaceframe.summary import plural
+
+        out.line(f"determinacy: {plural(d['mechanisms'], 'mechanism')}, "
+                 f"{plural(d['self_stress'], 'state')} of self-stress (supports only; springs "
+                 "do not count)")
     if rep.stable is None:
         out.line(f"stability: {rep.mechanism}")
     elif rep.stable:

@@ -517,3 +517,19 @@ def test_ordinary_frame_does_not_warn() -> None:
     with warnings.catch_warnings():
         warnings.simplefilter("error", sf.SpaceframeWarning)
         m.solve()
+
+
+def test_check_reports_determinacy_counts(tmp_path: Path, capsys) -> None:
+    """A tripod pinned at three feet is statically determinate: b = 3j - k (Maxwell's rule,
+    3 bars, 1 free node, 9 restraints at 3 pinned nodes of 4): 0 mechanisms, 0 self-stress."""
+    from spaceframe.cli import main
+
+    (tmp_path / "t.toml").write_text(
+        '[geometry]\nnodes = [[0, 0, 0], [2, 0, 0], [1, 1.7, 0], [1, 0.6, 2]]\n'
+        'members = [[0, 3], [1, 3], [2, 3]]\n'
+        '[sections]\ns = { shape = "chs", diameter = 0.06, thickness = 0.004 }\n'
+        '[assign]\ndefault = { section = "s", material = "S355" }\n'
+        '[[supports]]\nnodes = [0, 1, 2]\nrestrain = "pinned"\n', encoding="utf-8")
+    assert main(["check", str(tmp_path / "t.toml")]) == 0
+    out = capsys.readouterr().out
+    assert "determinacy: 0 mechanisms, 0 states of self-stress" in out
