@@ -551,6 +551,17 @@ def _open(path: Path) -> tuple[Drawing, dict[str, Any] | None]:
     if not (validator.is_dxf_file(str(path)) or validator.is_binary_dxf_file(str(path))):
         with open(path, "rb") as fh:
             head = fh.read(40)
+        if head.startswith(b"\xef\xbb\xbf") and head[3:].lstrip()[:1] == b"0":
+            # A UTF-8 byte-order mark (some editors add one): read what follows it.
+            import io as _io
+
+            try:
+                doc, auditor = recover.read(_io.BytesIO(path.read_bytes()[3:]))
+            except Exception as exc:
+                raise ReadError(f"{path}: DXF after a UTF-8 byte-order mark could not be "
+                                f"read ({_exc_text(exc)})") from exc
+            rep = _repairs(auditor, "the file starts with a UTF-8 byte-order mark")
+            return doc, rep
         raise ReadError(
             f"{path}: is not a DXF file (a DXF starts with group code 0 and SECTION; "
             f"this one starts with {head!r})"

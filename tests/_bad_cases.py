@@ -197,7 +197,7 @@ DXF: list[tuple[str, Any, str]] = [
      ""),
     ("dxf-demo-LXNE", _demo_replace("\nLINE\n", "\nLXNE\n", 3), None),
     ("dxf-demo-all-lxne", _demo_replace("\nLINE\n", "\nLXNE\n", -1), ""),
-    ("dxf-demo-bom", lambda: "\ufeff" + demo_dxf_text(), "not a DXF"),
+    ("dxf-demo-bom", lambda: "\ufeff" + demo_dxf_text(), None),  # accepted, warned
     ("dxf-demo-coord-text", _demo_replace(" 10\n3000.0\n", " 10\n3e+x\n"), None),
     ("dxf-demo-crlf", lambda: demo_dxf_text().replace("\n", "\r\n"), None),
     ("dxf-demo-tiny-units", _demo_replace("$INSUNITS\n 70\n4\n", "$INSUNITS\n 70\n9\n"), None),

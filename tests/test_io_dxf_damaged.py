@@ -452,3 +452,19 @@ def test_line_with_a_non_finite_coordinate_is_skipped_and_counted(tmp_path: Path
     kind = "damaged LINE (coordinate not a finite number)"
     assert model.meta["io:ignored"] == {kind: {"count": 1, "layers": {"CHORD": 1}}}
     assert any(f"{kind} x1 on 'CHORD'" in t for t in texts), texts
+
+
+def test_drawing_with_a_byte_order_mark_is_read(tmp_path):
+    import ezdxf
+
+    import spaceframe.io as sio
+
+    doc = ezdxf.new()
+    doc.modelspace().add_line((0, 0, 0), (1, 0, 0), dxfattribs={"layer": "A"})
+    doc.modelspace().add_line((1, 0, 0), (1, 1, 0), dxfattribs={"layer": "A"})
+    plain = tmp_path / "plain.dxf"
+    doc.saveas(plain)
+    bom = tmp_path / "bom.dxf"
+    bom.write_bytes(b"\xef\xbb\xbf" + plain.read_bytes())
+    m = sio.read(bom, units="m")
+    assert m.n_members == 2 and m.groups["A"].size == 2
