@@ -99,8 +99,8 @@ def cable_load(w: np.ndarray) -> np.ndarray:
     practice).
     """
     L0 = A * EA / (EA + P)
-    l = np.hypot(A, w)
-    return 2.0 * EA * (l - L0) / L0 * w / l
+    length = np.hypot(A, w)
+    return 2.0 * EA * (length - L0) / L0 * w / length
 
 
 def test_pretensioned_cable_follows_the_exact_taut_cable_curve() -> None:

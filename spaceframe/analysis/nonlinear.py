@@ -419,7 +419,8 @@ def solve_nonlinear(
     ----------
     model : Model
         Nodal forces only (temperature, initial strain or settlement in the
-        chosen cases raise ModelError).  Supports and springs as in the
+        chosen cases raise ModelError).  Its ``pretension`` and
+        ``tension_only`` member arrays are honoured (module notes).  Supports and springs as in the
         linear analysis; springs keep their global directions.
     case_or_combination : str
         Its loads are the reference load (load factor 1).
@@ -455,7 +456,8 @@ def solve_nonlinear(
         naming the step and the load factor reached.  ``err.path`` holds the
         converged steps up to there.
     MechanismError, ModelError
-        As for the linear analysis.
+        As for the linear analysis; ModelError also when the pretension is
+        not self-equilibrated in the drawn geometry (module notes).
     """
     max_load_factor = float(max_load_factor)
     _check_options(
