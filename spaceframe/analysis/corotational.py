@@ -5,7 +5,16 @@ along its current chord and
 
     N = EA (l - L0) / L0                      (tension positive)
 
-acting along c.  The internal force vector is the sum over members of
+acting along c.  A pretension P (tension in the drawn, straight geometry of
+drawn length L) makes the unstressed length L0 = L EA/(EA + P), i.e. shorter
+than L by P L/(EA + P), so that N = P at l = L.
+
+Tension-only members: where N would be negative the member is slack, its
+force and both tangent terms are zero.  The internal force stays continuous
+(N -> 0 from either side) but its derivative jumps at N = 0, so Newton on it
+is a semismooth Newton: at N = 0 exactly the member counts as taut (the
+generalised derivative of the taut side), which keeps the unloaded tangent
+of an unpretensioned frame the full one.  The internal force vector is the sum over members of
 N (-c, +c) at its two ends, plus spring forces k u at sprung directions (the
 springs keep their global directions).  Its exact derivative, the tangent
 stiffness, is per member
@@ -86,6 +95,7 @@ class State:
     fint: np.ndarray  # (3n,) member forces on the nodes, springs excluded
     residual: float = 0.0
     iterations: int = 0
+    slack: np.ndarray | None = None  # (b,) bool: tension-only members with N < 0 zeroed
     tangent: Tangent | None = None
     rate: float = 0.0  # d lambda / d s along the path at this state
 
@@ -101,9 +111,18 @@ class Bars:
         self.n = model.n_nodes
         self.X = model.nodes.astype(float).copy()
         self.members = model.members.astype(np.int64).copy()
-        self.L0 = model.lengths.copy()
+        self.L = model.lengths.copy()  # drawn lengths
         self.D = self.X[self.members[:, 1]] - self.X[self.members[:, 0]]
         self.EA = model.E * model.area
+        b = self.members.shape[0]
+        pre = np.asarray(getattr(model, "pretension", np.zeros(b)), dtype=float)
+        self.pretension = pre if pre.shape == (b,) else np.zeros(b)
+        t_only = np.asarray(getattr(model, "tension_only", np.zeros(b, bool)), dtype=bool)
+        self.tension_only = t_only if t_only.shape == (b,) else np.zeros(b, bool)
+        # Unstressed length: L - L0 = P L/(EA + P) (module notes), kept as a
+        # separate term so the elongation keeps full relative accuracy.
+        self.shorten = self.pretension * self.L / (self.EA + self.pretension)
+        self.L0 = self.L - self.shorten
         self.f = f
         self.restrained = model.restraint.ravel().copy()
         self.free = np.flatnonzero(~self.restrained)
@@ -140,16 +159,18 @@ class Bars:
         length = np.sqrt(np.einsum("ij,ij->i", d, d))
         with np.errstate(invalid="ignore", divide="ignore"):
             c = d / length[:, None]
-        # l - L0 = (l^2 - L0^2)/(l + L0) with l^2 - L0^2 = 2 D.delta + delta.delta:
+        # l - L = (l^2 - L^2)/(l + L) with l^2 - L^2 = 2 D.delta + delta.delta:
         # no cancellation when the elongation is tiny beside the length, so
-        # small loads keep full relative accuracy.
+        # small loads keep full relative accuracy; l - L0 = (l - L) + (L - L0).
         grow = 2.0 * np.einsum("ij,ij->i", self.D, delta) + np.einsum("ij,ij->i", delta, delta)
-        N = self.EA * (grow / (length + self.L0)) / self.L0
+        N = self.EA * (grow / (length + self.L) + self.shorten) / self.L0
+        slack = self.tension_only & (N < 0)
+        N = np.where(slack, 0.0, N)
         Nc = N[:, None] * c
         fint = np.bincount(
             self.dofs.ravel(), np.concatenate([-Nc, Nc], axis=1).ravel(), 3 * self.n
         )
-        return State(uf=uf, lam=lam, N=N, length=length, c=c, fint=fint)
+        return State(uf=uf, lam=lam, N=N, length=length, c=c, fint=fint, slack=slack)
 
     def out_of_balance(self, s: State) -> tuple[np.ndarray, float]:
         """Free-dof residual f_int - lambda q and its relative size."""
@@ -165,10 +186,17 @@ class Bars:
         return g, norm / scale if scale > 0 else norm
 
     def tangent(self, s: State) -> Tangent:
-        """Factorised tangent stiffness EA/L0 cc^T + N/l (I - cc^T), springs added."""
+        """Factorised tangent stiffness EA/L0 cc^T + N/l (I - cc^T), springs added.
+
+        Slack members add nothing (their N is already zero; the material term
+        is dropped here).
+        """
         c = s.c
         cc = c[:, :, None] * c[:, None, :]
-        k = (self.EA / self.L0)[:, None, None] * cc + (s.N / s.length)[:, None, None] * (
+        ka = self.EA / self.L0
+        if s.slack is not None:
+            ka = np.where(s.slack, 0.0, ka)
+        k = ka[:, None, None] * cc + (s.N / s.length)[:, None, None] * (
             np.eye(3) - cc
         )
         b = k.shape[0]

@@ -31,6 +31,22 @@ too.  Branches are reported, not followed.  The path stops with a step that
 lands exactly on ``max_load_factor`` (load-controlled Newton from the
 interpolated state) the first time the load factor rises through it.
 
+Pretension and tension-only members
+-----------------------------------
+A pretension P shortens the member's unstressed length to L EA/(EA + P), so
+that it carries P in the drawn geometry (analysis.corotational).  Step 0 is
+the drawn, prestressed state at load factor 0: the pretensions (with the
+supports' reactions) must balance there to within ``tolerance``, otherwise
+the analysis stops with a ModelError saying the pretension is not
+self-equilibrated; the path does not search for a prestressed equilibrium
+shape.  Pretension is not scaled by the load factor.  A tension-only member
+whose force would turn compressive is slack: no force and no stiffness
+(semismooth Newton, analysis.corotational); ``LoadPath.slack`` records it
+per step.  A frame that the drawn-geometry mechanism check rejects (say a
+cable node on a straight line between supports) is accepted when it has
+pretension and its prestressed tangent stiffness at step 0 is positive
+definite.
+
 Results must be checked by a qualified engineer.
 """
 
@@ -44,7 +60,7 @@ import numpy as np
 
 from spaceframe.analysis.corotational import Bars, State
 from spaceframe.analysis.stability import check_stability
-from spaceframe.errors import ModelError, SolverError
+from spaceframe.errors import MechanismError, ModelError, SolverError
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
@@ -95,6 +111,9 @@ class LoadPath:
     limit_points : (k,) int
         Indices into the steps where the load factor passes a maximum or a
         minimum (sign change of its increment; located steps, see module notes).
+    slack : (s, b) bool
+        Tension-only members that are slack (would be in compression, carry
+        nothing) at each step.
     negative_pivots : (s,) int
         Negative eigenvalues of the tangent stiffness at each step (-1: unknown).
     iterations : (s,) int
@@ -123,6 +142,7 @@ class LoadPath:
     residuals: np.ndarray
     cutbacks: int
     max_load_factor: float
+    slack: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=bool))
     strain_measure: str = STRAIN_MEASURE
     factors: dict[str, float] = field(default_factory=dict)
 
@@ -399,7 +419,8 @@ def solve_nonlinear(
     ----------
     model : Model
         Nodal forces only (temperature, initial strain or settlement in the
-        chosen cases raise ModelError).  Supports and springs as in the
+        chosen cases raise ModelError).  Its ``pretension`` and
+        ``tension_only`` member arrays are honoured (module notes).  Supports and springs as in the
         linear analysis; springs keep their global directions.
     case_or_combination : str
         Its loads are the reference load (load factor 1).
@@ -435,7 +456,8 @@ def solve_nonlinear(
         naming the step and the load factor reached.  ``err.path`` holds the
         converged steps up to there.
     MechanismError, ModelError
-        As for the linear analysis.
+        As for the linear analysis; ModelError also when the pretension is
+        not self-equilibrated in the drawn geometry (module notes).
     """
     max_load_factor = float(max_load_factor)
     _check_options(
@@ -444,13 +466,34 @@ def solve_nonlinear(
     )
     model.validate()
     kind, f, factors = _reference_load(model, case_or_combination)
-    check_stability(model)
     bars = Bars(model, f)
+    mechanism: MechanismError | None = None
+    try:
+        check_stability(model)
+    except MechanismError as exc:
+        if not np.any(bars.pretension):
+            raise
+        mechanism = exc  # the prestressed tangent at step 0 decides (module notes)
     ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations))
     label = f"nonlinear {kind} {case_or_combination!r}"
 
     steps: list[State] = [bars.state(np.zeros(bars.nf), 0.0)]
     cutbacks = 0
+    if np.any(bars.pretension):
+        _, res0 = bars.out_of_balance(steps[0])
+        if not res0 <= tolerance:
+            raise ModelError(
+                f"solve_nonlinear: the pretension is not self-equilibrated in the drawn "
+                f"geometry (relative out-of-balance {res0:.3g} > tolerance {tolerance:.3g})"
+            )
+    if mechanism is not None:
+        try:
+            t0 = bars.tangent(steps[0])
+        except RuntimeError:
+            raise mechanism from None
+        if t0.negative != 0:
+            raise mechanism
+        steps[0].tangent = t0
 
     def path() -> LoadPath:
         return _make_path(bars, steps, kind, case_or_combination, factors, max_load_factor,
@@ -582,5 +625,9 @@ def _make_path(
         residuals=np.array([s.residual for s in steps]),
         cutbacks=cutbacks,
         max_load_factor=max_load_factor,
+        slack=np.array(
+            [s.slack if s.slack is not None else np.zeros(bars.members.shape[0], bool)
+             for s in steps], dtype=bool,
+        ).reshape(len(steps), bars.members.shape[0]),
         factors=dict(factors),
     )
