@@ -384,7 +384,7 @@ def _analysis_section(a: Mapping[str, Any]) -> str:
     f = a.get("frequencies")
     if f:
         freqs = f.get("frequencies_hz") or []
-        rows = [(k + 1, format_number(v)) for k, v in enumerate(freqs)]
+        frows = [(k + 1, format_number(v)) for k, v in enumerate(freqs)]
         head = (f"Natural frequencies ({f.get('mass', '')} mass"
                 + (f", total {format_number(f['total_mass_kg'])} kg" if "total_mass_kg" in f
                    else "") + ")")
@@ -392,7 +392,7 @@ def _analysis_section(a: Mapping[str, Any]) -> str:
             head += (f"; required at least {format_number(f['min_frequency_hz'])} Hz: "
                      + ("passes" if f.get("passes") else "FAILS"))
         parts.append(f"<p>{_e(head)}.</p>")
-        parts.append(_table(["mode", "frequency [Hz]"], rows, text_cols=0) if rows else "")
+        parts.append(_table(["mode", "frequency [Hz]"], frows, text_cols=0) if frows else "")
         if f.get("note"):
             parts.append(f"<p>{_e(f['note'])}</p>")
     parts.append("<p>Mode shapes found are written to vtk/modes. " + _e(CAUTION) + "</p>")

@@ -116,3 +116,24 @@ def test_report_has_the_buckling_and_frequencies_section(tmp_path):
     # No block, no section.
     plain = write_report(tmp_path / "p.html", res).read_text(encoding="utf-8")
     assert "Buckling and frequencies" not in plain
+
+
+def test_run_with_pictures_reports_the_lowest_factor_and_pyvista_reads_the_modes(tmp_path):
+    import pyvista as pv
+
+    from spaceframe.cli import main
+
+    pv.OFF_SCREEN = True
+    p = _project(tmp_path)
+    assert main(["run", str(tmp_path / "canopy.toml")]) == 0
+    out = tmp_path / "out"
+    res = p.solve()
+    b = sf.linear_buckling(p.model, res["ULS"], n_modes=2)
+    grid = pv.read(out / "vtk" / "modes" / "buckling_ULS_mode1.vtu")
+    np.testing.assert_allclose(grid.point_data["mode_shape"], b.modes[0], rtol=1e-9, atol=1e-12)
+    low = json.loads((out / "summary.json").read_text())["analysis"]["buckling"]["lowest"]
+    assert low["factor"] == pytest.approx(min(
+        sf.linear_buckling(p.model, res[n], n_modes=2).factors[0] for n in ("ULS", "SLS")))
+    page = (out / "report.html").read_text(encoding="utf-8")
+    assert (f"Lowest buckling load factor: {sf.summary.format_number(low['factor'])} "
+            f"({low['result']})") in page
