@@ -53,7 +53,7 @@ if TYPE_CHECKING:
     from spaceframe.results import Results
 
 __all__ = ["UNITS", "decode_text", "encode_text", "group_legend", "member_grid", "panel_grid",
-           "write"]
+           "write", "write_modes"]
 
 #: Units of the arrays written, also stored in each file's field data.
 UNITS: dict[str, str] = {
@@ -374,3 +374,86 @@ def write(
         for tmp, _ in done:
             tmp.unlink(missing_ok=True)
     return pvd
+
+
+def write_modes(
+    folder: str | os.PathLike[str],
+    results: Results,
+    modes: Sequence[Any],
+    *,
+    binary: bool = True,
+) -> list[Path]:
+    """Write buckling and vibration mode shapes, one ``.vtu`` per mode.
+
+    Parameters
+    ----------
+    folder : path-like
+        Created if missing (the run writes ``vtk/modes``).
+    results : Results
+        Gives the members and the first result's point data (the grid of
+        :func:`member_grid`, so a mode file opens like a result file).
+    modes : sequence
+        Objects with ``kind`` ("buckling" or "frequency"), ``result`` (the
+        case or combination buckled, empty for frequencies), ``number`` (from
+        1), ``value`` (load factor, or frequency in Hz) and ``shape``
+        ((n_nodes, 3), largest nodal amplitude 1) - what
+        :func:`spaceframe.project_analysis.run_analyses_with_modes` returns.
+
+    Returns
+    -------
+    list of Path
+        The files written: ``buckling_<result>_mode<k>.vtu`` and
+        ``frequency_mode<k>.vtu``, names made safe and unique.  Each holds
+        point data ``mode_shape`` (3 components, no unit) and field data
+        ``mode_kind``, ``mode_result`` (text, :func:`decode_text`),
+        ``mode_number`` and ``load_factor`` or ``frequency_hz``.
+
+    Notes
+    -----
+    Written under temporary names and renamed when all are complete, as
+    :func:`write` does; a failure leaves no partial file.
+    """
+    target = Path(folder)
+    if not modes:
+        return []
+    names = list(results)
+    if not names:
+        raise WriteError(f"VTK output {target}: there are no load cases or combinations to write")
+    n = results.model.n_nodes
+    target.mkdir(parents=True, exist_ok=True)
+    used: set[str] = set()
+    done: list[tuple[Path, Path]] = []
+    try:
+        for m in modes:
+            shape = np.asarray(m.shape, dtype=float)
+            if shape.shape != (n, 3) or not np.isfinite(shape).all():
+                raise WriteError(f"VTK output {target}: {m.kind} mode {m.number} of "
+                                 f"{m.result!r} is not {n} finite 3-vectors")
+            base = (f"buckling_{_safe_name(m.result)}_mode{m.number}" if m.kind == "buckling"
+                    else f"frequency_mode{m.number}")
+            file, k = f"{base}.vtu", 2
+            while file.lower() in used:
+                file, k = f"{base}_{k}.vtu", k + 1
+            used.add(file.lower())
+            final = target / file
+            tmp = _temp_beside(final)
+            done.append((tmp, final))
+            grid = member_grid(results, m.result if m.result in results else names[0])
+            grid.point_data["mode_shape"] = shape
+            _set_text(grid, "mode_kind", m.kind)
+            _set_text(grid, "mode_result", m.result)
+            grid.field_data["mode_number"] = np.array([m.number], dtype=np.int64)
+            key = "load_factor" if m.kind == "buckling" else "frequency_hz"
+            grid.field_data[key] = np.array([float(m.value)])
+            grid.save(tmp, binary=binary)
+    except BaseException:
+        for tmp, _ in done:
+            tmp.unlink(missing_ok=True)
+        raise
+    try:
+        for tmp, final in done:
+            os.replace(tmp, final)
+    finally:
+        for tmp, _ in done:
+            tmp.unlink(missing_ok=True)
+    return [final for _, final in done]

@@ -703,12 +703,14 @@ def run(
                     f"design sizing: no catalogue section makes every member of group {g!r} "
                     f"pass ({n} members fail with the largest)")
     analysis_spec = getattr(loaded.project, "analysis", None)
+    modes: list[Any] = []  # mode shapes of [analysis], written to vtk/modes
     if analysis_spec is not None and (analysis_spec.buckling or analysis_spec.frequencies):
-        from spaceframe.project_analysis import run_analyses
+        from spaceframe.project_analysis import run_analyses_with_modes
 
         progress("buckling and frequencies")
         t = time.perf_counter()
-        summ["analysis"] = run_analyses(analysis_spec, loaded.model, results, solver=solver)
+        summ["analysis"], modes = run_analyses_with_modes(analysis_spec, loaded.model, results,
+                                                          solver=solver)
         timings["analysis"] = time.perf_counter() - t
     target = _target(Path(output) if output is not None else loaded.output, loaded, force)
     final = target.final
@@ -737,6 +739,13 @@ def run(
         extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
         files += _write_outputs(tmp, results, loaded, pictures, progress, extra, design)
         files += tables.write_envelopes(tmp, results, envelopes)
+        import importlib.util
+
+        if modes and importlib.util.find_spec("pyvista") is not None:
+            from spaceframe.io import vtk
+
+            progress("write mode shapes")
+            files += vtk.write_modes(tmp / "vtk" / "modes", results, modes)
         _fault("after-write")
         if "disk-full" in _faults():
             raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC),
@@ -832,6 +841,7 @@ def _write_outputs(
                         pictures=pics,
                         charts=charts,
                         design=extra.get("design"),
+                        analysis=extra.get("analysis"),
                     )
                 )
             )

@@ -22,7 +22,7 @@ from typing import Any
 
 from spaceframe.errors import SpaceframeError
 
-__all__ = ["AnalysisSpec", "parse_analysis", "run_analyses"]
+__all__ = ["AnalysisSpec", "Mode", "parse_analysis", "run_analyses", "run_analyses_with_modes"]
 
 
 @dataclass
@@ -109,6 +109,22 @@ def _one_line(exc: BaseException) -> str:
     return " ".join(str(exc).split())
 
 
+@dataclass
+class Mode:
+    """One mode shape found by [analysis], for the VTK writer.
+
+    ``kind`` is "buckling" (``value`` the load factor, ``result`` the case or
+    combination) or "frequency" (``value`` in Hz, ``result`` empty);
+    ``number`` counts from 1; ``shape`` is (n_nodes, 3) as the solver gave it.
+    """
+
+    kind: str
+    result: str
+    number: int
+    value: float
+    shape: Any
+
+
 def run_analyses(spec: AnalysisSpec, model: Any, results: Any,
                  solver: str = "auto") -> dict[str, Any]:
     """Run what [analysis] asks for; a summary block of plain numbers (SI, Hz).
@@ -116,10 +132,17 @@ def run_analyses(spec: AnalysisSpec, model: Any, results: Any,
     A result that cannot be analysed (no compression, a mechanism) is reported
     in the block with its one-line reason; it does not stop the run.
     """
+    return run_analyses_with_modes(spec, model, results, solver)[0]
+
+
+def run_analyses_with_modes(spec: AnalysisSpec, model: Any, results: Any,
+                            solver: str = "auto") -> tuple[dict[str, Any], list[Mode]]:
+    """:func:`run_analyses` and the mode shapes found, in the block's order."""
     from spaceframe.analysis.buckling import linear_buckling
     from spaceframe.analysis.vibration import natural_frequencies
 
     out: dict[str, Any] = {}
+    found: list[Mode] = []
     if spec.buckling:
         names = spec.buckling_results or [
             n for n in results if getattr(results[n], "kind", "") == "combination"
@@ -137,6 +160,8 @@ def run_analyses(spec: AnalysisSpec, model: Any, results: Any,
             if spec.min_factor is not None and b.factors.size:
                 entry["passes"] = bool(b.factors[0] >= spec.min_factor)
             block[name] = entry
+            found += [Mode("buckling", name, k + 1, float(b.factors[k]), b.modes[k])
+                      for k in range(b.factors.size)]
         lowest = [(v["factors"][0], n) for n, v in block.items() if v["factors"]]
         out["buckling"] = {
             "results": block,
@@ -155,7 +180,9 @@ def run_analyses(spec: AnalysisSpec, model: Any, results: Any,
             if spec.min_frequency is not None and f.frequencies.size:
                 entry["min_frequency_hz"] = spec.min_frequency
                 entry["passes"] = bool(f.frequencies[0] >= spec.min_frequency)
+            found += [Mode("frequency", "", k + 1, float(f.frequencies[k]), f.modes[k])
+                      for k in range(f.frequencies.size)]
         except SpaceframeError as exc:
             entry = {"frequencies_hz": [], "note": _one_line(exc)}
         out["frequencies"] = entry
-    return out
+    return out, found

@@ -360,6 +360,45 @@ $body
 """)
 
 
+def _analysis_section(a: Mapping[str, Any]) -> str:
+    """The [analysis] block: load factors per result, frequencies, and their limits."""
+    parts = ["<h2>Buckling and frequencies</h2>"]
+    b = a.get("buckling")
+    if b:
+        rows = []
+        for name, entry in b["results"].items():
+            factors = entry.get("factors") or []
+            passes = entry.get("passes")
+            rows.append((name, ", ".join(format_number(f) for f in factors) or "-",
+                         "-" if passes is None else ("yes" if passes else "NO"),
+                         entry.get("note") or ""))
+        low = b.get("lowest")
+        parts.append("<p>Lowest buckling load factor: "
+                     + (_e(f"{format_number(low['factor'])} ({low['result']})") if low else "none")
+                     + (_e(f"; required at least {format_number(b['min_factor'])}")
+                        if b.get("min_factor") is not None else "") + ".</p>")
+        parts.append(_table(["result", "load factors", "passes", "note"], rows, text_cols=4))
+        parts.append("<p>Linear buckling is a first-order estimate: " + _e(b.get("method", ""))
+                     + ". Imperfections, joint flexibility and large displacements are not "
+                     "included.</p>")
+    f = a.get("frequencies")
+    if f:
+        freqs = f.get("frequencies_hz") or []
+        frows = [(k + 1, format_number(v)) for k, v in enumerate(freqs)]
+        head = (f"Natural frequencies ({f.get('mass', '')} mass"
+                + (f", total {format_number(f['total_mass_kg'])} kg" if "total_mass_kg" in f
+                   else "") + ")")
+        if "min_frequency_hz" in f:
+            head += (f"; required at least {format_number(f['min_frequency_hz'])} Hz: "
+                     + ("passes" if f.get("passes") else "FAILS"))
+        parts.append(f"<p>{_e(head)}.</p>")
+        parts.append(_table(["mode", "frequency [Hz]"], frows, text_cols=0) if frows else "")
+        if f.get("note"):
+            parts.append(f"<p>{_e(f['note'])}</p>")
+    parts.append("<p>Mode shapes found are written to vtk/modes. " + _e(CAUTION) + "</p>")
+    return "\n".join(p for p in parts if p)
+
+
 def _e(value: Any) -> str:
     return html.escape(str(value), quote=True)
 
@@ -428,6 +467,7 @@ def write_report(
     embed_images: bool = True,
     n_critical: int = 10,
     design: Mapping[str, Any] | None = None,
+    analysis: Mapping[str, Any] | None = None,
 ) -> Path:
     """Write a self-contained HTML report of the run.
 
@@ -455,6 +495,10 @@ def write_report(
     design : mapping, optional
         The "design" block of ``summary.json`` (design checks of the run):
         shown first, with the partial factors used and the design caution.
+    analysis : mapping, optional
+        The "analysis" block of ``summary.json`` ([analysis] buckling and
+        frequencies): a "Buckling and frequencies" section after the
+        equilibrium check.
 
     Returns
     -------
@@ -600,6 +644,9 @@ def write_report(
          format_number(c["stress"] / 1e6))
         for c in s["critical_members"]
     ]
+    if analysis:
+        sections.append(_analysis_section(analysis))
+
     sections.append(
         "<h2>Critical members</h2>\n<p>Members with the largest absolute axial force over "
         "all load cases and combinations.</p>\n"
