@@ -332,6 +332,8 @@ def _analysis_lines(block: dict[str, Any]) -> list[str]:
                 f", {'above' if low['factor'] >= limit else 'BELOW'} the limit {limit:g}")
             lines.append(f"buckling: lowest factor {low['factor']:.3g} under "
                          f"{low['result']!r}{verdict} (linear, first-order estimate)")
+            if b.get("reading"):
+                lines.append(f"buckling: {b['reading']}")
     f = block.get("frequencies")
     if f is not None:
         if f["frequencies_hz"]:

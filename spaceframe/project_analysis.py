@@ -125,6 +125,22 @@ class Mode:
     shape: Any
 
 
+#: EN 1993-1-1 §5.2.1(3), Eq. (5.1): first-order elastic global analysis may be
+#: used when alpha_cr >= 10 (from memory: check the clause and the national annex).
+ALPHA_CR_FIRST_ORDER = 10.0
+
+
+def _reading(factor: float) -> str:
+    """The lowest factor in plain words, against EN 1993-1-1 §5.2.1(3)."""
+    if factor >= ALPHA_CR_FIRST_ORDER:
+        return (f"the lowest buckling factor {factor:.3g} is at least {ALPHA_CR_FIRST_ORDER:g}: "
+                "EN 1993-1-1 §5.2.1(3) (alpha_cr >= 10, from memory) lets a first-order elastic "
+                "analysis stand for the design loads")
+    return (f"the lowest buckling factor {factor:.3g} is below {ALPHA_CR_FIRST_ORDER:g}: "
+            "EN 1993-1-1 §5.2.1(3) (alpha_cr >= 10, from memory) asks for second-order "
+            "effects to be accounted for (a geometrically nonlinear analysis)")
+
+
 def run_analyses(spec: AnalysisSpec, model: Any, results: Any,
                  solver: str = "auto") -> dict[str, Any]:
     """Run what [analysis] asks for; a summary block of plain numbers (SI, Hz).
@@ -167,6 +183,7 @@ def run_analyses_with_modes(spec: AnalysisSpec, model: Any, results: Any,
             "results": block,
             "lowest": None if not lowest else {"factor": min(lowest)[0], "result": min(lowest)[1]},
             "min_factor": spec.min_factor,
+            "reading": _reading(min(lowest)[0]) if lowest else "",
             "method": "linear (eigenvalue) buckling on the undeformed geometry: a first-order "
                       "estimate that can overestimate shallow, imperfection-sensitive frames",
         }

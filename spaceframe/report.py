@@ -377,6 +377,8 @@ def _analysis_section(a: Mapping[str, Any]) -> str:
                      + (_e(f"{format_number(low['factor'])} ({low['result']})") if low else "none")
                      + (_e(f"; required at least {format_number(b['min_factor'])}")
                         if b.get("min_factor") is not None else "") + ".</p>")
+        if b.get("reading"):
+            parts.append("<p>" + _e(b["reading"][0].upper() + b["reading"][1:]) + ".</p>")
         parts.append(_table(["result", "load factors", "passes", "note"], rows, text_cols=4))
         parts.append("<p>Linear buckling is a first-order estimate: " + _e(b.get("method", ""))
                      + ". Imperfections, joint flexibility and large displacements are not "

@@ -38,6 +38,9 @@ def test_analysis_block_equals_the_library_calls(tmp_path):
     assert low["factor"] == min(block["buckling"]["results"][n]["factors"][0]
                                 for n in ("ULS", "SLS"))
     assert block["buckling"]["results"]["ULS"]["passes"] == (b.factors[0] >= 3.0)
+    # EN 1993-1-1 §5.2.1(3): first-order analysis when alpha_cr >= 10 (from memory).
+    word = "at least 10" if low["factor"] >= 10 else "below 10"
+    assert word in block["buckling"]["reading"]
     f = sf.natural_frequencies(p.model, n_modes=3, mass="lumped")
     assert block["frequencies"]["frequencies_hz"] == pytest.approx(list(f.frequencies))
     assert block["frequencies"]["passes"] == (f.frequencies[0] >= 2.0)
