@@ -91,7 +91,7 @@ def load(folder: Path, key: str) -> Model | None:
             arrays = {name: z[name] for name in z.files}
         model = _restore(arrays, side)
         replay = [(_category(c), str(m)) for c, m in side["warnings"]]
-    except Exception:  # noqa: BLE001 - any damage means: read the drawing again
+    except Exception:  # any damage means: read the drawing again
         return None
     for cat, message in replay:
         warnings.warn(message, cat, stacklevel=3)
@@ -132,7 +132,6 @@ def _restore(arrays: dict[str, np.ndarray], side: dict[str, Any]) -> Model:
 def save(folder: Path, key: str, model: Model, caught: list[warnings.WarningMessage]) -> bool:
     """Write the entry of ``key``; False (and nothing written) when it cannot be cached."""
     from spaceframe.geometry.reports import HealReport
-    from spaceframe.io._common import atomic_write
 
     if any(getattr(model, name) for name in _EMPTY_AFTER_READ):
         return False
@@ -155,7 +154,7 @@ def save(folder: Path, key: str, model: Model, caught: list[warnings.WarningMess
         arrays[f"a:{name}"] = value
         attrs.append(name)
     names: dict[str, str] = {}
-    for kind, attr in zip("gsp", _DICTS):
+    for kind, attr in zip("gsp", _DICTS, strict=True):
         for i, (gname, ids) in enumerate(getattr(model, attr).items()):
             arrays[f"{kind}:{i}"] = np.asarray(ids)
             names[f"{kind}:{i}"] = gname
@@ -166,14 +165,27 @@ def save(folder: Path, key: str, model: Model, caught: list[warnings.WarningMess
     side = {
         "format": FORMAT, "key": key, "attrs": attrs, "arrays": sorted(arrays), "names": names,
         "meta": meta, "meta_order": list(model.meta), "warnings": warned,
-        "heal_report": None if report is None else {
-            "n_components": int(report.n_components),
-            "steps": [{"name": s.name, "count": int(s.count),
-                       "locations": np.asarray(s.locations, dtype=float).reshape(-1, 3).tolist(),
-                       "detail": s.detail, "skipped": bool(s.skipped),
-                       "seconds": float(s.seconds), "lengths": [float(x) for x in s.lengths],
-                       "template": s.template} for s in report.steps]},
+        "heal_report": None if report is None else _report_dict(report),
     }
+    return _write(folder, key, arrays, side, meta)
+
+
+def _report_dict(report: Any) -> dict[str, Any]:
+    """Everything of a HealReport, timings and length templates included."""
+    return {
+        "n_components": int(report.n_components),
+        "steps": [{"name": s.name, "count": int(s.count),
+                   "locations": np.asarray(s.locations, dtype=float).reshape(-1, 3).tolist(),
+                   "detail": s.detail, "skipped": bool(s.skipped),
+                   "seconds": float(s.seconds), "lengths": [float(x) for x in s.lengths],
+                   "template": s.template} for s in report.steps],
+    }
+
+
+def _write(folder: Path, key: str, arrays: dict[str, np.ndarray], side: dict[str, Any],
+           meta: dict[str, Any]) -> bool:
+    from spaceframe.io._common import atomic_write
+
     try:
         text = json.dumps(side, allow_nan=True)
         # Round-trips exactly, or the entry would not reproduce the fresh read.
@@ -187,14 +199,18 @@ def save(folder: Path, key: str, model: Model, caught: list[warnings.WarningMess
         if not marker.is_file():
             if any(folder.iterdir()):
                 return False  # a folder of that name the tool did not make: leave it alone
-            atomic_write(marker, lambda p: p.write_text(_MARKER_TEXT, encoding="utf-8"))
+            atomic_write(marker, lambda p: _text(p, _MARKER_TEXT))
         # The arrays first: a sidecar names only a complete array file.
         atomic_write(folder / f"{key}.npz", lambda p: _savez(p, arrays))
-        atomic_write(folder / f"{key}.json", lambda p: p.write_text(text, encoding="utf-8"))
+        atomic_write(folder / f"{key}.json", lambda p: _text(p, text))
         _prune(folder, key)
     except (OSError, sf_errors.SpaceframeError):
         return False
     return True
+
+
+def _text(path: Path, text: str) -> None:
+    path.write_text(text, encoding="utf-8")
 
 
 def _savez(path: Path, arrays: dict[str, np.ndarray]) -> None:
