@@ -59,11 +59,13 @@ class Loaded:
 
 
 def load(path: str | os.PathLike[str], units: str | None = None,
-         edges_as_members: bool = False, override_units: bool = False) -> Loaded:
+         edges_as_members: bool = False, override_units: bool = False,
+         cache: bool = False) -> Loaded:
     """Load a model file (.toml) or, for checking, a bare drawing or mesh.
 
     ``units`` is the length unit of a bare drawing that declares none (a model
-    file says it under ``geometry.file_units``).
+    file says it under ``geometry.file_units``).  ``cache``: reuse the model
+    file's imported, healed drawing (see :mod:`spaceframe.geometry_cache`).
 
     Raises
     ------
@@ -83,7 +85,7 @@ def load(path: str | os.PathLike[str], units: str | None = None,
                 raise ProjectError(f"{p}: --edges-as-members is for a bare drawing or mesh; "
                                    "a model file says it under geometry.options")
 
-            proj = load_project(p)
+            proj = load_project(p, cache=cache)
             loaded = Loaded(proj.model, p, proj.title, Path(proj.output), proj,
                             list(proj.warnings))
         else:
@@ -151,6 +153,7 @@ def check(
     edges_as_members: bool = False,
     override_units: bool = False,
     quick: bool = False,
+    cache: bool = False,
 ) -> CheckReport:
     """Read, heal, validate and diagnose stability without solving.
 
@@ -168,7 +171,7 @@ def check(
     from spaceframe.summary import support_counts
 
     progress("read")
-    loaded = load(path, units=units, edges_as_members=edges_as_members,
+    loaded = load(path, units=units, edges_as_members=edges_as_members, cache=cache,
                   override_units=override_units)
     m = loaded.model
     progress("check")
@@ -602,6 +605,7 @@ def run(
     pictures: bool | str = True,
     progress: Progress = _noop,
     force: bool = False,
+    cache: bool = False,
 ) -> RunOutcome:
     """Solve a model file and write every result into an output folder.
 
@@ -622,7 +626,7 @@ def run(
     timings: dict[str, float] = {}
     t = time.perf_counter()
     progress("read")
-    loaded = load(path)
+    loaded = load(path, cache=cache)
     timings["read"] = time.perf_counter() - t
     from spaceframe import run_design
 

@@ -67,6 +67,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the report as JSON")
     p.add_argument("--quick", action="store_true",
                    help="cheap stability checks only, without factorising the stiffness")
+    p.add_argument("--no-cache", action="store_true",
+                   help="read the drawing afresh, without the geometry cache beside the model file")
 
     p = sub.add_parser(
         "run", parents=[common],
@@ -82,6 +84,8 @@ def build_parser() -> argparse.ArgumentParser:
                    "other files are kept; the model file's own folder is always refused)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--no-pictures", action="store_true", help="skip pictures and report")
+    p.add_argument("--no-cache", action="store_true",
+                   help="read the drawing afresh, without the geometry cache beside the model file")
     p.add_argument("--pictures", default="combinations", metavar="WHICH",
                    help="results that get pictures: combinations (default: the combinations "
                         "and envelopes, or the load cases when there are none), all, none, "
@@ -273,7 +277,8 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
     with ctx:
         rep = batch.check(args.model, progress=progress, units=args.units,
                           edges_as_members=args.edges_as_members,
-                          override_units=args.override_units, quick=args.quick)
+                          override_units=args.override_units, quick=args.quick,
+                          cache=not args.no_cache)
     # Readers advise the Python keyword; on the command line it is an option.
     rep.warnings = [w.replace("edges_as_members=True", "--edges-as-members")
                     for w in rep.warnings]
@@ -289,7 +294,7 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
     with ctx:
         outcome = batch.run(args.model, args.output, solver=args.solver,
                             pictures=False if args.no_pictures else args.pictures,
-                            progress=progress, force=args.force)
+                            progress=progress, force=args.force, cache=not args.no_cache)
     if args.json:
         print(json.dumps(outcome.summary, indent=2))
         return 0

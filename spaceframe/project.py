@@ -122,13 +122,18 @@ class Project:
         return {name: results.envelope(name, members) for name, members in self.envelopes.items()}
 
 
-def load_project(path: str | os.PathLike[str]) -> Project:
+def load_project(path: str | os.PathLike[str], *, cache: bool = False) -> Project:
     """Read a model file and build its model.
 
     Parameters
     ----------
     path : str or path-like
         The ``.toml`` model file.
+    cache : bool
+        Keep the imported, healed ``geometry.file`` in ``.spaceframe-cache/``
+        beside the model file and reuse it while the drawing, reader options
+        and tolerance are unchanged (see :mod:`spaceframe.geometry_cache`).
+        Off by default: a library call writes nothing unless asked.
 
     Returns
     -------
@@ -148,10 +153,10 @@ def load_project(path: str | os.PathLike[str]) -> Project:
         raise ProjectError(f"{p}: not a UTF-8 text file ({exc})") from None
     except OSError as exc:
         raise ProjectError(f"{p}: cannot read the model file ({exc.strerror or exc})") from None
-    return parse_project(text, p)
+    return parse_project(text, p, cache=cache)
 
 
-def parse_project(text: str, path: Path) -> Project:
+def parse_project(text: str, path: Path, *, cache: bool = False) -> Project:
     """Build a project from model-file text; ``path`` locates relative files and names errors.
 
     Raises
@@ -164,7 +169,7 @@ def parse_project(text: str, path: Path) -> Project:
     text = text.removeprefix("\ufeff")
     try:
         spec = _parse(text, path)
-        return _build(spec)
+        return _build(spec, cache)
     except RecursionError:
         raise ProjectError(
             f"{path.name}: arrays or tables are nested too deeply to read "
@@ -1207,7 +1212,7 @@ def _check_references(ctx: _Ctx, selections: dict[str, sel.Selector], rules: lis
 
 
 # ================================================================ building
-def _build(spec: _Spec) -> Project:
+def _build(spec: _Spec, cache: bool = False) -> Project:
     name = spec.path.name
     own: list[str] = list(spec.warnings)
     notes: list[str] = []  # build-stage warnings, prefixed with the file name below
@@ -1220,7 +1225,7 @@ def _build(spec: _Spec) -> Project:
     # unchanged once the build has succeeded.
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        model = _read_geometry(spec, fail)
+        model = _read_geometry(spec, fail, cache)
     captured = list(caught)
     reader_notes = [str(w.message) for w in captured if issubclass(w.category, SpaceframeWarning)]
 
@@ -1323,20 +1328,11 @@ def _check_tolerance_scale(spec: _Spec, model: Model) -> None:
     )
 
 
-def _read_geometry(spec: _Spec, fail: Callable[[str, Exception], NoReturn]) -> Model:
+def _read_geometry(spec: _Spec, fail: Callable[[str, Exception], NoReturn],
+                   cache: bool = False) -> Model:
     geo = spec.geometry
     if geo.file is not None:
-        try:
-            from spaceframe.io import read
-        except ImportError as exc:
-            fail(geo.file_key, ProjectError(f"no drawing or mesh reader is available ({exc})"))
-        try:
-            model: Model = read(geo.file, units=geo.file_units, tolerance=geo.tolerance,
-                                heal=geo.heal, **geo.options)
-        except SpaceframeError as exc:
-            fail(f"{geo.file_key} = {_show(str(geo.file.name))}", exc)
-        except TypeError as exc:  # an option the reader does not take
-            fail("geometry.options", exc)
+        model = _read_file(spec, fail, cache)
     else:
         model = Model()
     if geo.nodes.shape[0] == 0:
@@ -1360,6 +1356,43 @@ def _read_geometry(spec: _Spec, fail: Callable[[str, Exception], NoReturn]) -> M
             model.add_panels([p + node_offset for p in polys], group=pname)
         except ModelError as exc:
             fail(f"geometry.panels.{pname}", exc)
+    return model
+
+
+def _read_file(spec: _Spec, fail: Callable[[str, Exception], NoReturn], cache: bool) -> Model:
+    """Read geometry.file, through the geometry cache when ``cache`` (warnings replayed)."""
+    from spaceframe import geometry_cache
+
+    geo = spec.geometry
+    assert geo.file is not None
+    key = folder = None
+    if cache:
+        key = geometry_cache.cache_key(geo.file, units=geo.file_units, tolerance=geo.tolerance,
+                                       heal=geo.heal, options=geo.options)
+        folder = spec.path.parent / geometry_cache.FOLDER
+        if key is not None:
+            cached = geometry_cache.load(folder, key)
+            if cached is not None:
+                return cached
+    try:
+        from spaceframe.io import read
+    except ImportError as exc:
+        fail(geo.file_key, ProjectError(f"no drawing or mesh reader is available ({exc})"))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            model: Model = read(geo.file, units=geo.file_units, tolerance=geo.tolerance,
+                                heal=geo.heal, **geo.options)
+        except SpaceframeError as exc:
+            fail(f"{geo.file_key} = {_show(str(geo.file.name))}", exc)
+        except TypeError as exc:  # an option the reader does not take
+            fail("geometry.options", exc)
+    for w in caught:
+        warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    if key is not None and folder is not None and key == geometry_cache.cache_key(
+            geo.file, units=geo.file_units, tolerance=geo.tolerance, heal=geo.heal,
+            options=geo.options):  # not if the drawing changed while it was read
+        geometry_cache.save(folder, key, model, list(caught))
     return model
 
 
