@@ -325,7 +325,7 @@ def dxf_wanted(n_members: int, path: str | os.PathLike[str] = "results.dxf",
         return False, None
     if requested is None and n_members > limit:
         return False, (f"{Path(path)}: results DXF not written: {n_members} members is above "
-                       f"{limit}; ask for it explicitly to write it")
+                       f"{limit}; ask for it with --dxf yes (write_if_wanted(requested=True))")
     return True, None
 
 

@@ -606,6 +606,8 @@ def run(
     progress: Progress = _noop,
     force: bool = False,
     cache: bool = False,
+    dxf: bool | None = None,
+    dxf_deformed: bool = False,
 ) -> RunOutcome:
     """Solve a model file and write every result into an output folder.
 
@@ -613,6 +615,9 @@ def run(
     the combinations and envelopes (or of the load cases when there are
     neither); or a choice of :func:`spaceframe.viewer.select_cases`
     ("all", "none", names separated by commas).
+    ``dxf``: None writes the results drawing up to
+    ``spaceframe.io.dxf_results.MEMBER_LIMIT`` members (and says so above
+    it), True always, False never; ``dxf_deformed`` adds deformed shapes.
 
     The folder is built under a temporary name beside the final one and
     swapped in when complete: a failed or killed run leaves the old results or
@@ -741,7 +746,8 @@ def run(
         t = time.perf_counter()
         keys = ("source", "title", "warnings", "envelopes", "design", "analysis")
         extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
-        files += _write_outputs(tmp, results, loaded, pictures, progress, extra, design)
+        files += _write_outputs(tmp, results, loaded, pictures, progress, extra, design,
+                                dxf_options={"requested": dxf, "deformed": dxf_deformed})
         files += tables.write_envelopes(tmp, results, envelopes)
         import importlib.util
 
@@ -776,16 +782,18 @@ def _write_outputs(
     progress: Progress,
     extra: dict[str, Any],
     design: Any = None,
+    dxf_options: dict[str, Any] | None = None,
 ) -> list[Path]:
     """Every writer that is installed; tables always."""
     import importlib.util
 
     from spaceframe.io import tables
 
+    dxf_opt = dxf_options or {}
     if importlib.util.find_spec("ezdxf") is not None:
         from spaceframe.io.dxf_results import dxf_wanted
 
-        note = dxf_wanted(results.model.n_members, "results.dxf")[1]
+        note = dxf_wanted(results.model.n_members, "results.dxf", dxf_opt.get("requested"))[1]
         if note is not None:  # said in the summary and by the command
             extra["warnings"].append(note)
     files = [Path(p) for p in tables.write(folder, results, extra=extra)]
@@ -800,8 +808,11 @@ def _write_outputs(
         from spaceframe.io import dxf_results
 
         progress("write DXF")
-        dxf_kw = {"failing": design.failing} if design is not None else {}
-        dxf, _ = dxf_results.write_if_wanted(folder / "results.dxf", results, **dxf_kw)
+        dxf_kw: dict[str, Any] = {"failing": design.failing} if design is not None else {}
+        if dxf_opt.get("deformed"):
+            dxf_kw["deformed_scale"] = "auto"
+        dxf, _ = dxf_results.write_if_wanted(folder / "results.dxf", results,
+                                             requested=dxf_opt.get("requested"), **dxf_kw)
         if dxf is not None:
             files.append(dxf)
     if importlib.util.find_spec("pyvista") is not None:

@@ -84,6 +84,11 @@ def build_parser() -> argparse.ArgumentParser:
                    "other files are kept; the model file's own folder is always refused)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--no-pictures", action="store_true", help="skip pictures and report")
+    p.add_argument("--dxf", choices=["auto", "yes", "no"], default="auto",
+                   help="results drawing: auto writes it up to 200,000 members and says so "
+                        "above (default), yes always, no never")
+    p.add_argument("--dxf-deformed", action="store_true",
+                   help="add the deformed shape of each result to the results drawing")
     p.add_argument("--no-cache", action="store_true",
                    help="read the drawing afresh, without the geometry cache beside the model file")
     p.add_argument("--pictures", default="combinations", metavar="WHICH",
@@ -294,7 +299,9 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
     with ctx:
         outcome = batch.run(args.model, args.output, solver=args.solver,
                             pictures=False if args.no_pictures else args.pictures,
-                            progress=progress, force=args.force, cache=not args.no_cache)
+                            progress=progress, force=args.force, cache=not args.no_cache,
+                            dxf={"auto": None, "yes": True, "no": False}[args.dxf],
+                            dxf_deformed=args.dxf_deformed)
     if args.json:
         print(json.dumps(outcome.summary, indent=2))
         return 0

@@ -338,8 +338,8 @@ def test_run_says_when_the_drawing_is_left_out(tmp_path: Path,
     from spaceframe.io import dxf_results as mod
 
     assert mod.dxf_wanted(200_001) == (False, "results.dxf: results DXF not written: 200001 "
-                                       "members is above 200000; ask for it explicitly to "
-                                       "write it")
+                                       "members is above 200000; ask for it with --dxf yes "
+                                       "(write_if_wanted(requested=True))")
     assert mod.dxf_wanted(200_000) == (True, None)
     model = Path(__file__).parent.parent / "examples" / "canopy" / "canopy.toml"
     monkeypatch.setattr(mod, "MEMBER_LIMIT", 1)
@@ -349,3 +349,21 @@ def test_run_says_when_the_drawing_is_left_out(tmp_path: Path,
     assert any("results DXF not written" in w for w in out.summary["warnings"])
     summary = (out.output / "summary.json").read_text(encoding="utf-8")
     assert "results DXF not written" in summary
+
+
+def test_run_options_choose_the_results_drawing(tmp_path):
+    import ezdxf
+    from test_project import CANOPY
+
+    from spaceframe.cli import main
+
+    (tmp_path / "canopy.toml").write_text(CANOPY, encoding="utf-8")
+    model = str(tmp_path / "canopy.toml")
+    assert main(["run", "-q", model, "--no-pictures", "--dxf", "no"]) == 0
+    assert not (tmp_path / "out" / "results.dxf").exists()
+    assert main(["run", "-q", model, "--no-pictures", "--dxf-deformed"]) == 0
+    layers = {la.dxf.name for la in ezdxf.readfile(tmp_path / "out" / "results.dxf").layers}
+    assert any(name.startswith("D_") or "DEFORM" in name.upper() for name in layers)
+    assert main(["run", "-q", model, "--no-pictures"]) == 0
+    layers = {la.dxf.name for la in ezdxf.readfile(tmp_path / "out" / "results.dxf").layers}
+    assert not any(name.startswith("D_") or "DEFORM" in name.upper() for name in layers)
