@@ -421,8 +421,9 @@ def write_modes(
         raise WriteError(f"VTK output {target}: there are no load cases or combinations to write")
     n = results.model.n_nodes
     target.mkdir(parents=True, exist_ok=True)
-    used: set[str] = set()
+    used: set[str] = {"modes.pvd"}
     done: list[tuple[Path, Path]] = []
+    series: list[tuple[int, int, str, str]] = []
     try:
         for m in modes:
             shape = np.asarray(m.shape, dtype=float)
@@ -446,6 +447,13 @@ def write_modes(
             key = "load_factor" if m.kind == "buckling" else "frequency_hz"
             grid.field_data[key] = np.array([float(m.value)])
             grid.save(tmp, binary=binary)
+            series.append((len(series), 0, file,
+                           f"{m.kind} {m.result} mode {m.number}".strip()))
+        # One series of every mode, so that open viewers step (animate) through them.
+        pvd = target / "modes.pvd"
+        tmp_pvd = _temp_beside(pvd)
+        done.append((tmp_pvd, pvd))
+        _write_pvd(tmp_pvd, series)
     except BaseException:
         for tmp, _ in done:
             tmp.unlink(missing_ok=True)

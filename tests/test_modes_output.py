@@ -62,7 +62,15 @@ def test_run_writes_one_vtu_per_mode_equal_to_the_library(tmp_path):
         assert mesh.field_data["frequency_hz"][0] == pytest.approx(f.frequencies[k], rel=1e-12)
     assert sorted(q.name for q in (out / "vtk" / "modes").iterdir()) == sorted(
         [f"buckling_{n}_mode{k}.vtu" for n in ("ULS", "SLS") for k in (1, 2)]
-        + [f"frequency_mode{k}.vtu" for k in (1, 2, 3)])
+        + [f"frequency_mode{k}.vtu" for k in (1, 2, 3)] + ["modes.pvd"])
+    # The series lists every mode file once, in order, for viewers to step through.
+    import xml.etree.ElementTree as ET
+
+    sets = ET.parse(out / "vtk" / "modes" / "modes.pvd").getroot().iter("DataSet")
+    listed = [(d.get("timestep"), d.get("file")) for d in sets]
+    assert [t for t, _ in listed] == [str(i) for i in range(7)]
+    assert sorted(f for _, f in listed) == sorted(
+        q.name for q in (out / "vtk" / "modes").iterdir() if q.suffix == ".vtu")
     # No temporary file left beside them; the summary block is unchanged by the files.
     summary = json.loads((out / "summary.json").read_text())
     assert summary["analysis"]["buckling"]["results"]["ULS"]["factors"] == pytest.approx(
@@ -90,7 +98,8 @@ def test_mode_file_names_are_safe_and_unique(tmp_path):
     shape[0] = (0.0, 0.0, 1.0)
     files = write_modes(tmp_path / "m", res, [Mode("buckling", "a/b", 1, 2.0, shape),
                                               Mode("buckling", "a b", 1, 3.0, shape)])
-    assert [f.name for f in files] == ["buckling_a_b_mode1.vtu", "buckling_a_b_mode1_2.vtu"]
+    assert [f.name for f in files] == ["buckling_a_b_mode1.vtu", "buckling_a_b_mode1_2.vtu",
+                                       "modes.pvd"]
     assert sorted(q.name for q in (tmp_path / "m").iterdir()) == [f.name for f in files]
     bad = shape.copy()
     bad[1, 0] = np.nan
