@@ -21,7 +21,13 @@ import scipy.sparse as sp
 if TYPE_CHECKING:
     from spaceframe.model import Model
 
-__all__ = ["equilibrium_matrix", "index_dtype", "member_dofs", "stiffness_matrix"]
+__all__ = [
+    "assemble_blocks",
+    "equilibrium_matrix",
+    "index_dtype",
+    "member_dofs",
+    "stiffness_matrix",
+]
 
 
 def index_dtype(n: int) -> type[np.signedinteger]:
@@ -63,27 +69,98 @@ def equilibrium_matrix(model: Model) -> sp.csc_matrix:
 _UPPER3 = np.triu_indices(3)
 
 
-def nodal_blocks(model: Model) -> tuple[np.ndarray, np.ndarray]:
-    """Upper triangles of the member blocks k c c^T and of their sum at each node.
+def _outer6(c: np.ndarray) -> np.ndarray:
+    """(b, 6) upper triangles of c cᵀ."""
+    return c[:, _UPPER3[0]] * c[:, _UPPER3[1]]
+
+
+def assemble_blocks(
+    members: np.ndarray,
+    n_nodes: int,
+    diag: np.ndarray,
+    off: np.ndarray,
+    *,
+    nodal: np.ndarray | None = None,
+    dof_map: np.ndarray | None = None,
+    n_dof: int | None = None,
+    triangle: Literal["full", "upper"] = "full",
+) -> sp.csr_matrix:
+    """Assemble member matrices [[D, O], [O, D]] on the elastic stiffness's pattern.
+
+    Parameters
+    ----------
+    members : (b, 2) int
+        End node ids.
+    n_nodes : int
+    diag, off : (b, 6) float
+        Upper triangles of each member's blocks D and O.
+    nodal : (n, 3) float, optional
+        Extra diagonal terms per node and axis (springs, added masses).
+    dof_map : (3n,) int, optional
+        Renumbering of global dofs; entries < 0 are dropped (restrained).
+    n_dof : int, optional
+        Size of the renumbered system (default ``dof_map.max() + 1``).
+    triangle : {"full", "upper"}
+        All entries, or only the upper triangle (for symmetric solvers).
 
     Returns
     -------
-    member : (b, 6) float
-        ``k c_a c_b`` for (a, b) in xx, xy, xz, yy, yz, zz, N/m.
-    node : (n, 6) float
-        The same summed over the members at each node: the 3x3 diagonal
-        block of K at that node, without springs.
+    scipy.sparse.csr_matrix
+        Duplicates summed, indices sorted; zeros in the pattern kept.
     """
-    c = model.directions
-    member = model.axial_stiffness[:, None] * c[:, _UPPER3[0]] * c[:, _UPPER3[1]]
-    n = model.n_nodes
-    i, j = model.members[:, 0], model.members[:, 1]
+    members = np.asarray(members)
+    b = members.shape[0]
+    n = int(n_nodes)
+    i, j = members[:, 0], members[:, 1]
     node = np.empty((n, 6))
-    # bincount with weights is a single pass in C; np.add.at on (b, 3, 3) is
-    # several times slower.
+    # bincount with weights is a single pass in C per component; np.add.at
+    # on (b, 3, 3) is several times slower.  Each node's diagonal block is
+    # summed before the sparse build and each member adds only its
+    # off-diagonal block: no duplicates reach the sparse constructor.
     for a in range(6):
-        node[:, a] = np.bincount(i, member[:, a], n) + np.bincount(j, member[:, a], n)
-    return member, node
+        node[:, a] = np.bincount(i, diag[:, a], n) + np.bincount(j, diag[:, a], n)
+    if nodal is not None:
+        node[:, [0, 3, 5]] += nodal
+    C = np.empty((b, 3, 3))
+    C[:, _UPPER3[0], _UPPER3[1]] = off
+    C[:, _UPPER3[1], _UPPER3[0]] = off
+    axes = np.arange(3)
+    if triangle == "upper":
+        da, db = _UPPER3
+        dblock = node
+    else:
+        da, db = np.divmod(np.arange(9), 3)
+        full = np.empty((n, 3, 3))
+        full[:, _UPPER3[0], _UPPER3[1]] = node
+        full[:, _UPPER3[1], _UPPER3[0]] = node
+        dblock = full.reshape(n, 9)
+    base_n = 3 * np.arange(n)[:, None]
+    base_i = 3 * members[:, :1, None]
+    base_j = 3 * members[:, 1:, None]
+    rows = [(base_n + da).ravel(), np.broadcast_to(base_i + axes[:, None], (b, 3, 3)).ravel()]
+    cols = [(base_n + db).ravel(), np.broadcast_to(base_j + axes[None, :], (b, 3, 3)).ravel()]
+    vals = [dblock.ravel(), C.ravel()]
+    if triangle == "full":
+        rows.append(cols[1])
+        cols.append(rows[1])
+        vals.append(vals[1])
+    r = np.concatenate(rows)
+    c = np.concatenate(cols)
+    v = np.concatenate(vals)
+    if dof_map is not None:
+        r, c = dof_map[r], dof_map[c]
+        size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else int(n_dof)
+        keep = (r >= 0) & (c >= 0)
+        r, c, v = r[keep], c[keep], v[keep]
+    else:
+        size = 3 * n
+    if triangle == "upper":
+        # Blocks are symmetric: fold entries below the diagonal onto their mirror.
+        r, c = np.minimum(r, c), np.maximum(r, c)
+    idx = index_dtype(size)
+    M = sp.csr_matrix((v, (r.astype(idx), c.astype(idx))), shape=(size, size))
+    M.sum_duplicates()
+    return M
 
 
 def stiffness_matrix(
@@ -110,50 +187,6 @@ def stiffness_matrix(
     K : scipy.sparse.csr_matrix
         Duplicates summed, indices sorted.
     """
-    n, b = model.n_nodes, model.n_members
-    member, node = nodal_blocks(model)
-    # Each node's diagonal block is summed before the sparse build and each
-    # member adds only its off-diagonal block -k c c^T: no duplicate entries
-    # reach the sparse constructor, and a third of the entries of 6x6 member
-    # matrices are never formed.
-    C = np.empty((b, 3, 3))
-    C[:, _UPPER3[0], _UPPER3[1]] = member
-    C[:, _UPPER3[1], _UPPER3[0]] = member
-    axes = np.arange(3)
-    if triangle == "upper":
-        da, db = _UPPER3
-        diag = node
-    else:
-        da, db = np.divmod(np.arange(9), 3)
-        full = np.empty((n, 3, 3))
-        full[:, _UPPER3[0], _UPPER3[1]] = node
-        full[:, _UPPER3[1], _UPPER3[0]] = node
-        diag = full.reshape(n, 9)
-    base_n = 3 * np.arange(n)[:, None]
-    base_i = 3 * model.members[:, :1, None]
-    base_j = 3 * model.members[:, 1:, None]
-    rows = [(base_n + da).ravel(), np.broadcast_to(base_i + axes[:, None], (b, 3, 3)).ravel()]
-    cols = [(base_n + db).ravel(), np.broadcast_to(base_j + axes[None, :], (b, 3, 3)).ravel()]
-    vals = [diag.ravel(), -C.ravel()]
-    if triangle == "full":
-        rows.append(cols[1])
-        cols.append(rows[1])
-        vals.append(vals[1])
-    r = np.concatenate(rows)
-    c = np.concatenate(cols)
-    v = np.concatenate(vals)
-    if dof_map is not None:
-        r, c = dof_map[r], dof_map[c]
-        size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else n_dof
-        keep = (r >= 0) & (c >= 0)
-        r, c, v = r[keep], c[keep], v[keep]
-    else:
-        size = 3 * n
-    if triangle == "upper":
-        # Blocks are symmetric, so an entry below the diagonal is the same
-        # value as its mirror: fold it over (any renumbering stays valid).
-        r, c = np.minimum(r, c), np.maximum(r, c)
-    idx = index_dtype(size)
-    K = sp.csr_matrix((v, (r.astype(idx), c.astype(idx))), shape=(size, size))
-    K.sum_duplicates()
-    return K
+    member = model.axial_stiffness[:, None] * _outer6(model.directions)
+    return assemble_blocks(model.members, model.n_nodes, member, -member, dof_map=dof_map,
+                           n_dof=n_dof, triangle=triangle)

@@ -1,7 +1,8 @@
 """Elastic, geometric and mass matrices of bars, from plain arrays.
 
-Every matrix here is assembled by one routine, :func:`assemble_blocks`, on
-the index pattern of :func:`spaceframe.assembly.stiffness_matrix`: a member
+Every matrix here is assembled by one routine,
+:func:`spaceframe.assembly.assemble_blocks` (which also builds
+:func:`spaceframe.assembly.stiffness_matrix`): a member
 from node i to node j contributes the symmetric 6x6 matrix
 
     [[D, O],
@@ -37,7 +38,7 @@ from typing import Literal
 import numpy as np
 import scipy.sparse as sp
 
-from spaceframe.assembly import _UPPER3, index_dtype
+from spaceframe.assembly import _outer6, assemble_blocks
 
 __all__ = [
     "assemble_blocks",
@@ -82,98 +83,6 @@ def free_dof_map(restraint: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     dof_map = np.full(flat.size, -1, dtype=np.int64)
     dof_map[free] = np.arange(free.size)
     return dof_map, free
-
-
-def _outer6(c: np.ndarray) -> np.ndarray:
-    """(b, 6) upper triangles of c cᵀ."""
-    return c[:, _UPPER3[0]] * c[:, _UPPER3[1]]
-
-
-def assemble_blocks(
-    members: np.ndarray,
-    n_nodes: int,
-    diag: np.ndarray,
-    off: np.ndarray,
-    *,
-    nodal: np.ndarray | None = None,
-    dof_map: np.ndarray | None = None,
-    n_dof: int | None = None,
-    triangle: Triangle = "full",
-) -> sp.csr_matrix:
-    """Assemble member matrices [[D, O], [O, D]] on the elastic stiffness's pattern.
-
-    Parameters
-    ----------
-    members : (b, 2) int
-        End node ids.
-    n_nodes : int
-    diag, off : (b, 6) float
-        Upper triangles of each member's blocks D and O.
-    nodal : (n, 3) float, optional
-        Extra diagonal terms per node and axis (springs, added masses).
-    dof_map : (3n,) int, optional
-        Renumbering of global dofs; entries < 0 are dropped (restrained).
-    n_dof : int, optional
-        Size of the renumbered system (default ``dof_map.max() + 1``).
-    triangle : {"full", "upper"}
-        All entries, or only the upper triangle (for symmetric solvers).
-
-    Returns
-    -------
-    scipy.sparse.csr_matrix
-        Duplicates summed, indices sorted; zeros in the pattern kept.
-    """
-    members = np.asarray(members)
-    b = members.shape[0]
-    n = int(n_nodes)
-    i, j = members[:, 0], members[:, 1]
-    node = np.empty((n, 6))
-    # bincount with weights is one pass in C per component (no loop over
-    # members), as in spaceframe.assembly.nodal_blocks.
-    for a in range(6):
-        node[:, a] = np.bincount(i, diag[:, a], n) + np.bincount(j, diag[:, a], n)
-    if nodal is not None:
-        node[:, [0, 3, 5]] += nodal
-    C = np.empty((b, 3, 3))
-    C[:, _UPPER3[0], _UPPER3[1]] = off
-    C[:, _UPPER3[1], _UPPER3[0]] = off
-    axes = np.arange(3)
-    if triangle == "upper":
-        da, db = _UPPER3
-        dblock = node
-    else:
-        da, db = np.divmod(np.arange(9), 3)
-        full = np.empty((n, 3, 3))
-        full[:, _UPPER3[0], _UPPER3[1]] = node
-        full[:, _UPPER3[1], _UPPER3[0]] = node
-        dblock = full.reshape(n, 9)
-    base_n = 3 * np.arange(n)[:, None]
-    base_i = 3 * members[:, :1, None]
-    base_j = 3 * members[:, 1:, None]
-    rows = [(base_n + da).ravel(), np.broadcast_to(base_i + axes[:, None], (b, 3, 3)).ravel()]
-    cols = [(base_n + db).ravel(), np.broadcast_to(base_j + axes[None, :], (b, 3, 3)).ravel()]
-    vals = [dblock.ravel(), C.ravel()]
-    if triangle == "full":
-        rows.append(cols[1])
-        cols.append(rows[1])
-        vals.append(vals[1])
-    r = np.concatenate(rows)
-    c = np.concatenate(cols)
-    v = np.concatenate(vals)
-    if dof_map is not None:
-        r, c = dof_map[r], dof_map[c]
-        size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else int(n_dof)
-        keep = (r >= 0) & (c >= 0)
-        r, c, v = r[keep], c[keep], v[keep]
-    else:
-        size = 3 * n
-    if triangle == "upper":
-        # Blocks are symmetric: fold entries below the diagonal onto their mirror.
-        r, c = np.minimum(r, c), np.maximum(r, c)
-    idx = index_dtype(size)
-    M = sp.csr_matrix((v, (r.astype(idx), c.astype(idx))), shape=(size, size))
-    M.sum_duplicates()
-    return M
 
 
 def elastic_stiffness(
