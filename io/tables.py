@@ -155,6 +155,17 @@ def _temp_name(final: Path) -> Path:
     return final.with_name(f".{final.name}.{os.getpid()}-{uuid.uuid4().hex[:12]}.tmp")
 
 
+def _write_one(final: Path, header: list[str], cols: list[_Col]) -> None:
+    """One CSV table under a temporary name, renamed onto ``final`` when complete."""
+    tmp = _temp_name(final)
+    try:
+        _write_csv(tmp, header, cols)
+        _commit([(tmp, final)])
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+
+
 def _commit(pairs: Iterable[tuple[Path, Path]]) -> None:
     for tmp, final in pairs:
         os.replace(tmp, final)
@@ -269,13 +280,7 @@ def write_envelopes(
                                                      env.axial_max / model.area,
                                                      env.axial_min / model.area)]
     final = Path(folder) / "envelopes.csv"
-    tmp = _temp_name(final)
-    try:
-        _write_csv(tmp, header, cols)
-        _commit([(tmp, final)])
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
+    _write_one(final, header, cols)
     return [final]
 
 
@@ -362,11 +367,5 @@ def write_member_design(
             _maybe(columns.get("slenderness", np.full(b, np.nan)), digits),
             _maybe(columns.get("slenderness_limit", np.full(b, np.nan)), digits)]
     final = Path(folder) / DESIGN_FILE
-    tmp = _temp_name(final)
-    try:
-        _write_csv(tmp, header, cols)
-        _commit([(tmp, final)])
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
+    _write_one(final, header, cols)
     return [final]

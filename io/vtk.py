@@ -243,6 +243,21 @@ def _temp_beside(final: Path) -> Path:
     return final.with_name(f".{final.stem}.{os.getpid()}-{uuid.uuid4().hex[:12]}{final.suffix}")
 
 
+def _discard(done: list[tuple[Path, Path]]) -> None:
+    """Remove the temporary files of a set that failed part-way."""
+    for tmp, _ in done:
+        tmp.unlink(missing_ok=True)
+
+
+def _commit_all(done: list[tuple[Path, Path]]) -> None:
+    """Rename every finished temporary file onto its target; drop any left over."""
+    try:
+        for tmp, final in done:
+            os.replace(tmp, final)
+    finally:
+        _discard(done)
+
+
 def _write_pvd(path: Path, entries: list[tuple[int, int, str, str]]) -> None:
     import xml.etree.ElementTree as ET
 
@@ -364,15 +379,9 @@ def write(
         done.append((tmp_pvd, pvd))
         _write_pvd(tmp_pvd, entries)
     except BaseException:
-        for tmp, _ in done:
-            tmp.unlink(missing_ok=True)
+        _discard(done)
         raise
-    try:
-        for tmp, final in done:
-            os.replace(tmp, final)
-    finally:
-        for tmp, _ in done:
-            tmp.unlink(missing_ok=True)
+    _commit_all(done)
     return pvd
 
 
@@ -455,13 +464,7 @@ def write_modes(
         done.append((tmp_pvd, pvd))
         _write_pvd(tmp_pvd, series)
     except BaseException:
-        for tmp, _ in done:
-            tmp.unlink(missing_ok=True)
+        _discard(done)
         raise
-    try:
-        for tmp, final in done:
-            os.replace(tmp, final)
-    finally:
-        for tmp, _ in done:
-            tmp.unlink(missing_ok=True)
+    _commit_all(done)
     return [final for _, final in done]
