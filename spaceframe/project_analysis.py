@@ -20,7 +20,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from spaceframe.errors import SpaceframeError
+from spaceframe.errors import SpaceframeError, one_line
 
 __all__ = ["AnalysisSpec", "Mode", "parse_analysis", "run_analyses", "run_analyses_with_modes"]
 
@@ -105,10 +105,6 @@ def _count(ctx: Any, t: Any, key: str, default: int) -> int:
     return int(value)
 
 
-def _one_line(exc: BaseException) -> str:
-    return " ".join(str(exc).split())
-
-
 @dataclass
 class Mode:
     """One mode shape found by [analysis], for the VTK writer.
@@ -169,7 +165,7 @@ def run_analyses_with_modes(spec: AnalysisSpec, model: Any, results: Any,
                 b = linear_buckling(model, results[name], n_modes=spec.buckling_modes,
                                     solver=solver)
             except SpaceframeError as exc:
-                block[name] = {"factors": [], "note": _one_line(exc)}
+                block[name] = {"factors": [], "note": one_line(exc)}
                 continue
             entry: dict[str, Any] = {"factors": [float(x) for x in b.factors],
                                      "note": "; ".join(b.notes)}
@@ -200,6 +196,6 @@ def run_analyses_with_modes(spec: AnalysisSpec, model: Any, results: Any,
             found += [Mode("frequency", "", k + 1, float(f.frequencies[k]), f.modes[k])
                       for k in range(f.frequencies.size)]
         except SpaceframeError as exc:
-            entry = {"frequencies_hz": [], "note": _one_line(exc)}
+            entry = {"frequencies_hz": [], "note": one_line(exc)}
         out["frequencies"] = entry
     return out, found

@@ -37,7 +37,7 @@ from typing import Any
 
 import numpy as np
 
-from spaceframe.errors import ModelError, SpaceframeError
+from spaceframe.errors import ModelError, SpaceframeError, one_line
 from spaceframe.model import Model
 from spaceframe.sections import Section
 
@@ -151,8 +151,8 @@ def _factor(key: str, value: Any) -> float:
 
 
 def _one_line(exc: BaseException) -> str:
-    text = " ".join(str(exc).split())
-    return text[:300] or type(exc).__name__
+    """A row's reason: the project's one-line form of the message, 300 characters at most."""
+    return one_line(exc, 300) or type(exc).__name__
 
 
 def evaluate_variant(
