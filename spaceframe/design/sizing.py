@@ -113,8 +113,7 @@ def _group_utilisation(
     fy = np.asarray(model.yield_strength)[ids][None, :]
     e_mod = np.asarray(model.E)[ids][None, :]
     l_cr = (np.asarray(model.buckling_length_factor)[ids] * model.lengths[ids])[None, :]
-    curves = np.array([buckling_curve_for("chs", fabrication, float(f)) for f in fy.ravel()],
-                      dtype=object)
+    curves = _tube_curves(fy.ravel(), fabrication)
     lam = l_cr / np.sqrt(inertia / area)
     lam_bar = lam / (np.pi * np.sqrt(e_mod / fy))
     chi = buckling_reduction(lam_bar, np.broadcast_to(curves, lam_bar.shape))
@@ -208,9 +207,16 @@ def size_groups(
     return out
 
 
+def _tube_curves(fy: np.ndarray, fabrication: str) -> np.ndarray:
+    """Table 6.2 curve of a catalogue tube per member, looked up once per distinct f_y."""
+    grades, inverse = np.unique(fy, return_inverse=True)
+    table = np.array([buckling_curve_for("chs", fabrication, float(f)) for f in grades],
+                     dtype=object)
+    return table[inverse.ravel()]
+
+
 def _apply_section(model: Model, ids: np.ndarray, sec: Section, fabrication: str) -> None:
-    curve = [buckling_curve_for("chs", fabrication, float(f))
-             for f in np.asarray(model.yield_strength)[ids]]
+    curve = _tube_curves(np.asarray(model.yield_strength)[ids], fabrication)
     model.set_member_properties(
         ids, area=sec.area, second_moment=sec.second_moment, buckling_curve=curve
     )

@@ -53,6 +53,17 @@ CHECKS = (
 )
 
 
+def _imperfection(curve: Any) -> tuple[np.ndarray, np.ndarray]:
+    """The distinct curve names, and alpha (Table 6.1) per entry, NaN for an unknown name.
+
+    Curves are compared as text once per distinct name, not once per member.
+    """
+    text = np.asarray(curve, dtype=object).astype(str)
+    names, inverse = np.unique(text, return_inverse=True)
+    table = np.array([IMPERFECTION_FACTORS.get(n, np.nan) for n in names.tolist()])
+    return names, table[inverse].reshape(text.shape) if names.size else np.zeros(text.shape)
+
+
 def buckling_reduction(lambda_bar: Any, curve: Any) -> np.ndarray:
     """Reduction factor χ for flexural buckling, EN 1993-1-1 Eq. (6.49).
 
@@ -77,20 +88,18 @@ def buckling_reduction(lambda_bar: Any, curve: Any) -> np.ndarray:
         On an unknown curve or a negative or non-finite slenderness.
     """
     lam = np.asarray(lambda_bar, dtype=float)
-    curves = np.asarray(curve, dtype=object)
-    names = np.unique(curves.ravel()) if curves.size else np.zeros(0, dtype=object)
-    unknown = [c for c in names.tolist() if c not in IMPERFECTION_FACTORS]
-    if unknown:
+    names, alpha = _imperfection(curve)
+    unknown = names[~np.isin(names, list(IMPERFECTION_FACTORS))]
+    if unknown.size:
         raise ModelError(
-            f"buckling curve {unknown[0]!r} is not one of {', '.join(IMPERFECTION_FACTORS)} "
-            "(EN 1993-1-1 Table 6.1)"
+            f"buckling curve {str(unknown[0])!r} is not one of "
+            f"{', '.join(IMPERFECTION_FACTORS)} (EN 1993-1-1 Table 6.1)"
         )
     bad = ~np.isfinite(lam) | (lam < 0)
     if np.any(bad):
         raise ModelError(
             f"slenderness {float(lam[bad].ravel()[0])!r} must be a non-negative finite number"
         )
-    alpha = np.vectorize(IMPERFECTION_FACTORS.__getitem__, otypes=[float])(curves)
     phi = 0.5 * (1.0 + alpha * (lam - 0.2) + lam**2)
     chi = 1.0 / (phi + np.sqrt(np.maximum(phi**2 - lam**2, 0.0)))
     return np.minimum(chi, 1.0)
@@ -318,7 +327,7 @@ def check_members(
     has_i = np.isfinite(inertia) & (inertia > 0) & steel
     chi = np.full(b, np.nan)
     if np.any(has_i):
-        curves_known = np.array([c in IMPERFECTION_FACTORS for c in curve[has_i].tolist()])
+        curves_known = np.isfinite(_imperfection(curve[has_i])[1])
         if not np.all(curves_known):
             i = int(np.flatnonzero(has_i)[np.flatnonzero(~curves_known)[0]])
             raise ModelError(
