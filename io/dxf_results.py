@@ -47,7 +47,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 import numpy as np
 
 from spaceframe.errors import SpaceframeError, WriteError
-from spaceframe.summary import auto_scale, format_number, supported_nodes
+from spaceframe.results.summary import auto_scale, format_number, supported_nodes
 
 if TYPE_CHECKING:
     from spaceframe.results import Results

@@ -10,7 +10,7 @@ for ids and text):
   ``<result>: N [N]`` (tension positive) and ``<result>: stress [Pa]``
 - ``reactions.csv``: supported and sprung nodes only: node, x/y/z, the
   restrained directions, then per result ``<result>: Rx [N]``, ``Ry``, ``Rz``
-- ``summary.json``: :func:`spaceframe.summary.summary`, plus ``"tables"``
+- ``summary.json``: :func:`spaceframe.results.summary.summary`, plus ``"tables"``
   stating the precision of the CSV files
 - ``member_design.csv`` (:func:`write_member_design`, when design checks ran):
   per member its section, material, governing force, resistance, utilisation,
@@ -39,7 +39,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.errors import WriteError
-from spaceframe.summary import member_group_labels, summary, supported_nodes
+from spaceframe.results.summary import member_group_labels, summary, supported_nodes
 
 if TYPE_CHECKING:
     from spaceframe.results import Envelope, Results
@@ -191,7 +191,7 @@ def write(
     extra : mapping, optional
         More JSON-able top-level entries for ``summary.json`` (e.g. the model
         file as ``"source"``, a ``"title"``, ``"warnings"``); they may not
-        replace a key of :func:`spaceframe.summary.summary`.
+        replace a key of :func:`spaceframe.results.summary.summary`.
     digits : int
         Significant digits of the results in the CSV files (1 to 17; 17
         round-trips every float64).

@@ -45,7 +45,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.errors import WriteError
-from spaceframe.summary import auto_scale, member_group_index, panel_group_index
+from spaceframe.results.summary import auto_scale, member_group_index, panel_group_index
 
 if TYPE_CHECKING:
     import pyvista
@@ -406,7 +406,7 @@ def write_modes(
         case or combination buckled, empty for frequencies), ``number`` (from
         1), ``value`` (load factor, or frequency in Hz) and ``shape``
         ((n_nodes, 3), largest nodal amplitude 1) - what
-        :func:`spaceframe.project_analysis.run_analyses_with_modes` returns.
+        :func:`spaceframe.project.analysis.run_analyses_with_modes` returns.
 
     Returns
     -------

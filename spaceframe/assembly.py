@@ -24,8 +24,10 @@ if TYPE_CHECKING:
 __all__ = [
     "assemble_blocks",
     "equilibrium_matrix",
+    "full_symmetric",
     "index_dtype",
     "member_dofs",
+    "reduced_stiffness",
     "stiffness_matrix",
 ]
 
@@ -190,3 +192,27 @@ def stiffness_matrix(
     member = model.axial_stiffness[:, None] * _outer6(model.directions)
     return assemble_blocks(model.members, model.n_nodes, member, -member, dof_map=dof_map,
                            n_dof=n_dof, triangle=triangle)
+
+
+def reduced_stiffness(
+    model: Model, triangle: Literal["full", "upper"] = "full"
+) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Stiffness on the free directions (springs on the diagonal) and their dof numbers.
+
+    ``triangle="upper"`` stores the upper triangle only (what PARDISO is given).
+    """
+    free = np.flatnonzero(~model.restraint.ravel())
+    dof_map = np.full(3 * model.n_nodes, -1, dtype=np.int64)
+    dof_map[free] = np.arange(free.size)
+    K = stiffness_matrix(model, dof_map=dof_map, n_dof=free.size, triangle=triangle)
+    spring = model.springs.ravel()[free]
+    if np.any(spring):
+        K.setdiag(K.diagonal() + spring)
+    return K, free
+
+
+def full_symmetric(K: sp.spmatrix, triangle: Literal["full", "upper"]) -> sp.spmatrix:
+    """The full symmetric matrix from one stored as ``triangle``."""
+    if triangle == "full":
+        return K
+    return K + sp.triu(K, k=1).T

@@ -187,7 +187,7 @@ def _fmt(v: float, unit: str, scale: float = 1.0, digits: int = 4) -> str:
 
 
 def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
-    from spaceframe.summary import supports_text
+    from spaceframe.results.summary import supports_text
 
     if as_json:
         print(json.dumps(rep.as_dict(), indent=2))
@@ -225,7 +225,7 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
         out.line(f"warning: {w}")
     d = rep.determinacy
     if d is not None and "mechanisms" in d:
-        from spaceframe.summary import plural
+        from spaceframe.results.summary import plural
 
         out.line(f"determinacy: {plural(d['mechanisms'], 'mechanism')}, "
                  f"{plural(d['self_stress'], 'state')} of self-stress (supports only; springs "
@@ -276,11 +276,11 @@ def _print_summary(out: _Printer, summ: dict[str, Any]) -> None:
 
 
 def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
-    from spaceframe import batch
+    from spaceframe.run import job
 
     ctx, progress = out.progress()
     with ctx:
-        rep = batch.check(args.model, progress=progress, units=args.units,
+        rep = job.check(args.model, progress=progress, units=args.units,
                           edges_as_members=args.edges_as_members,
                           override_units=args.override_units, quick=args.quick,
                           cache=not args.no_cache)
@@ -293,11 +293,11 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
 
 
 def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
-    from spaceframe import batch
+    from spaceframe.run import job
 
     ctx, progress = out.progress()
     with ctx:
-        outcome = batch.run(args.model, args.output, solver=args.solver,
+        outcome = job.run(args.model, args.output, solver=args.solver,
                             pictures=False if args.no_pictures else args.pictures,
                             progress=progress, force=args.force, cache=not args.no_cache,
                             dxf={"auto": None, "yes": True, "no": False}[args.dxf],
@@ -372,8 +372,9 @@ def _cmd_new(args: argparse.Namespace, out: _Printer) -> int:
 
 
 def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
-    from spaceframe import batch, viewer
+    from spaceframe import viewer
     from spaceframe.errors import ProjectError
+    from spaceframe.run import job
 
     path: Path = args.model
     if not args.screenshot and not _has_display():
@@ -392,7 +393,7 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
         w, h = (int(v) for v in args.size.lower().split("x"))
     except ValueError:
         raise ProjectError(f"--size {args.size!r}: expected WIDTHxHEIGHT, e.g. 1600x1000") from None
-    loaded = batch.load(path)
+    loaded = job.load(path)
     results = loaded.solve()
     if loaded.project is not None:  # envelopes too, as in the results folder's pictures
         results = viewer.with_envelopes(results, loaded.project.envelope_results(results))
@@ -401,7 +402,7 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
         raise ProjectError(f"--case {case!r}: no such case (have: {', '.join(results)})")
     options: dict[str, Any] = {}
     if args.color_by == "utilisation":
-        from spaceframe import run_design
+        from spaceframe.run import design as run_design
 
         envelopes = loaded.project.envelope_results(results) if loaded.project else {}
         design = run_design.run_checks(loaded.model, results, envelopes, loaded.project)
@@ -421,7 +422,7 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
 
 
 def _cmd_study(args: argparse.Namespace, out: _Printer) -> int:
-    from spaceframe import batch
+    from spaceframe.run import job
     from spaceframe.study import read_study, run_study, summary_lines
 
     model_file, vary, mode, folder = read_study(args.study)
@@ -429,7 +430,7 @@ def _cmd_study(args: argparse.Namespace, out: _Printer) -> int:
     with ctx:
         progress("read")
         # The base model is read and healed once; every variant starts from it.
-        loaded = batch.load(model_file)
+        loaded = job.load(model_file)
         sections = dict(loaded.project.sections) if loaded.project is not None else {}
         if folder.exists() and not folder.is_dir():
             raise OSError(f"{folder}: the study's output is a file, not a folder")

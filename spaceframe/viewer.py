@@ -26,7 +26,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.errors import ModelError
-from spaceframe.summary import auto_scale, format_number, member_group_index
+from spaceframe.results.summary import auto_scale, format_number, member_group_index
 
 if TYPE_CHECKING:
     import pyvista
@@ -186,7 +186,7 @@ class FrameScene:
     color_by : {"axial_force", "stress", "displacement", "group", "utilisation"}
     scale : "auto" or float
         Multiplier of the drawn displacements; "auto" draws the largest at
-        5 % of the model size (see :func:`spaceframe.summary.auto_scale`),
+        5 % of the model size (see :func:`spaceframe.results.summary.auto_scale`),
         recomputed for each result; 0 draws the undeformed shape only.
     off_screen : bool
         Render without a window (no display needed).

@@ -20,8 +20,8 @@ from pathlib import Path
 
 import pytest
 
-from spaceframe.batch import FAULT_ENV, MARKER
 from spaceframe.cli import main
+from spaceframe.run.job import FAULT_ENV, MARKER
 
 pytest.importorskip("ezdxf")
 pytestmark = pytest.mark.skipif(sys.platform == "win32", reason="POSIX signals and ulimit")

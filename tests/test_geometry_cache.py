@@ -12,9 +12,9 @@ import numpy as np
 import pytest
 
 import spaceframe.io as sio
-from spaceframe import geometry_cache
 from spaceframe.cli import main
 from spaceframe.project import Project, load_project
+from spaceframe.project import cache as geometry_cache
 
 ezdxf = pytest.importorskip("ezdxf")
 

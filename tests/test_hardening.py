@@ -21,7 +21,7 @@ from spaceframe.analysis.stability import (
 )
 from spaceframe.analysis.static import _check_finite, check_equilibrium, reduced_system
 from spaceframe.cli import main
-from spaceframe.summary import support_counts, supports_text
+from spaceframe.results.summary import support_counts, supports_text
 from spaceframe.tolerances import MAX_STIFFNESS_RATIO
 
 PYRAMID = """\

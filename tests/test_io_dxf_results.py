@@ -334,8 +334,8 @@ def test_large_models_get_the_drawing_only_on_request(tmp_path: Path,
 
 def test_run_says_when_the_drawing_is_left_out(tmp_path: Path,
                                                monkeypatch: pytest.MonkeyPatch) -> None:
-    from spaceframe import batch
     from spaceframe.io import dxf_results as mod
+    from spaceframe.run import job
 
     assert mod.dxf_wanted(200_001) == (False, "results.dxf: results DXF not written: 200001 "
                                        "members is above 200000; ask for it with --dxf yes "
@@ -343,7 +343,7 @@ def test_run_says_when_the_drawing_is_left_out(tmp_path: Path,
     assert mod.dxf_wanted(200_000) == (True, None)
     model = Path(__file__).parent.parent / "examples" / "canopy" / "canopy.toml"
     monkeypatch.setattr(mod, "MEMBER_LIMIT", 1)
-    out = batch.run(model, output=tmp_path / "out", pictures=False)
+    out = job.run(model, output=tmp_path / "out", pictures=False)
     assert not (out.output / "results.dxf").exists()
     assert (out.output / "members.csv").exists()
     assert any("results DXF not written" in w for w in out.summary["warnings"])

@@ -12,7 +12,7 @@ from conftest import AREA, H_APEX, L_LEG, E, W, loaded_tripod
 
 import spaceframe as sf
 from spaceframe.io import tables
-from spaceframe.summary import summary
+from spaceframe.results.summary import summary
 
 
 def _mast_base() -> sf.Model:

@@ -10,7 +10,7 @@ import pytest
 from scipy.spatial import cKDTree
 
 from spaceframe.errors import ModelError
-from spaceframe.loads import (
+from spaceframe.model.loads import (
     panel_normal_loads,
     panel_plan_loads,
     panel_surface_loads,

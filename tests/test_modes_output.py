@@ -17,7 +17,7 @@ from test_project import CANOPY
 import spaceframe as sf
 from spaceframe.io.vtk import decode_text
 from spaceframe.project import parse_project
-from spaceframe.project_analysis import run_analyses, run_analyses_with_modes
+from spaceframe.project.analysis import run_analyses, run_analyses_with_modes
 
 ANALYSIS = """
 [analysis.buckling]
@@ -90,7 +90,7 @@ def test_run_analyses_keeps_its_block_and_returns_the_modes(tmp_path):
 
 def test_mode_file_names_are_safe_and_unique(tmp_path):
     from spaceframe.io.vtk import write_modes
-    from spaceframe.project_analysis import Mode
+    from spaceframe.project.analysis import Mode
 
     p = _project(tmp_path)
     res = p.solve()
@@ -109,7 +109,7 @@ def test_mode_file_names_are_safe_and_unique(tmp_path):
 
 
 def test_report_has_the_buckling_and_frequencies_section(tmp_path):
-    from spaceframe.report import write_report
+    from spaceframe.run.report import write_report
 
     p = _project(tmp_path)
     res = p.solve()
@@ -117,11 +117,11 @@ def test_report_has_the_buckling_and_frequencies_section(tmp_path):
     page = write_report(tmp_path / "r.html", res, analysis=block).read_text(encoding="utf-8")
     assert "<h2>Buckling and frequencies</h2>" in page
     low = block["buckling"]["lowest"]
-    assert f"Lowest buckling load factor: {sf.summary.format_number(low['factor'])} " \
+    assert f"Lowest buckling load factor: {sf.results.summary.format_number(low['factor'])} " \
            f"({low['result']})" in page
     assert "first-order estimate" in page and "qualified engineer" in page
     f1 = sf.natural_frequencies(p.model, n_modes=3, mass="lumped").frequencies[0]
-    assert f"<td>{sf.summary.format_number(f1)}</td>" in page
+    assert f"<td>{sf.results.summary.format_number(f1)}</td>" in page
     # No block, no section.
     plain = write_report(tmp_path / "p.html", res).read_text(encoding="utf-8")
     assert "Buckling and frequencies" not in plain
@@ -144,5 +144,5 @@ def test_run_with_pictures_reports_the_lowest_factor_and_pyvista_reads_the_modes
     assert low["factor"] == pytest.approx(min(
         sf.linear_buckling(p.model, res[n], n_modes=2).factors[0] for n in ("ULS", "SLS")))
     page = (out / "report.html").read_text(encoding="utf-8")
-    assert (f"Lowest buckling load factor: {sf.summary.format_number(low['factor'])} "
+    assert (f"Lowest buckling load factor: {sf.results.summary.format_number(low['factor'])} "
             f"({low['result']})") in page

@@ -14,8 +14,8 @@ from pathlib import Path
 
 import pytest
 
-from spaceframe.batch import MARKER
 from spaceframe.cli import main
+from spaceframe.run.job import MARKER
 
 pytest.importorskip("ezdxf")
 

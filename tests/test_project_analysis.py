@@ -8,7 +8,7 @@ from test_project import CANOPY
 import spaceframe as sf
 from spaceframe.errors import ProjectError
 from spaceframe.project import parse_project
-from spaceframe.project_analysis import run_analyses
+from spaceframe.project.analysis import run_analyses
 
 ANALYSIS = """
 [analysis.buckling]

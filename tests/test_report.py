@@ -13,8 +13,8 @@ import pytest
 import pyvista as pv
 
 import spaceframe as sf
-from spaceframe import report
-from spaceframe.summary import format_number
+from spaceframe.results.summary import format_number
+from spaceframe.run import report
 
 pv.OFF_SCREEN = True
 
@@ -232,12 +232,13 @@ def test_no_force_chart_text(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) ->
 
 @pytest.mark.slow
 def test_run_pictures_default_to_combinations_and_envelopes(tmp_path: Path) -> None:
-    from spaceframe import batch, demos
+    from spaceframe import demos
+    from spaceframe.run import job
 
     files = demos.write_demo(tmp_path / "canopy", "canopy")
     toml = next(f for f in files if f.suffix == ".toml")
     phases: list[str] = []
-    out = batch.run(toml, tmp_path / "out", progress=phases.append)
+    out = job.run(toml, tmp_path / "out", progress=phases.append)
     pics = sorted(p.name for p in (out.output / "pictures").glob("*_iso.png"))
     # Three combinations and the envelope "ULS"; no picture of a bare load case.
     assert pics == ["SLS_snow_iso.png", "ULS_iso.png", "ULS_snow_iso.png", "ULS_uplift_iso.png"]
@@ -246,12 +247,12 @@ def test_run_pictures_default_to_combinations_and_envelopes(tmp_path: Path) -> N
     refs = _links((out.output / "report.html").read_text(encoding="utf-8")).refs
     assert refs and all(r.startswith("data:image/png;base64,") for r in refs)
     # A choice by name, and none at all.
-    out2 = batch.run(toml, tmp_path / "out2", pictures="snow")
+    out2 = job.run(toml, tmp_path / "out2", pictures="snow")
     assert sorted(p.name for p in (out2.output / "pictures").glob("*.png")) == [
         "snow_front.png", "snow_groups.png", "snow_iso.png", "snow_members.png",
         "snow_top.png"]
     with pytest.raises(sf.ModelError, match="no result named 'rain'"):
-        batch.run(toml, tmp_path / "out3", pictures="rain")
+        job.run(toml, tmp_path / "out3", pictures="rain")
     assert not (tmp_path / "out3").exists()
 
 

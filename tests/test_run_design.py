@@ -18,7 +18,7 @@ import pytest
 from test_project import CANOPY
 
 import spaceframe as sf
-from spaceframe import batch
+from spaceframe.run import job
 
 DESIGN = """
 [design]
@@ -53,20 +53,20 @@ def _rows(path: Path) -> list[dict[str, str]]:
         return list(csv.DictReader(fh))
 
 
-def _reference(outcome: batch.RunOutcome) -> sf.GoverningCheck:
+def _reference(outcome: job.RunOutcome) -> sf.GoverningCheck:
     """The library's check of the run's own results (ULS, SLS and the envelope)."""
     results = outcome.results
     model = results.model
-    proj = batch.load(outcome.summary["source"]).project
+    proj = job.load(outcome.summary["source"]).project
     envelopes = proj.envelope_results(results)
     pool = {**{n: results[n] for n in results}, **envelopes}
     return sf.check_results(model, pool, ["ULS", "SLS", "design"], gamma_M1=1.1)
 
 
 @pytest.fixture(scope="module")
-def heavy_run(tmp_path_factory: pytest.TempPathFactory) -> batch.RunOutcome:
+def heavy_run(tmp_path_factory: pytest.TempPathFactory) -> job.RunOutcome:
     tmp = tmp_path_factory.mktemp("heavy")
-    return batch.run(_write(tmp, HEAVY + DESIGN), pictures=False)
+    return job.run(_write(tmp, HEAVY + DESIGN), pictures=False)
 
 
 def test_members_table_equals_the_library_check(heavy_run):
@@ -169,7 +169,7 @@ def test_utilisation_cell_data_in_the_vtk_files(heavy_run):
 
 def test_report_first_page_and_utilisation_picture(tmp_path):
     pytest.importorskip("pyvista")
-    out = batch.run(_write(tmp_path, HEAVY + DESIGN), pictures="ULS")
+    out = job.run(_write(tmp_path, HEAVY + DESIGN), pictures="ULS")
     text = (out.output / "report.html").read_text(encoding="utf-8")
     g = _reference(out)
     design_at = text.index("Design checks")
@@ -187,7 +187,7 @@ def test_report_first_page_and_utilisation_picture(tmp_path):
 
 def test_model_without_yield_strengths_says_which_members(tmp_path):
     text = PLAIN_BRACES
-    out = batch.run(_write(tmp_path, text), pictures=False)
+    out = job.run(_write(tmp_path, text), pictures=False)
     model = out.results.model
     braces = np.setdiff1d(np.arange(model.n_members),
                           np.r_[model.groups["TOP"], model.groups["BOTTOM"]])
@@ -200,7 +200,7 @@ def test_model_without_yield_strengths_says_which_members(tmp_path):
 
 def test_design_table_checks_the_others_and_names_the_rest(tmp_path):
     text = PLAIN_BRACES + "[design]\n"
-    out = batch.run(_write(tmp_path, text), pictures=False)
+    out = job.run(_write(tmp_path, text), pictures=False)
     model = out.results.model
     chords = np.r_[model.groups["TOP"], model.groups["BOTTOM"]]
     rows = _rows(out.output / "member_design.csv")
@@ -222,7 +222,7 @@ def test_solve_warnings_are_recorded_in_the_run(tmp_path):
               'TOP = { section = "chord", material = "soft" }, '
               'BOTTOM = { section = "chord", material = "soft" }')
     text += '\n[materials.soft]\nE = 0.001\ndensity = "7850 kg/m^3"\n'
-    out = batch.run(_write(tmp_path, text), pictures=False)
+    out = job.run(_write(tmp_path, text), pictures=False)
     assert any("a linear analysis is not valid" in w for w in out.summary["warnings"])
     saved = json.loads((out.output / "summary.json").read_text(encoding="utf-8"))
     assert saved["warnings"] == out.summary["warnings"]
@@ -274,10 +274,10 @@ def test_viewer_utilisation_colours(tmp_path):
 
 def test_sizing_runs_before_the_final_solve_and_reports_iterations(tmp_path):
     text = HEAVY + "\n[design]\n[design.sizing]\ngroups = [\"BOTTOM\"]\n"
-    out = batch.run(_write(tmp_path, text), pictures=False)
+    out = job.run(_write(tmp_path, text), pictures=False)
     d = out.summary["design"]["sizing"]
     # The library on a fresh copy of the same model gives the same choice and iterations.
-    loaded = batch.load(out.summary["source"])
+    loaded = job.load(out.summary["source"])
     ref = sf.size_groups(loaded.model, ["BOTTOM"], names=["ULS", "SLS"])
     assert d["sections"] == {"BOTTOM": ref.sections["BOTTOM"].name}
     assert d["converged"] is ref.converged is True
@@ -295,7 +295,7 @@ def test_sizing_runs_before_the_final_solve_and_reports_iterations(tmp_path):
 def test_deflection_of_an_unknown_result_names_the_key(tmp_path):
     text = CANOPY + '\n[design]\n[design.deflection]\nresults = ["NOPE"]\n'
     with pytest.raises(sf.ProjectError) as exc:
-        batch.run(_write(tmp_path, text), pictures=False)
+        job.run(_write(tmp_path, text), pictures=False)
     msg = str(exc.value)
     assert "design.deflection.results" in msg and "'NOPE'" in msg and "\n" not in msg
     assert not (tmp_path / "out").exists()  # nothing half-written
@@ -308,9 +308,9 @@ def test_members_without_a_second_moment_are_named_and_fail(tmp_path):
         'brace = { shape = "chs", diameter = 60.3, thickness = 3.2 }',
         'brace = { shape = "user", area = 574 }',
     )
-    out = batch.run(_write(tmp_path, text), pictures=False)
+    out = job.run(_write(tmp_path, text), pictures=False)
     model = out.results.model
-    proj = batch.load(out.summary["source"]).project
+    proj = job.load(out.summary["source"]).project
     pool = {**{n: out.results[n] for n in out.results}, **proj.envelope_results(out.results)}
     ref = sf.check_results(model, pool, ["ULS", "SLS", "design"])
     bad = np.zeros(model.n_members, dtype=bool)
@@ -328,9 +328,9 @@ def test_too_slender_members_fail_and_are_counted(tmp_path):
     # A limit on L_cr/i of 20 for the TOP group (set per group; EN 1993-1-1 sets
     # none): the chords in compression (L = 2 m, i about 30 mm) exceed it.
     text = CANOPY + "\n[design]\n[design.groups.TOP]\nslenderness_limit = 20\n"
-    out = batch.run(_write(tmp_path, text), pictures=False)
+    out = job.run(_write(tmp_path, text), pictures=False)
     model = out.results.model
-    proj = batch.load(out.summary["source"]).project
+    proj = job.load(out.summary["source"]).project
     pool = {**{n: out.results[n] for n in out.results}, **proj.envelope_results(out.results)}
     ref = sf.check_results(model, pool, ["ULS", "SLS", "design"])
     slender = np.zeros(model.n_members, dtype=bool)

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 
 import spaceframe as sf
-from spaceframe import selection as s
 from spaceframe.errors import ModelError
+from spaceframe.geometry import selection as s
 
 TOP = [0, 1, 2, 3, 4, 5, 6, 7, 8]  # z = 1, a 3 x 3 grid at 2 m spacing, row by row
 BOTTOM = [9, 10, 11, 12]  # z = 0, at the bay centres

@@ -9,7 +9,7 @@ import pytest
 from conftest import A_FOOT, AREA, H_APEX, L_LEG, E, W, loaded_tripod, tripod_wind_forces
 
 import spaceframe as sf
-from spaceframe.summary import (
+from spaceframe.results.summary import (
     SCHEMA,
     auto_scale,
     case_summary,

@@ -12,7 +12,7 @@ from conftest import A_FOOT, AREA, H_APEX, L_LEG, E, H, W, loaded_tripod
 
 import spaceframe as sf
 from spaceframe import viewer
-from spaceframe.summary import format_number
+from spaceframe.results.summary import format_number
 
 pv.OFF_SCREEN = True
 

@@ -22,13 +22,13 @@ inertia count above, with bases of both null spaces where they are few.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from spaceframe.assembly import equilibrium_matrix
+from spaceframe.assembly import equilibrium_matrix, full_symmetric, reduced_stiffness
 from spaceframe.errors import MechanismError, ModelError, SolverError
 from spaceframe.solvers import PIVOT_TOLERANCE, SingularFactor
 from spaceframe.tolerances import MAX_STIFFNESS_RATIO, NODE_STIFFNESS_RATIO, RANK_TOLERANCE
@@ -181,21 +181,21 @@ def full_stability(model: Model, solver: str = "auto", quick: bool = False) -> N
     SolverError
         On a stiffness ratio the solver cannot promise.
     """
-    from spaceframe.analysis.static import full_matrix, reduced_system
-    from spaceframe.solvers import factorize, resolve_backend
+    from spaceframe.solvers import factorize, needs_upper, resolve_backend
 
     check_stability(model)
     check_conditioning(model)
     if quick:
         return
     backend = resolve_backend(solver)
-    K, free = reduced_system(model, backend)
+    triangle: Literal["full", "upper"] = "upper" if needs_upper(backend) else "full"
+    K, free = reduced_stiffness(model, triangle)
     if free.size == 0:
         return
     try:
         factorize(K, backend)
     except SingularFactor as exc:
-        name_singular(model, full_matrix(K, backend), free, exc)
+        name_singular(model, full_symmetric(K, triangle), free, exc)
 
 
 def check_stability(model: Model) -> None:

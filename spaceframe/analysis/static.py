@@ -11,12 +11,12 @@ from __future__ import annotations
 
 import time
 import warnings
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from spaceframe.analysis.stability import check_conditioning, check_stability, name_singular
-from spaceframe.assembly import equilibrium_matrix, stiffness_matrix
+from spaceframe.assembly import equilibrium_matrix, full_symmetric, reduced_stiffness
 from spaceframe.errors import SolverError, SpaceframeWarning
 from spaceframe.results import CaseResult, Results
 from spaceframe.solvers import Factor, SingularFactor, factorize, needs_upper, resolve_backend
@@ -54,16 +54,8 @@ ROUND_OFF = 64 * 2.0**-52
 
 
 def reduced_system(model: Model, backend: str = "scipy") -> tuple[sp.csr_matrix, np.ndarray]:
-    """Reduced stiffness (free dofs, springs on the diagonal) and the free dof numbers."""
-    free = np.flatnonzero(~model.restraint.ravel())
-    dof_map = np.full(3 * model.n_nodes, -1, dtype=np.int64)
-    dof_map[free] = np.arange(free.size)
-    tri: Literal["full", "upper"] = "upper" if needs_upper(backend) else "full"
-    K = stiffness_matrix(model, dof_map=dof_map, n_dof=free.size, triangle=tri)
-    spring = model.springs.ravel()[free]
-    if np.any(spring):
-        K.setdiag(K.diagonal() + spring)
-    return K, free
+    """Reduced stiffness (free dofs, springs on the diagonal) in the back-end's triangle."""
+    return reduced_stiffness(model, "upper" if needs_upper(backend) else "full")
 
 
 def _norm(x: np.ndarray) -> float:
@@ -101,11 +93,7 @@ def _refine(factor: Factor, K: sp.spmatrix, rhs: np.ndarray, sol: np.ndarray) ->
 
 def full_matrix(K: sp.spmatrix, backend: str) -> sp.spmatrix:
     """The full symmetric matrix from what the back-end was given."""
-    if not needs_upper(backend):
-        return K
-    import scipy.sparse as sp
-
-    return K + sp.triu(K, k=1).T
+    return full_symmetric(K, "upper" if needs_upper(backend) else "full")
 
 
 def _warn_large(model: Model, names: list[str], U: np.ndarray) -> None:

@@ -7,7 +7,7 @@ load cases (self-weight, snow on the top nodes, wind along x on the top
 nodes), three combinations and an envelope (invented demo data).  Then it
 times, best of ``--repeat``:
 
-- run: ``spaceframe run --no-pictures`` in-process (``batch.run`` with
+- run: ``spaceframe run --no-pictures`` in-process (``job.run`` with
   ``pictures=False``, what the command calls), with its own phase timings
   read (drawing, healing, model file), solve (every case and combination)
   and write (tables, results DXF, VTK), and the total;
@@ -103,8 +103,8 @@ def measure(target_members: int, repeat: int) -> dict[str, Any]:
     import ezdxf
     import numpy as np
 
-    from spaceframe import batch
     from spaceframe.analysis.static import reduced_system
+    from spaceframe.run import job
     from spaceframe.solvers import factorize, resolve_backend
 
     best: dict[str, float] = {}
@@ -120,11 +120,11 @@ def measure(target_members: int, repeat: int) -> dict[str, Any]:
             warnings.simplefilter("ignore")
             # One-off library loading (ezdxf, VTK, the solver) is paid once per
             # process, not per model: a first run before any clock.
-            batch.run(path, folder / "warm", pictures=False, force=True)
+            job.run(path, folder / "warm", pictures=False, force=True)
             info: dict[str, Any] = {}
             for k in range(repeat):
                 t = time.perf_counter()
-                out = batch.run(path, folder / f"out{k}", pictures=False, force=True)
+                out = job.run(path, folder / f"out{k}", pictures=False, force=True)
                 keep("run", time.perf_counter() - t)
                 for phase in ("read", "solve", "write"):
                     keep(phase, out.timings[phase])

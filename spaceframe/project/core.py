@@ -34,12 +34,12 @@ from typing import TYPE_CHECKING, Any, Literal, NoReturn
 
 import numpy as np
 
-from spaceframe import loads as load_math
-from spaceframe import selection as sel
 from spaceframe.errors import ModelError, ProjectError, SpaceframeError, SpaceframeWarning
 from spaceframe.geometry import check_coordinate_range
+from spaceframe.geometry import selection as sel
 from spaceframe.materials import PRESETS, Material, preset
 from spaceframe.model import STANDARD_GRAVITY, Model
+from spaceframe.model import loads as load_math
 from spaceframe.sections import (
     CORNER_RULES,
     SPIRAL_STRAND_FILL,
@@ -132,7 +132,7 @@ def load_project(path: str | os.PathLike[str], *, cache: bool = False) -> Projec
     cache : bool
         Keep the imported, healed ``geometry.file`` in ``.spaceframe-cache/``
         beside the model file and reuse it while the drawing, reader options
-        and tolerance are unchanged (see :mod:`spaceframe.geometry_cache`).
+        and tolerance are unchanged (see :mod:`spaceframe.project.cache`).
         Off by default: a library call writes nothing unless asked.
 
     Returns
@@ -633,10 +633,10 @@ def _parse(text: str, path: Path) -> _Spec:
     cases = _parse_loads(ctx, top.table("loads", None))
     combinations = _parse_combinations(ctx, top.table("combinations", None), cases)
     envelopes = _parse_envelopes(ctx, top.table("envelopes", None), cases, combinations)
-    from spaceframe.project_design import parse_design
+    from spaceframe.project.design import parse_design
 
     design = parse_design(ctx, top.table("design", None), top.table("actions", None), _selector)
-    from spaceframe.project_analysis import parse_analysis
+    from spaceframe.project.analysis import parse_analysis
 
     analysis = parse_analysis(ctx, top.table("analysis", None), cases, combinations)
 
@@ -1262,7 +1262,7 @@ def _build(spec: _Spec, cache: bool = False) -> Project:
 
     envelopes = dict(spec.envelopes)
     if spec.design is not None:
-        from spaceframe.project_design import apply_design
+        from spaceframe.project.design import apply_design
 
         try:
             generated = apply_design(spec.design, model, name)
@@ -1361,7 +1361,7 @@ def _read_geometry(spec: _Spec, fail: Callable[[str, Exception], NoReturn],
 
 def _read_file(spec: _Spec, fail: Callable[[str, Exception], NoReturn], cache: bool) -> Model:
     """Read geometry.file, through the geometry cache when ``cache`` (warnings replayed)."""
-    from spaceframe import geometry_cache
+    from spaceframe.project import cache as geometry_cache
 
     geo = spec.geometry
     assert geo.file is not None
@@ -1440,7 +1440,7 @@ def _assign(spec: _Spec, model: Model,
             f"sections {', '.join(repr(c) for c in cables)} are cables: analysed as "
             "tension-only members, each case and combination solved as its own load set"
         )
-    from spaceframe.project_design import member_design_properties
+    from spaceframe.project.design import member_design_properties
 
     member_design_properties(model, sections, sec_of, materials, mat_of, spec.section_extras)
     model.meta["project:sections"] = sections

@@ -1,6 +1,6 @@
 """The design checks of a run: which members can be checked, the checks, their summary.
 
-Called by :func:`spaceframe.batch.run`.  The checks themselves are the
+Called by :func:`spaceframe.run.job.run`.  The checks themselves are the
 library's (:mod:`spaceframe.design`); this module picks the results to check,
 the members that carry the data a check needs, and turns the outcome into the
 JSON block of ``summary.json`` and the one-line warnings of the run.

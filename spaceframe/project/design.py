@@ -149,7 +149,7 @@ def parse_design(ctx: Any, design: Any, actions: Any, selector: Any) -> DesignSp
 
 
 def _missing() -> Any:
-    from spaceframe.project import _MISSING
+    from spaceframe.project.core import _MISSING
 
     return _MISSING
 

@@ -65,7 +65,7 @@ def load(path: str | os.PathLike[str], units: str | None = None,
 
     ``units`` is the length unit of a bare drawing that declares none (a model
     file says it under ``geometry.file_units``).  ``cache``: reuse the model
-    file's imported, healed drawing (see :mod:`spaceframe.geometry_cache`).
+    file's imported, healed drawing (see :mod:`spaceframe.project.cache`).
 
     Raises
     ------
@@ -77,7 +77,7 @@ def load(path: str | os.PathLike[str], units: str | None = None,
     with warnings.catch_warnings(record=True) as w:
         warnings.simplefilter("always", SpaceframeWarning)
         if p.suffix.lower() == ".toml":
-            from spaceframe.project import load_project
+            from spaceframe.project.core import load_project
 
             if edges_as_members:
                 from spaceframe.errors import ProjectError
@@ -168,7 +168,7 @@ def check(
 
     from spaceframe.analysis.stability import full_stability
     from spaceframe.errors import SolverError
-    from spaceframe.summary import support_counts
+    from spaceframe.results.summary import support_counts
 
     progress("read")
     loaded = load(path, units=units, edges_as_members=edges_as_members, cache=cache,
@@ -179,7 +179,7 @@ def check(
     heal = m.meta.get("heal:report")
     drawn: dict[str, Any] = m.meta.get("units") or {"name": "m", "scale": 1.0}
     # One length unit per report: the model file's (metres for a bare drawing).
-    from spaceframe.report import length_unit
+    from spaceframe.run.report import length_unit
 
     unit_name, unit_scale = length_unit(m)
     healing = (
@@ -261,7 +261,7 @@ class RunOutcome:
     output: Path
     files: list[Path]
     timings: dict[str, float]
-    design: Any = None  # spaceframe.run_design.DesignOutcome when checks ran
+    design: Any = None  # spaceframe.run.design.DesignOutcome when checks ran
 
 
 #: Marker file the tool writes inside every results folder (and every temporary or old
@@ -633,7 +633,7 @@ def run(
     progress("read")
     loaded = load(path, cache=cache)
     timings["read"] = time.perf_counter() - t
-    from spaceframe import run_design
+    from spaceframe.run import design as run_design
 
     solve_notes: list[str] = []
     sizing = None
@@ -667,7 +667,7 @@ def run(
         else:
             warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
     from spaceframe.io import tables
-    from spaceframe.summary import summary as make_summary
+    from spaceframe.results.summary import summary as make_summary
 
     summ = make_summary(results)
     from spaceframe.io.tables import envelope_summary
@@ -714,7 +714,7 @@ def run(
     analysis_spec = getattr(loaded.project, "analysis", None)
     modes: list[Any] = []  # mode shapes of [analysis], written to vtk/modes
     if analysis_spec is not None and (analysis_spec.buckling or analysis_spec.frequencies):
-        from spaceframe.project_analysis import run_analyses_with_modes
+        from spaceframe.project.analysis import run_analyses_with_modes
 
         progress("buckling and frequencies")
         t = time.perf_counter()
@@ -823,7 +823,8 @@ def _write_outputs(
                   if design is not None else {})
         files.append(Path(vtk.write(folder / "vtk", results, **vtk_kw)))
         if pictures:
-            from spaceframe import report, viewer
+            from spaceframe import viewer
+            from spaceframe.run import report
 
             envelopes = (loaded.project.envelope_results(results)
                          if loaded.project is not None else {})

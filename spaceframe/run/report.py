@@ -9,7 +9,7 @@ Display units in the report: mm for displacements, kN for forces, MPa for
 stresses, kg for masses, and for lengths and positions (healing locations
 included) one unit throughout, the model file's length unit
 (:func:`length_unit`, metres when it sets none); numbers with four
-significant figures (:func:`spaceframe.summary.format_number`).
+significant figures (:func:`spaceframe.results.summary.format_number`).
 """
 
 from __future__ import annotations
@@ -29,8 +29,8 @@ from urllib.parse import quote
 import numpy as np
 
 from spaceframe.errors import ModelError, ReadError
-from spaceframe.run_design import DESIGN_CAUTION, GAMMA_NOTE
-from spaceframe.summary import format_number, summary
+from spaceframe.results.summary import format_number, summary
+from spaceframe.run.design import DESIGN_CAUTION, GAMMA_NOTE
 from spaceframe.tolerances import RESIDUAL_TOLERANCE
 
 if TYPE_CHECKING:
