@@ -74,7 +74,7 @@ _here = _Path(__file__).resolve().parent
 if not (_here / "io").is_dir() and (_here.parent / "io" / "__init__.py").is_file():
     sys.meta_path.append(_SourceTreeIO(_here.parent))
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
 
 __all__ = [
     "STANDARD_GRAVITY",
