@@ -10,6 +10,8 @@ from pathlib import Path
 
 import pytest
 
+import spaceframe as sf
+
 ROOT = Path(__file__).resolve().parents[1]
 
 
@@ -102,7 +104,8 @@ def test_wheel_holds_every_subpackage(tmp_path: Path) -> None:
     )
     assert expected - names == set()
     # Nothing lands outside the package (a top-level io/ would shadow the standard library).
-    assert {n.split("/")[0] for n in names} == {"spaceframe", "spaceframe-0.1.0.dist-info"}
+    dist_info = f"spaceframe-{sf.__version__}.dist-info"
+    assert {n.split("/")[0] for n in names} == {"spaceframe", dist_info}
 
 
 @pytest.mark.skipif(not os.environ.get("SPACEFRAME_EXPECT_INSTALLED"),
