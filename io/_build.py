@@ -358,7 +358,7 @@ def _heal_step(
         used[members0.reshape(-1)] = True
         node_map = np.cumsum(used) - 1
         node_map[~used] = -1
-        node_sets = _map_node_sets(raw_node_sets, node_map, nodes0, units, where, "")
+        node_sets = _map_node_sets(raw_node_sets, node_map, None, units, where, "")
         return _Frame(nodes0[used], node_map[members0], node_map, raw_members.groups,
                       node_sets, None)
 
@@ -383,26 +383,40 @@ def _heal_step(
 def _map_node_sets(
     sets: Mapping[str, np.ndarray],
     node_map: np.ndarray,
-    nodes0: np.ndarray,
+    nodes0: np.ndarray | None,
     units: Units,
     where: str,
     when: str,
 ) -> dict[str, np.ndarray]:
-    """Node sets through ``node_map``; a warning for each set that lost nodes on no member."""
+    """Node sets through ``node_map``; a warning for each set that lost nodes on no member.
+
+    The warning gives the first lost node's place (in file units) when
+    ``nodes0`` holds the raw nodes.
+    """
     out = {}
     for name, ids in sets.items():  # one pass per set
         new = node_map[ids]
-        lost = ids[new < 0]
-        if lost.size:
-            at = (nodes0[lost[0]] / units.scale).round(6).tolist()
-            warnings.warn(
-                f"{where}: node set {name!r}: {lost.size} node(s) are on no member{when} "
-                f"and were left out (first at {at} {units.name})",
-                SpaceframeWarning,
-                stacklevel=5,
-            )
+        if np.any(new < 0):
+            _warn_lost_nodes(where, name, ids[new < 0], nodes0, units, when)
         out[name] = np.unique(new[new >= 0]).astype(np.int64)
     return out
+
+
+def _warn_lost_nodes(
+    where: str, name: str, lost: np.ndarray, nodes0: np.ndarray | None, units: Units, when: str
+) -> None:
+    """Warn that node set ``name`` lost the raw nodes ``lost`` (the first placed if known)."""
+    at = (
+        f" (first at {(nodes0[lost[0]] / units.scale).round(6).tolist()} {units.name})"
+        if nodes0 is not None
+        else ""
+    )
+    warnings.warn(
+        f"{where}: node set {name!r}: {lost.size} node(s) are on no member{when} "
+        f"and were left out{at}",
+        SpaceframeWarning,
+        stacklevel=6,
+    )
 
 
 def _panels(raw: RawGeometry, point_node: np.ndarray, node_map: np.ndarray) -> _Panels:
