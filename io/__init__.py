@@ -83,13 +83,7 @@ def register_reader(suffix: str, module: str) -> None:
 
 
 def register_writer(suffix: str, module: str) -> None:
-    """Register ``spaceframe.io.<module>.write`` for files ending in ``suffix``.
-
-    Raises
-    ------
-    SpaceframeError
-        If the suffix is malformed or already registered.
-    """
+    """Register ``spaceframe.io.<module>.write`` for ``suffix`` (errors as for readers)."""
     _register(WRITERS, "writer", suffix, module)
 
 
@@ -164,7 +158,7 @@ def read(
 def write(
     path: str | os.PathLike[str], model: Model, *, format: str | None = None, **options: Any
 ) -> Path:
-    """Write a model, choosing the writer by file suffix.
+    """Write a model, choosing the writer by file suffix; return the written file.
 
     Parameters
     ----------
@@ -175,11 +169,6 @@ def write(
         Suffix to use instead of the file's own.
     **options
         Options of the format's writer (see :func:`spaceframe.io.dxf.write`).
-
-    Returns
-    -------
-    Path
-        The written file.
 
     Raises
     ------

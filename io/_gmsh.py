@@ -220,6 +220,12 @@ def _entities_ascii(
             k += 1
 
 
+def _int_lines(lines: list[str], start: int, count: int, where: str, section: str) -> np.ndarray:
+    """Integers of ``count`` lines from index ``start`` (messages give line ``start + 1``)."""
+    rows = lines[start : start + count]
+    return _as_int(_numbers(rows, where, section, start + 1), where, section, start + 1)
+
+
 def _parse41_ascii(lines: list[str], where: str) -> _Msh41:
     sec = _sections(lines, where)
     out = _Msh41()
@@ -236,12 +242,7 @@ def _parse41_ascii(lines: list[str], where: str) -> _Msh41:
         k = a + 1
         for _ in range(n_blocks):  # one pass per entity block, not per node
             dim, _tag, parametric, count = (int(v) for v in lines[k].split()[:4])
-            tags = _as_int(
-                _numbers(lines[k + 1 : k + 1 + count], where, "$Nodes", k + 2),
-                where,
-                "$Nodes",
-                k + 2,
-            )
+            tags = _int_lines(lines, k + 1, count, where, "$Nodes")
             width = 3 + (min(dim, 3) if parametric else 0)
             xyz = _numbers(lines[k + 1 + count : k + 1 + 2 * count], where, "$Nodes", k + 2)
             if tags.size != count or xyz.size != count * width:
@@ -258,12 +259,7 @@ def _parse41_ascii(lines: list[str], where: str) -> _Msh41:
         k = a + 1
         for _ in range(n_blocks):  # one pass per entity block, not per element
             dim, tag, etype, count = (int(v) for v in lines[k].split()[:4])
-            data = _as_int(
-                _numbers(lines[k + 1 : k + 1 + count], where, "$Elements", k + 2),
-                where,
-                "$Elements",
-                k + 2,
-            )
+            data = _int_lines(lines, k + 1, count, where, "$Elements")
             known = GMSH_TYPES.get(etype)
             width = 1 + known[1] if known else (data.size // count if count else 1)
             if data.size != count * width:
@@ -526,9 +522,12 @@ class _Block:
 
 @dataclass
 class Msh2:
-    """A 2.x file in meshio's terms (cells, "gmsh:physical" and
-    "gmsh:geometrical" cell data, field_data name -> [tag, dim]), so that
-    one adapter gives groups for 2.x files read here or by meshio."""
+    """A 2.x file in meshio's terms.
+
+    Cells, "gmsh:physical" and "gmsh:geometrical" cell data, field_data
+    name -> [tag, dim], so that one adapter gives groups for 2.x files read
+    here or by meshio.
+    """
 
     points: np.ndarray
     cells: list[_Block] = field(default_factory=list)
@@ -552,8 +551,10 @@ def _section_bytes(data: bytes, name: str, where: str) -> tuple[int, int] | None
 
 
 def _runs(toks: np.ndarray, count: int, where: str) -> list[np.ndarray]:
-    """Rows "number type ntags tags... nodes..." of 2.x text elements, in runs
-    of one type and tag count (one pass per run, not per element)."""
+    """Rows "number type ntags tags... nodes..." of 2.x text elements.
+
+    In runs of one type and tag count (one pass per run, not per element).
+    """
     out, s, done = [], 0, 0
     while done < count:
         if s + 3 > toks.size:
@@ -580,8 +581,9 @@ def _runs(toks: np.ndarray, count: int, where: str) -> list[np.ndarray]:
 
 
 def read_gmsh2(path: Path, where: str, binary: bool) -> Msh2:
-    """Read a Gmsh 2.x file (ASCII or binary) into cells with physical and
-    elementary tags (Gmsh reference manual, "MSH file format version 2").
+    """Read a Gmsh 2.x file (ASCII or binary) into cells with physical and elementary tags.
+
+    The layout is that of the Gmsh reference manual, "MSH file format version 2".
 
     Raises
     ------
@@ -611,45 +613,8 @@ def read_gmsh2(path: Path, where: str, binary: bool) -> Msh2:
             one = data[data.index(b"\n", fmt_at[0]) + 1 :][:4]
             order = ">" if one == (1).to_bytes(4, "big") else "<"
     try:
-        a, b = nodes_at
-        nl = data.index(b"\n", a)
-        n_nodes = int(data[a:nl])
-        if binary:
-            rec = np.dtype([("tag", order + "i4"), ("xyz", order + "f8", 3)])
-            if nl + 1 + rec.itemsize * n_nodes > len(data):
-                raise ReadError(f"{where}: binary Gmsh file ends inside $Nodes (cut short?)")
-            arr = np.frombuffer(data, dtype=rec, count=n_nodes, offset=nl + 1)
-            tags, xyz = arr["tag"].astype(np.int64), arr["xyz"].astype(np.float64)
-        else:
-            vals = np.array(data[nl + 1 : b].split(), dtype=np.float64)
-            if vals.size != 4 * n_nodes:
-                raise ReadError(
-                    f"{where}: $Nodes announces {n_nodes} nodes but holds another count"
-                )
-            vals = vals.reshape(n_nodes, 4)
-            tags, xyz = vals[:, 0].astype(np.int64), vals[:, 1:]
-        a, b = elements_at
-        nl = data.index(b"\n", a)
-        n_el = int(data[a:nl])
-        if binary:
-            rows, pos, done = [], nl + 1, 0
-            while done < n_el:  # one pass per header (block of one type), not per element
-                etype, n, ntags = np.frombuffer(data, order + "i4", 3, pos).tolist()
-                known = GMSH_TYPES.get(etype)
-                if known is None or n <= 0:
-                    raise ReadError(
-                        f"{where}: bad element block header (type {etype}, {n} elements)"
-                    )
-                width = 1 + ntags + known[1]
-                block = np.frombuffer(data, order + "i4", n * width, pos + 12).reshape(n, width)
-                # Same layout as text rows: number, type, ntags, tags, nodes.
-                rows.append(
-                    np.column_stack([block[:, :1], np.full((n, 2), (etype, ntags)), block[:, 1:]])
-                )
-                pos += 12 + 4 * n * width
-                done += n
-        else:
-            rows = _runs(np.array(data[nl + 1 : b].split(), dtype=np.int64), n_el, where)
+        tags, xyz = _msh2_nodes(data, nodes_at, binary, order, where)
+        rows = _msh2_elements(data, elements_at, binary, order, where)
     except (ValueError, IndexError) as exc:
         raise ReadError(
             f"{where}: malformed Gmsh 2 file ({type(exc).__name__}: {str(exc)[:120]})"
@@ -674,3 +639,47 @@ def read_gmsh2(path: Path, where: str, binary: bool) -> Msh2:
         elementary.append(r[:, 4].astype(np.int64) if ntags >= 2 else zero)
     out.cell_data = {"gmsh:physical": physical, "gmsh:geometrical": elementary}
     return out
+
+
+def _msh2_nodes(
+    data: bytes, at: tuple[int, int], binary: bool, order: str, where: str
+) -> tuple[np.ndarray, np.ndarray]:
+    """Node numbers and coordinates of the $Nodes section of a 2.x file."""
+    a, b = at
+    nl = data.index(b"\n", a)
+    n_nodes = int(data[a:nl])
+    if binary:
+        rec = np.dtype([("tag", order + "i4"), ("xyz", order + "f8", 3)])
+        if nl + 1 + rec.itemsize * n_nodes > len(data):
+            raise ReadError(f"{where}: binary Gmsh file ends inside $Nodes (cut short?)")
+        arr = np.frombuffer(data, dtype=rec, count=n_nodes, offset=nl + 1)
+        return arr["tag"].astype(np.int64), arr["xyz"].astype(np.float64)
+    vals = np.array(data[nl + 1 : b].split(), dtype=np.float64)
+    if vals.size != 4 * n_nodes:
+        raise ReadError(f"{where}: $Nodes announces {n_nodes} nodes but holds another count")
+    vals = vals.reshape(n_nodes, 4)
+    return vals[:, 0].astype(np.int64), vals[:, 1:]
+
+
+def _msh2_elements(
+    data: bytes, at: tuple[int, int], binary: bool, order: str, where: str
+) -> list[np.ndarray]:
+    """Rows "number type ntags tags... nodes..." of the $Elements section of a 2.x file."""
+    a, b = at
+    nl = data.index(b"\n", a)
+    n_el = int(data[a:nl])
+    if not binary:
+        return _runs(np.array(data[nl + 1 : b].split(), dtype=np.int64), n_el, where)
+    rows, pos, done = [], nl + 1, 0
+    while done < n_el:  # one pass per header (block of one type), not per element
+        etype, n, ntags = np.frombuffer(data, order + "i4", 3, pos).tolist()
+        known = GMSH_TYPES.get(etype)
+        if known is None or n <= 0:
+            raise ReadError(f"{where}: bad element block header (type {etype}, {n} elements)")
+        width = 1 + ntags + known[1]
+        block = np.frombuffer(data, order + "i4", n * width, pos + 12).reshape(n, width)
+        # Same layout as text rows: number, type, ntags, tags, nodes.
+        rows.append(np.column_stack([block[:, :1], np.full((n, 2), (etype, ntags)), block[:, 1:]]))
+        pos += 12 + 4 * n * width
+        done += n
+    return rows

@@ -38,18 +38,9 @@ from typing import Any
 import numpy as np
 
 from spaceframe.errors import ReadError, SpaceframeWarning
+from spaceframe.io._build import build_model
 from spaceframe.io._cells import _Cells
-from spaceframe.io._common import (
-    HEAL_OPTIONS,
-    RawGeometry,
-    Units,
-    build_model,
-    check_options,
-    check_path,
-    count_ignored,
-    describe_ignored,
-    parse_units,
-)
+from spaceframe.io._common import Units, parse_units
 from spaceframe.io._gmsh import (
     GMSH_TYPES,
     HIGH_ORDER_FACES,
@@ -58,6 +49,8 @@ from spaceframe.io._gmsh import (
     read_gmsh41,
 )
 from spaceframe.io._obj import _read_obj
+from spaceframe.io._options import read_settings
+from spaceframe.io._raw import RawGeometry, count_ignored, describe_ignored
 from spaceframe.model import Model
 
 __all__ = ["FACE_CELLS", "LINE_CELLS", "read"]
@@ -522,9 +515,11 @@ def read(
         Missing or unreadable file, no line cells (and no faces taken as
         edges), or a bad option.
     """
-    p = check_path(path)
-    where = str(p)
-    check_options(where, heal_options, HEAL_OPTIONS)
+    settings = read_settings(
+        path, tolerance=tolerance, heal=heal, edges_as_members=edges_as_members,
+        heal_options=heal_options,
+    )
+    p, where = settings.path, settings.where
     suffix = p.suffix.lower()
     if group_field is not None and suffix not in _VTK_SUFFIXES:
         raise ReadError(f"{where}: group_field applies to VTK files only")
@@ -580,12 +575,8 @@ def read(
     )
     return build_model(
         raw,
-        where=where,
+        settings,
         units=file_units,
-        tolerance=tolerance,
-        heal=heal,
-        heal_options=heal_options,
-        edges_as_members=edges_as_members,
         meta=dict(cells.extra),
         mid_member_key="mesh:mid_member_nodes",
         merge_mid_nodes=merge_mid_nodes,

@@ -29,11 +29,14 @@ if TYPE_CHECKING:
 
 __all__ = [
     "COMMON_UNITS",
+    "INSUNITS",
     "KINDS",
     "ROLES",
     "SETTINGS",
+    "UNIT_CODES",
     "InputUnits",
     "Kind",
+    "length_unit",
     "parse_quantity",
     "registry",
     "unit_factor",
@@ -104,6 +107,66 @@ ROLES: dict[str, tuple[str | None, int, str]] = {
     "acceleration": (None, 1, "acceleration"),
 }
 
+#: The DXF ``$INSUNITS`` codes (drawing units of the model space, as listed
+#: for that header variable in the DXF reference) with a short name and the
+#: length of one unit in metres.  Inch-based values are exact by the 1959
+#: international yard and pound agreement (1 in = 25.4 mm); US survey units
+#: by their definition 1 ft = 1200/3937 m; the astronomical unit by IAU 2012
+#: resolution B2, the light year as 365.25 days of light travel (IAU), the
+#: parsec as 648000/pi au (IAU 2015 B2).  Code 0 (unitless) is deliberately
+#: absent: it has no length.  This is the only length-unit table; every other map
+#: (name -> code, name -> metres, the lengths of :data:`COMMON_UNITS`) is
+#: derived from it.
+INSUNITS: dict[int, tuple[str, float]] = {
+    1: ("inch", 0.0254),
+    2: ("ft", 0.3048),
+    3: ("mi", 1609.344),
+    4: ("mm", 1.0e-3),
+    5: ("cm", 1.0e-2),
+    6: ("m", 1.0),
+    7: ("km", 1.0e3),
+    8: ("microinch", 2.54e-8),
+    9: ("mil", 2.54e-5),
+    10: ("yd", 0.9144),
+    11: ("angstrom", 1.0e-10),
+    12: ("nm", 1.0e-9),
+    13: ("um", 1.0e-6),
+    14: ("dm", 0.1),
+    15: ("dam", 10.0),
+    16: ("hm", 100.0),
+    17: ("Gm", 1.0e9),
+    18: ("au", 149_597_870_700.0),
+    19: ("ly", 9_460_730_472_580_800.0),
+    20: ("pc", 648_000.0 / math.pi * 149_597_870_700.0),
+    21: ("us_ft", 1200.0 / 3937.0),
+    22: ("us_inch", 100.0 / 3937.0),
+    23: ("us_yd", 3600.0 / 3937.0),
+    24: ("us_mi", 6_336_000.0 / 3937.0),
+}
+
+#: Unit name -> $INSUNITS code, derived from :data:`INSUNITS`.
+UNIT_CODES: dict[str, int] = {name: code for code, (name, _) in INSUNITS.items()}
+
+# Spellings people type for the common units, mapped to table names; anything
+# else goes to pint.  Lower-case keys: unit names compare case-insensitively
+# except "Gm", which is reached through pint ("gigameter").
+_LENGTH_ALIASES: dict[str, str] = {
+    "in": "inch",
+    "inches": "inch",
+    "foot": "ft",
+    "feet": "ft",
+    "millimetre": "mm",
+    "millimeter": "mm",
+    "centimetre": "cm",
+    "centimeter": "cm",
+    "metre": "m",
+    "meter": "m",
+    "kilometre": "km",
+    "kilometer": "km",
+    "yard": "yd",
+}
+
+_LENGTH = (0, 1, 0, 0)
 _N = (1, 1, -2, 0)
 _PA = (1, -1, -2, 0)
 
@@ -111,9 +174,7 @@ _PA = (1, -1, -2, 0)
 #: prefix definitions; the test suite checks every entry against pint.  Names
 #: not listed here are handed to pint.
 COMMON_UNITS: dict[str, tuple[float, Dims]] = {
-    "m": (1.0, (0, 1, 0, 0)),
-    "cm": (1e-2, (0, 1, 0, 0)),
-    "mm": (1e-3, (0, 1, 0, 0)),
+    **{name: (INSUNITS[UNIT_CODES[name]][1], _LENGTH) for name in ("m", "cm", "mm")},
     "N": (1.0, _N),
     "kN": (1e3, _N),
     "MN": (1e6, _N),
@@ -150,6 +211,37 @@ def registry() -> pint.UnitRegistry:
     import pint
 
     return pint.UnitRegistry()
+
+
+def length_unit(text: str) -> tuple[str, float] | None:
+    """Name and metres per unit of a length unit given by name; None if it is not one.
+
+    Names of :data:`INSUNITS` and common spellings ("millimetre", "feet")
+    compare case-insensitively, except "Gm" (reached through pint as
+    "gigameter"); any other name goes to pint, which is imported only then.
+    """
+    key = _LENGTH_ALIASES.get(text.lower(), text.lower())
+    for name, scale in INSUNITS.values():
+        if name.lower() == key and name != "Gm":
+            return name, scale
+    found = _pint_length(text)
+    return None if found is None else (text, found)
+
+
+def _pint_length(text: str) -> float | None:
+    """Metres per ``text`` by pint; None when pint is missing or it is no length."""
+    try:
+        import pint
+    except ImportError:
+        return None
+    try:
+        quantity = registry().Quantity(1.0, text)
+        if not quantity.check("[length]"):
+            return None
+        value = float(quantity.to("m").magnitude)
+    except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError):
+        return None
+    return value if math.isfinite(value) and value > 0 else None
 
 
 def _describe(kind: Kind) -> str:

@@ -10,6 +10,7 @@ from typing import Any
 
 import numpy as np
 import pytest
+from _frame_keys import coords_set, member_keys
 
 import spaceframe as sf
 from spaceframe.io import WriteError, read_report
@@ -67,19 +68,6 @@ def small_frame() -> sf.Model:
     m.add_panels([[1, 2, 4], [0, 1, 2, 3], [0, 5, 1, 2, 3]])
     m.add_markers([[2, 1.5, 0]], ["Survey"])
     return m
-
-
-def coords_set(model: sf.Model) -> set[tuple[float, ...]]:
-    return {tuple(np.round(p, 9)) for p in model.nodes.tolist()}
-
-
-def member_keys(
-    model: sf.Model, ids: np.ndarray | None = None
-) -> set[frozenset[tuple[float, ...]]]:
-    """Members as unordered pairs of rounded end coordinates (independent of node ids)."""
-    pairs = model.members if ids is None else model.members[ids]
-    xyz = np.round(model.nodes, 9)
-    return {frozenset((tuple(xyz[i]), tuple(xyz[j]))) for i, j in pairs.tolist()}
 
 
 def arbitrary_axes(normal: np.ndarray) -> np.ndarray:

@@ -13,8 +13,8 @@ import warnings
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import pytest
+from _frame_keys import member_keys
 
 import spaceframe as sf
 from spaceframe.cli import main
@@ -43,13 +43,6 @@ def _edit(path: Path, pattern: str, replacement: str, count: int = 1) -> None:
     new, n = re.subn(pattern, replacement, text, count=count)
     assert n == count, f"{pattern!r} found {n} times"
     path.write_text(new)
-
-
-def _member_keys(model: sf.Model) -> set[frozenset[tuple[float, ...]]]:
-    return {
-        frozenset(tuple(np.round(model.nodes[k], 9)) for k in pair)
-        for pair in model.members.tolist()
-    }
 
 
 def _zscale_zero_drawing(path: Path, inner_end: tuple[float, float, float]) -> Path:
@@ -85,7 +78,7 @@ def test_zscale_zero_flat_block_with_nested_block_keeps_all_members(tmp_path: Pa
     model, texts = _caught(sfdxf.read, path)
     # 3 lines of the block + 1 of the nested block + 1 loose line, as drawn.
     assert model.n_members == 5
-    assert _member_keys(model) == {
+    assert member_keys(model) == {
         frozenset({(10.0, 20.0, 3.0), (11.0, 20.0, 3.0)}),
         frozenset({(11.0, 20.0, 3.0), (11.0, 21.0, 3.0)}),
         frozenset({(11.0, 21.0, 3.0), (10.0, 20.0, 3.0)}),
@@ -190,6 +183,15 @@ def _nth_entity_span(text: str, kind: str, n: int) -> tuple[int, int]:
     return pos, text.index("\n  0\n", pos + 1)
 
 
+def _edit_entity(path: Path, kind: str, n: int, pattern: str, replacement: str) -> None:
+    """Replace ``pattern`` once inside the n-th ``kind`` entity; fail if it is absent there."""
+    text = path.read_text()
+    start, end = _nth_entity_span(text, kind, n)
+    damaged, found = re.subn(pattern, replacement, text[start:end], count=1)
+    assert found == 1, f"{pattern!r} not in {kind} #{n}"
+    path.write_text(text[:start] + damaged + text[end:])
+
+
 def test_damaged_entity_type_name_is_skipped_not_a_traceback(tmp_path: Path) -> None:
     path = _grid_drawing(tmp_path / "lxne.dxf")
     text = path.read_text()
@@ -205,12 +207,7 @@ def test_damaged_entity_type_name_is_skipped_not_a_traceback(tmp_path: Path) -> 
 
 def test_line_that_lost_its_layer_is_warned_with_its_place(tmp_path: Path) -> None:
     path = _grid_drawing(tmp_path / "nolayer.dxf")
-    text = path.read_text()
-    start, end = _nth_entity_span(text, "LINE", 3)  # DIAG from (1000, 0, 0)
-    entity = text[start:end]
-    damaged = re.sub(r"\n  8\nDIAG\n", "\n", entity, count=1)
-    assert damaged != entity
-    path.write_text(text[:start] + damaged + text[end:])
+    _edit_entity(path, "LINE", 3, r"\n  8\nDIAG\n", "\n")  # DIAG from (1000, 0, 0)
     model, texts = _caught(sfdxf.read, path)
     assert model.groups["0"].size == 1
     assert (
@@ -429,7 +426,7 @@ def test_nested_references_with_zscale_zero_follow_the_same_rule(tmp_path: Path)
     doc.saveas(path)
     _edit(path, r"\n 43\n7\.0\n", "\n 43\n0.0\n", count=2)
     model, texts = _caught(sfdxf.read, path)
-    assert _member_keys(model) == {
+    assert member_keys(model) == {
         frozenset({(0.0, 0.0, 1.0), (2.0, 0.0, 1.0)}),
         frozenset({(0.0, 0.0, 1.0), (0.0, 3.0, 1.0)}),
     }
@@ -441,12 +438,8 @@ def test_nested_references_with_zscale_zero_follow_the_same_rule(tmp_path: Path)
 
 def test_line_with_a_non_finite_coordinate_is_skipped_and_counted(tmp_path: Path) -> None:
     path = _grid_drawing(tmp_path / "nan.dxf")
-    text = path.read_text()
-    start, end = _nth_entity_span(text, "LINE", 6)  # CHORD from (3000, 0, 0)
-    entity = text[start:end]
-    damaged = re.sub(r"\n 10\n3000\.0\n", "\n 10\n1e999\n", entity, count=1)
-    assert damaged != entity
-    path.write_text(text[:start] + damaged + text[end:])
+    # CHORD from (3000, 0, 0)
+    _edit_entity(path, "LINE", 6, r"\n 10\n3000\.0\n", "\n 10\n1e999\n")
     model, texts = _caught(sfdxf.read, path)
     assert model.n_members == 7
     kind = "damaged LINE (coordinate not a finite number)"

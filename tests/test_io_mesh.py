@@ -9,6 +9,7 @@ from typing import Any
 
 import numpy as np
 import pytest
+from _frame_keys import member_keys
 
 import spaceframe as sf
 from spaceframe.io import mesh as sfmesh
@@ -130,14 +131,6 @@ def icosphere(radius: float) -> tuple[np.ndarray, np.ndarray]:
     p = np.array(pts)
     p = radius * p / np.linalg.norm(p, axis=1)[:, None]
     return p, np.array(tris)
-
-
-def member_keys(
-    model: sf.Model, ids: np.ndarray | None = None
-) -> set[frozenset[tuple[float, ...]]]:
-    pairs = model.members if ids is None else model.members[ids]
-    xyz = np.round(model.nodes, 9)
-    return {frozenset((tuple(xyz[i]), tuple(xyz[j]))) for i, j in pairs.tolist()}
 
 
 def key(*points: tuple[float, float, float]) -> frozenset[tuple[float, ...]]:

@@ -66,6 +66,7 @@ def main() -> None:
     from spaceframe.io import dxf as sfdxf
     from spaceframe.io import read, read_report
     from spaceframe.io._common import build_model, units_from_insunits
+    from spaceframe.io._options import read_settings
 
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "grid.dxf"
@@ -88,16 +89,10 @@ def main() -> None:
         units = units_from_insunits(doc.header["$INSUNITS"], where=str(path))
         assert units is not None
         t0 = time.perf_counter()
-        unhealed = build_model(
-            raw,
-            where=str(path),
-            units=units,
-            tolerance=None,
-            heal=False,
-            heal_options={},
-            edges_as_members=False,
-            meta={},
+        settings = read_settings(
+            path, tolerance=None, heal=False, edges_as_members=False, heal_options={}
         )
+        unhealed = build_model(raw, settings, units=units, meta={})
         t_model = time.perf_counter() - t0
 
         t0 = time.perf_counter()
