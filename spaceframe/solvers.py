@@ -13,6 +13,11 @@ multi-column right-hand side.  Back-ends:
   answers with pypardiso's all-zero defaults), and a solver object of its own
   per factorisation (pypardiso's module-level solver is shared global state).
 
+``factorize_ldlt(K)`` factorises a symmetric matrix that may be indefinite
+(a tangent past a limit point, a shifted stiffness) and reports its inertia;
+``shift_invert(K, M, sigma)`` is the operator (K - sigma M)^-1 that ARPACK's
+shift-invert and buckling modes take as OPinv.
+
 A factor never vouches for its answer: the caller checks residuals.
 """
 
@@ -21,6 +26,7 @@ from __future__ import annotations
 import importlib.util
 import os
 import platform
+from dataclasses import dataclass
 from typing import Any, Literal, Protocol
 
 import numpy as np
@@ -28,7 +34,17 @@ import scipy.sparse as sp
 
 from spaceframe.errors import SolverError
 
-__all__ = ["Factor", "SingularFactor", "available_backends", "factorize", "resolve_backend"]
+__all__ = [
+    "Factor",
+    "Inertia",
+    "LDLFactor",
+    "SingularFactor",
+    "available_backends",
+    "factorize",
+    "factorize_ldlt",
+    "resolve_backend",
+    "shift_invert",
+]
 
 Backend = Literal["auto", "scipy", "pardiso"]
 
@@ -53,10 +69,45 @@ class SingularFactor(SolverError):
         self.dofs = np.asarray(dofs if dofs is not None else [], dtype=np.int64)
 
 
+@dataclass(frozen=True)
+class Inertia:
+    """Counts of negative, zero and positive pivots of an L D L^T factorisation.
+
+    By Sylvester's law of inertia these are the counts of negative, zero and
+    positive eigenvalues of the matrix.
+    """
+
+    negative: int
+    zero: int
+    positive: int
+
+    @property
+    def positive_definite(self) -> bool:
+        """True when every pivot is positive."""
+        return self.negative == 0 and self.zero == 0
+
+
+def pivot_inertia(pivots: np.ndarray, diag: np.ndarray) -> Inertia:
+    """Inertia of pivots, each judged zero against its own diagonal entry.
+
+    A pivot is zero when |pivot| <= PIVOT_TOLERANCE * |diagonal entry of its
+    degree of freedom| (scale-free, as in factorize).  Non-finite pivots are
+    refused.
+    """
+    d = np.asarray(pivots, dtype=float)
+    if not np.all(np.isfinite(d)):
+        raise SingularFactor("non-finite pivots")
+    zero = np.abs(d) <= PIVOT_TOLERANCE * np.abs(np.asarray(diag, dtype=float))
+    neg = int(np.count_nonzero((d < 0) & ~zero))
+    nz = int(np.count_nonzero(zero))
+    return Inertia(negative=neg, zero=nz, positive=int(d.size) - neg - nz)
+
+
 class Factor(Protocol):
     """A factorised symmetric matrix."""
 
     name: str
+    inertia: Inertia | None
 
     def solve(self, rhs: np.ndarray) -> np.ndarray:
         """Solve K x = rhs for a (m,) or (m, k) right-hand side."""
@@ -115,6 +166,8 @@ class _SuperLUFactor:
         small = np.flatnonzero(~(udiag > PIVOT_TOLERANCE * diag[inv]))
         if small.size:
             raise SingularFactor(f"{small.size} zero pivots", inv[small])
+        # Every pivot passed the test above: positive definite.
+        self.inertia: Inertia | None = Inertia(0, 0, Kc.shape[0])
 
     def solve(self, rhs: np.ndarray) -> np.ndarray:
         x = np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
@@ -162,6 +215,8 @@ class _PardisoFactor:
             # singular or indefinite matrix.
             raise SingularFactor(f"PARDISO: {exc}") from exc
         self._check_pivots(solver)
+        # Matrix type 2 refuses non-positive pivots: positive definite.
+        self.inertia: Inertia | None = Inertia(0, 0, self._A.shape[0])
 
     def _check_pivots(self, solver: Any) -> None:
         # A Cholesky factorisation of a singular matrix need not fail: round-off
@@ -257,3 +312,83 @@ def factorize(K: sp.spmatrix, backend: str = "auto") -> Factor:
     if name == "pardiso":
         return _PardisoFactor(sp.triu(K, format="csr"))
     return _SuperLUFactor(K)
+
+
+class LDLFactor:
+    """A symmetric, possibly indefinite matrix factorised as L D L^T, with its inertia.
+
+    scipy has no sparse L D L^T; SuperLU in symmetric mode with diagonal
+    pivots and one ordering for rows and columns is one (U = D L^T), so the
+    signs of U's diagonal are those of D (Golub and Van Loan, "Matrix
+    Computations", 4th ed., section 4.1 and Sylvester's law of inertia,
+    section 8.1.5).  Where that elimination meets an exactly zero pivot, or
+    SuperLU departs from the symmetric ordering, partial pivoting gives a
+    sound solve and ``inertia`` is None (unknown).  ``inertia`` is also None
+    when a pivot is non-finite.
+    """
+
+    name = "scipy-ldlt"
+
+    def __init__(self, K: sp.spmatrix) -> None:
+        import scipy.sparse.linalg as spla
+
+        Kc = sp.csc_matrix(K)
+        self.inertia: Inertia | None = None
+        try:
+            lu = spla.splu(
+                Kc,
+                permc_spec="MMD_AT_PLUS_A",
+                diag_pivot_thresh=0.0,
+                options={"SymmetricMode": True},
+            )
+        except RuntimeError:
+            lu = None
+        if lu is not None and np.array_equal(lu.perm_r, lu.perm_c):
+            inv = np.argsort(lu.perm_c)
+            try:
+                self.inertia = pivot_inertia(lu.U.diagonal(), Kc.diagonal()[inv])
+            except SingularFactor:
+                self.inertia = None
+        if lu is None:
+            try:
+                lu = spla.splu(Kc)
+            except RuntimeError as exc:  # "Factor is exactly singular"
+                raise SingularFactor(f"SuperLU: {exc}") from exc
+        self._lu = lu
+
+    def solve(self, rhs: np.ndarray) -> np.ndarray:
+        """Solve K x = rhs for a (m,) or (m, k) right-hand side."""
+        return np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
+
+
+def factorize_ldlt(K: sp.spmatrix) -> LDLFactor:
+    """Factorise a symmetric (possibly indefinite) matrix and count its inertia.
+
+    Raises
+    ------
+    SingularFactor
+        When even partial pivoting finds the matrix exactly singular.
+    """
+    return LDLFactor(K)
+
+
+def shift_invert(
+    K: sp.spmatrix, M: sp.spmatrix, sigma: float, backend: str = "auto"
+) -> Any:
+    """(K - sigma M)^-1 as a scipy LinearOperator, for eigsh's ``OPinv``.
+
+    K - sigma M must be positive definite (the shift lies below the lowest
+    eigenvalue); it is factorised by :func:`factorize`.
+
+    Raises
+    ------
+    SingularFactor
+        When K - sigma M is singular or not positive definite.
+    """
+    from scipy.sparse.linalg import LinearOperator
+
+    factor = factorize(K - sigma * M, backend)
+    if factor.inertia is not None and not factor.inertia.positive_definite:
+        raise SingularFactor(f"K - {sigma:g} M is not positive definite")
+    m = K.shape[0]
+    return LinearOperator((m, m), matvec=factor.solve, dtype=float)

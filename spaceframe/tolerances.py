@@ -47,3 +47,37 @@ NODE_STIFFNESS_RATIO = 1.0e-10
 #: 1e-6 and covers any real contrast (a 1 mm² tie beside a 1 m² chord of a
 #: tenth of its length is 1e7).
 MAX_STIFFNESS_RATIO = 1.0e10
+
+#: Free degrees of freedom up to which eigenproblems use the dense LAPACK
+#: solver.  A dense generalised eigenproblem of 600 unknowns takes ~0.1 s;
+#: above that the sparse Lanczos iteration is faster and its memory stays
+#: linear (measured here).
+DENSE_EIGEN_LIMIT = 600
+
+#: An eigenvalue mu of B phi = mu K phi with |mu| at most this fraction of the
+#: spectral scale is taken as zero: no buckling factor (or an infinite
+#: frequency) in that direction.  Round-off in mu stays near 1e-16 of the
+#: scale; 1e-10 leaves six orders for ill conditioning.
+ZERO_EIGENVALUE = 1.0e-10
+
+#: Largest relative eigen-residual ||B phi - mu K phi|| / (max|mu| ||K phi||)
+#: accepted.  ARPACK converges to ~1e-12 here; 1e-6 still rejects a wrong pair.
+EIGEN_RESIDUAL = 1.0e-6
+
+#: Halvings of the buckling shift tried before falling back to a shift of
+#: zero.  Six halvings take the shift to 1/64 of its first value, where a
+#: factorisation that still fails points to a near-mechanism, not the shift.
+BUCKLING_SHIFT_TRIES = 6
+
+#: Fraction of the estimated lowest buckling factor used as the first shift.
+#: The estimate is a Ritz value (from above) good to about 1e-2, so 0.9
+#: puts the shift below the lowest factor while keeping it close.
+BUCKLING_SHIFT_FRACTION = 0.9
+
+#: Relative accuracy asked of the short Lanczos run that only estimates the
+#: lowest buckling factor for the shift; 1e-2 is ample for a shift of 0.9.
+EIGEN_ESTIMATE_TOLERANCE = 1.0e-2
+
+#: Relative accuracy asked of the shifted (buckling-mode) Lanczos run; well
+#: inside EIGEN_RESIDUAL, which checks every pair afterwards.
+SHIFTED_LANCZOS_TOLERANCE = 1.0e-10

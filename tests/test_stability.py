@@ -160,3 +160,23 @@ def test_determinate_solve_needs_no_stiffness() -> None:
 
     with pytest.raises(sf.ModelError, match="1 state"):
         sf.solve_determinate(ferreira_truss(), np.zeros((5, 3)))
+
+
+def test_ldlt_inertia_matches_tridiagonal_closed_form() -> None:
+    # Eigenvalues of tridiag(-1, 2, -1) of order n are 2 - 2 cos(k pi / (n + 1)),
+    # k = 1..n (Strang, "Introduction to Linear Algebra", 5th ed., section 8.3 /
+    # common practice): shifting by s leaves as many negative pivots as
+    # eigenvalues below s (Sylvester's law of inertia).
+    import numpy as np
+    import scipy.sparse as sp
+
+    from spaceframe.solvers import factorize_ldlt
+
+    n = 40
+    T = sp.diags([-np.ones(n - 1), 2 * np.ones(n), -np.ones(n - 1)], [-1, 0, 1])
+    lam = 2 - 2 * np.cos(np.arange(1, n + 1) * np.pi / (n + 1))
+    for s in (0.0, 0.5, 1.7, 3.9):
+        inertia = factorize_ldlt(sp.csr_matrix(T - s * sp.eye(n))).inertia
+        assert inertia is not None
+        below = int(np.count_nonzero(lam < s))
+        assert (inertia.negative, inertia.zero, inertia.positive) == (below, 0, n - below)

@@ -44,6 +44,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from spaceframe.assembly import member_dofs
+from spaceframe.solvers import SingularFactor, factorize_ldlt
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
@@ -52,35 +53,19 @@ __all__ = ["Bars", "State", "Tangent"]
 
 
 class Tangent:
-    """A factorised tangent stiffness with its negative-pivot count."""
+    """A factorised tangent stiffness with its negative-pivot count (-1: unknown)."""
 
     def __init__(self, K: sp.csr_matrix) -> None:
-        import scipy.sparse.linalg as spla
-
-        Kc = sp.csc_matrix(K)
-        self.negative = -1
         try:
-            # Diagonal pivots in a symmetric ordering: an LDL^T in LU clothing,
-            # whose pivots give the inertia (module notes).
-            lu = spla.splu(
-                Kc,
-                permc_spec="MMD_AT_PLUS_A",
-                diag_pivot_thresh=0.0,
-                options={"SymmetricMode": True},
-            )
-        except RuntimeError:
-            lu = None
-        if lu is not None and np.array_equal(lu.perm_r, lu.perm_c):
-            d = lu.U.diagonal()
-            if np.all(np.isfinite(d)) and np.all(d != 0):
-                self.negative = int(np.count_nonzero(d < 0))
-        if lu is None:
-            # Partial pivoting: a sound solve, but the inertia is unknown.
-            lu = spla.splu(Kc)  # raises RuntimeError when exactly singular
-        self._lu = lu
+            self._factor = factorize_ldlt(K)
+        except SingularFactor as exc:
+            raise RuntimeError(str(exc)) from exc
+        inertia = self._factor.inertia
+        self.negative = inertia.negative if inertia is not None and inertia.zero == 0 else -1
 
     def solve(self, rhs: np.ndarray) -> np.ndarray:
-        return np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
+        """Solve K x = rhs for a (m,) or (m, k) right-hand side."""
+        return self._factor.solve(rhs)
 
 
 @dataclass

@@ -28,7 +28,16 @@ from scipy.sparse.linalg import ArpackError, ArpackNoConvergence, LinearOperator
 
 from spaceframe.analysis.stability import describe_dofs, mechanism_modes
 from spaceframe.errors import MechanismError, ModelError, SolverError
-from spaceframe.solvers import Factor, SingularFactor, factorize
+from spaceframe.solvers import Factor, SingularFactor, factorize, shift_invert
+from spaceframe.tolerances import (
+    BUCKLING_SHIFT_FRACTION,
+    BUCKLING_SHIFT_TRIES,
+    DENSE_EIGEN_LIMIT,
+    EIGEN_ESTIMATE_TOLERANCE,
+    EIGEN_RESIDUAL,
+    SHIFTED_LANCZOS_TOLERANCE,
+    ZERO_EIGENVALUE,
+)
 
 __all__ = [
     "DENSE_EIGEN_LIMIT",
@@ -39,25 +48,6 @@ __all__ = [
     "mode_count",
     "positive_definite",
 ]
-
-#: Free degrees of freedom up to which the dense LAPACK solver is used.  A
-#: dense generalised eigenproblem of 600 unknowns takes ~0.1 s; above that
-#: the sparse iteration is faster and its memory stays linear.
-DENSE_EIGEN_LIMIT = 600
-
-#: An eigenvalue μ with |μ| at most this fraction of the spectral scale (see
-#: :func:`extreme_pairs`) is taken as zero: no buckling factor (or an
-#: infinite frequency) in that direction.  Round-off in μ stays near 1e-16
-#: of the scale; 1e-10 leaves six orders for ill conditioning.
-ZERO_EIGENVALUE = 1.0e-10
-
-#: Largest relative eigen-residual ||Bφ - μKφ|| / (max|μ| ||Kφ||) accepted.
-#: ARPACK converges to ~1e-12 here; 1e-6 still rejects a wrong pair.
-EIGEN_RESIDUAL = 1.0e-6
-
-#: Halvings of the buckling shift tried before falling back to a shift of zero.
-_SHIFT_TRIES = 6
-
 
 def factor_or_mechanism(K: sp.spmatrix, free: np.ndarray, backend: str, what: str) -> Factor:
     """Factorise K, or raise MechanismError naming the nodes of its zero-energy modes."""
@@ -192,19 +182,9 @@ def extreme_pairs(
 
 
 def positive_definite(factor: Factor) -> bool:
-    """Whether a factorised symmetric matrix is positive definite (Sylvester's law).
-
-    PARDISO is run for symmetric positive definite matrices and refuses any
-    other.  SuperLU runs in symmetric mode with diagonal pivots, so the signs
-    of U's diagonal are those of an LDLᵀ factorisation: its inertia.  (Read
-    from the factor object until spaceframe.solvers reports inertia itself.)
-    """
-    if factor.name == "pardiso":
-        return True
-    lu = getattr(factor, "_lu", None)
-    if lu is None or not np.array_equal(lu.perm_r, lu.perm_c):
-        return False
-    return bool(np.all(lu.U.diagonal() > 0))
+    """Whether a factorised symmetric matrix is positive definite (its inertia)."""
+    inertia = getattr(factor, "inertia", None)
+    return bool(inertia is not None and inertia.positive_definite)
 
 
 def lowest_positive_factors(
@@ -231,28 +211,27 @@ def lowest_positive_factors(
     if m <= DENSE_EIGEN_LIMIT or k >= m - 1:
         mu, V = extreme_pairs(K, factor, G, k, "SA", what)
         return -1.0 / mu, V
-    mu1, _ = extreme_pairs(K, factor, G, 1, "SA", what, tol=1e-2, check=False)
+    mu1, _ = extreme_pairs(K, factor, G, 1, "SA", what, tol=EIGEN_ESTIMATE_TOLERANCE,
+                            check=False)
     if mu1.size == 0:
         return np.zeros(0), np.zeros((m, 0))
-    sigma = 0.9 * (-1.0 / float(mu1[0]))
-    shifted: Factor | None = None
-    for _ in range(_SHIFT_TRIES):
+    sigma = BUCKLING_SHIFT_FRACTION * (-1.0 / float(mu1[0]))
+    op: LinearOperator | None = None
+    for _ in range(BUCKLING_SHIFT_TRIES):
         try:
-            trial = factorize(K + sigma * G, backend)
-        except SingularFactor:
-            trial = None
-        if trial is not None and positive_definite(trial):
-            shifted = trial
+            op = shift_invert(K, -G, sigma, backend)
             break
-        sigma *= 0.5
-    if shifted is None:
+        except SingularFactor:
+            sigma *= 0.5
+    if op is None:
         # No safe shift found: Lanczos about zero (slower, same answer).
         mu, V = extreme_pairs(K, factor, G, k, "SA", what)
         return -1.0 / mu, V
-    op = LinearOperator((m, m), matvec=shifted.solve, dtype=float)
+    shifted_op = op
     lam, V = _arpack(what, k, lambda: eigsh(K, k=k, M=-G, sigma=sigma, mode="buckling",
-                                            OPinv=op, which="LM", v0=_start_vector(m),
-                                            tol=1e-10, ncv=min(m, max(2 * k + 1, 20))))
+                                            OPinv=shifted_op, which="LM",
+                                            v0=_start_vector(m), tol=SHIFTED_LANCZOS_TOLERANCE,
+                                            ncv=min(m, max(2 * k + 1, 20))))
     if not np.all(np.isfinite(lam)):
         raise SolverError(f"{what}: the eigen solver returned non-finite values")
     # Back to μ = -1/λ, so that "infinite" factors (G φ = 0) are judged as
