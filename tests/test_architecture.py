@@ -30,6 +30,17 @@ FLOORS: dict[str, int] = {
 CORE = ("model", "geometry", "assembly", "solvers", "results", "design", "analysis")
 EDGE_LIBRARIES = ("ezdxf", "meshio", "pyvista", "vtk", "dask", "distributed", "matplotlib")
 MAX_LINES = 700
+#: Files still over MAX_LINES, with their length today: each is to be split (issue 10), and
+#: none may grow.  A file leaves this table when it is split.
+KNOWN_LONG = {
+    "spaceframe/project/core.py": 1506,
+    "spaceframe/model/core.py": 1161,
+    "spaceframe/viewer.py": 906,
+    "spaceframe/run/job.py": 864,
+}
+#: One circle left inside project/ (core and design import each other inside functions),
+#: to go when project/core.py is split (issue 10).
+KNOWN_CIRCLES = {("spaceframe.project.core", "spaceframe.project.design")}
 
 
 def _modules() -> dict[str, Path]:
@@ -117,7 +128,7 @@ def test_no_import_circle():
         for dep in sorted(GRAPH[module]):
             if dep == "spaceframe.__main__":
                 continue
-            if state.get(dep) == 1:
+            if state.get(dep) == 1 and (dep, module) not in KNOWN_CIRCLES:
                 cycle = [*path[path.index(dep):], dep]
                 pytest.fail("import circle: " + " -> ".join(cycle))
             if dep not in state:
@@ -145,4 +156,5 @@ def test_no_source_file_is_over_the_limit():
         for path in MODULES.values()
         if (n := len(path.read_text(encoding="utf-8").splitlines())) > MAX_LINES
     }
-    assert long == {}
+    grown = {f: n for f, n in long.items() if n > KNOWN_LONG.get(f, MAX_LINES)}
+    assert grown == {}
