@@ -11,6 +11,7 @@ import pytest
 from conftest import AREA, H_APEX, L_LEG, E, W, loaded_tripod
 
 import spaceframe as sf
+from spaceframe.errors import WriteError
 from spaceframe.io import tables
 from spaceframe.results.summary import summary
 
@@ -176,3 +177,43 @@ def test_stated_precision(tmp_path: Path) -> None:
     np.testing.assert_array_equal(n, res["pull"].axial_forces)
     with pytest.raises(sf.WriteError, match="digits=0"):
         tables.write(tmp_path / "bad", res, digits=0)
+
+
+def test_arrays_file_holds_every_result_at_full_precision(tmp_path: Path) -> None:
+    res = _mast_base().solve()
+    m = res.model
+    (path,) = tables.write_arrays(tmp_path, res, prefix="mast_")
+    assert path.name == "mast_results.npz"
+    with np.load(path) as z:  # allow_pickle is False by default: no object arrays inside
+        assert list(z["result_names"]) == list(res.keys())
+        assert list(z["result_kinds"]) == ["case", "case", "combination"]  # snow, wind, snow+wind
+        for i, r in enumerate(res.values()):
+            np.testing.assert_array_equal(z["axial_forces"][i], r.axial_forces)
+            np.testing.assert_array_equal(z["displacements"][i], r.displacements)
+            np.testing.assert_array_equal(z["reactions"][i], r.reactions)
+            np.testing.assert_array_equal(z["stress"][i], r.stress)
+        np.testing.assert_array_equal(z["nodes"], m.nodes)
+        np.testing.assert_array_equal(z["members"], m.members)
+        assert z["groups"][0] == "legs, main;north"
+        assert json.loads(str(z["units"]))["axial_forces"] == "N"
+    # Statics of the symmetric tripod (closed form, as in test_members_table): each leg
+    # carries W / (3 cos α) in compression under the snow case.
+    np.testing.assert_allclose(res["snow"].axial_forces, -W * L_LEG / (3 * H_APEX), rtol=1e-9)
+
+
+def test_arrays_file_refuses_bad_prefix_and_leaves_nothing(tmp_path: Path,
+                                                           results: sf.Results) -> None:
+    with pytest.raises(WriteError, match="prefix"):
+        tables.write_arrays(tmp_path, results, prefix="a/b_")
+    with pytest.raises(WriteError, match="no load cases"):
+        tables.write_arrays(tmp_path, sf.Results(results.model, {}))
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_text_columns_quote_each_value_once(tmp_path: Path) -> None:
+    m = _mast_base()
+    m.add_group('say "hi"', [1])
+    paths = tables.write(tmp_path, m.solve())
+    with paths[1].open(newline="", encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))
+    assert [r[3] for r in rows[1:]] == ["legs, main;north", 'legs, main;say "hi"', "legs, main"]
