@@ -260,8 +260,8 @@ def _layer_zero_note(where: str, raw: RawGeometry, unit: str) -> str:
     )
 
 
-def _file_units(doc: Drawing, where: str, units: str | None, raw: RawGeometry) -> Units:
-    code = doc.header.get("$INSUNITS", 0)
+def _file_units(code: int, where: str, units: str | None, raw: RawGeometry) -> Units:
+    """The drawing's unit from its ``$INSUNITS`` code, or from ``units=``."""
     header = units_from_insunits(code, where=where)
     if units is not None:
         name, scale = parse_units(units, where=where)
@@ -348,7 +348,7 @@ def _ignored_notes(where: str, ignored: dict[str, dict[str, Any]]) -> list[str]:
 
 
 def no_member_hint(
-    doc: Drawing, raw: RawGeometry, recovered: dict[str, Any] | None, collector: Any,
+    doc: Drawing | None, raw: RawGeometry, recovered: dict[str, Any] | None, collector: Any,
     edges_as_members: bool,
 ) -> str:
     """What to say when nothing became a member: damage, faces, filters, paper space."""
@@ -359,7 +359,7 @@ def no_member_hint(
         hints.append("the drawing has faces: read with edges_as_members=True")
     if collector.filtered:
         hints.append(f"layers filtered out: {', '.join(sorted(collector.filtered))}")
-    if not raw.segments.shape[0]:
+    if not raw.segments.shape[0] and doc is not None:
         paper = _paper_space_count(doc)
         if paper:
             hints.append(

@@ -47,6 +47,7 @@ from spaceframe.io._dxf_read import (
     no_member_hint,
     read_notes,
 )
+from spaceframe.io._dxf_stream import open_stream
 from spaceframe.io._options import layer_filter, read_settings
 from spaceframe.io._raw import require_members
 from spaceframe.model import Model
@@ -119,28 +120,61 @@ def read(
     where = settings.where
     keep_layer = layer_filter(where, layers, exclude_layers)
     with _ezdxf_log() as log:
-        doc, recovered = _open(settings.path)
-        try:
-            layer_names = {entry.dxf.name.lower(): entry.dxf.name for entry in doc.layers}
-        except _ENTITY_ERRORS:
-            layer_names = {}
-        collector = _Collector(where, keep_layer, layer_names)
-        collector.visit(doc.modelspace(), None, 0)
-        raw = collector.raw()
+        streamed = _read_streamed(settings.path, where, keep_layer)
+        if streamed is not None:
+            collector, raw, insunits = streamed
+            doc, recovered = None, None
+        else:
+            doc, recovered = _open(settings.path)
+            try:
+                layer_names = {entry.dxf.name.lower(): entry.dxf.name for entry in doc.layers}
+            except _ENTITY_ERRORS:
+                layer_names = {}
+            collector = _Collector(where, keep_layer, layer_names)
+            collector.visit(doc.modelspace(), None, 0)
+            raw = collector.raw()
+            insunits = int(doc.header.get("$INSUNITS", 0))
 
     meta, notes = read_notes(where, raw, recovered, log.messages, collector)
+    if streamed is not None:
+        meta["dxf:streamed"] = ("read entity by entity with ezdxf's iterdxf (a big drawing of "
+                                "model-space entities only); ezdxf's audit was not run")
     for note in notes:
         warnings.warn(note, SpaceframeWarning, stacklevel=2)
     hint = no_member_hint(doc, raw, recovered, collector, edges_as_members)
     # Nothing to read is the first thing to say, before any question of units.
     require_members(raw, where, edges_as_members, hint)
-    file_units = _file_units(doc, where, units, raw)
+    file_units = _file_units(insunits, where, units, raw)
     on_zero = _layer_zero_note(where, raw, file_units.name)
     if on_zero:
         warnings.warn(on_zero, SpaceframeWarning, stacklevel=2)
     model = build_model(raw, settings, units=file_units, meta=meta, no_members_hint=hint)
     _supports_from_markers(model, where, tolerance)
     return model
+
+
+def _read_streamed(path: Path, where: str, keep_layer: Any) -> Any:
+    """(collector, raw, $INSUNITS) of a drawing streamed with iterdxf, or None.
+
+    None when the drawing is not one to stream (see :mod:`._dxf_stream`), when
+    streaming fails part-way (the whole-file reader then reads it again, with
+    ezdxf's recover), and when it found no members (the whole-file reader then
+    says why, paper space included).
+    """
+    stream = open_stream(path)
+    if stream is None:
+        return None
+    try:
+        collector = _Collector(where, keep_layer, stream.layer_names)
+        collector.visit(stream.entities, None, 0)
+        raw = collector.raw()
+    except Exception:
+        return None
+    finally:
+        stream.close()
+    if not raw.segments.shape[0]:
+        return None
+    return collector, raw, stream.insunits
 
 
 # ---------------------------------------------------------------------------

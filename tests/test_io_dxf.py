@@ -32,6 +32,19 @@ pytestmark = pytest.mark.filterwarnings(
 # ---------------------------------------------------------------------------
 
 
+@pytest.fixture(autouse=True, params=["whole", "streamed"])
+def reader(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> str:
+    """Every test twice: drawings read whole, and streamed whenever they can be.
+
+    Streaming (ezdxf's iterdxf) is for big drawings; a size threshold of 0 makes
+    every drawing of model-space entities streamed, so each reading test here
+    checks that both readers give the same model.
+    """
+    if request.param == "streamed":
+        monkeypatch.setattr("spaceframe.io._dxf_stream.STREAM_MIN_BYTES", 0)
+    return str(request.param)
+
+
 @pytest.fixture
 def new_doc() -> Callable[..., Any]:
     """Factory of fresh drawings, $INSUNITS metres unless told."""
