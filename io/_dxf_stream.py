@@ -121,7 +121,7 @@ def open_stream(path: Path, min_bytes: int | None = None) -> Streamed | None:
         if "INSERT" in kinds or kinds - set(iterdxf.SUPPORTED_TYPES) - _PARTS:
             doc.close()
             return None
-        return Streamed(doc.modelspace(), _insunits(doc), _layer_names(doc), doc)
+        return Streamed(iter(doc.modelspace()), _insunits(doc), _layer_names(doc), doc)
     except Exception:
         doc.close()
         return None

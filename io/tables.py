@@ -298,7 +298,7 @@ def write_arrays(
                          "to write")
     model = results.model
     items = list(results.values())
-    arrays: dict[str, np.ndarray] = {
+    arrays: dict[str, Any] = {
         "nodes": np.asarray(model.nodes, dtype=np.float64),
         "members": np.asarray(model.members, dtype=np.int64),
         "groups": np.asarray(member_group_labels(model), dtype=str),
