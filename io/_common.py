@@ -265,6 +265,8 @@ def read_report(model: Model) -> str:
     ignored = meta.get("io:ignored") or {}
     if ignored:
         lines.append("  ignored: " + describe_ignored(ignored, ignored))
+    if meta.get("dxf:streamed"):
+        lines.append(f"  {meta['dxf:streamed']}")
     recover = meta.get("dxf:recover")
     if recover:
         lines.append(

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from _frame_keys import member_keys
 
-from spaceframe.io import _dxf_stream
+from spaceframe.io import _dxf_stream, read_report
 from spaceframe.io import dxf as sfdxf
 
 ezdxf = pytest.importorskip("ezdxf")
@@ -65,6 +65,8 @@ def test_streamed_model_is_the_whole_file_model(tmp_path: Path,
     monkeypatch.setattr(_dxf_stream, "STREAM_MIN_BYTES", 0)
     streamed, streamed_notes = _read(path)
     assert "iterdxf" in streamed.meta["dxf:streamed"]
+    assert "ezdxf's audit was not run" in read_report(streamed)
+    assert "iterdxf" not in read_report(whole)
     # Counted from the drawing (a line drawn through a joint is split there): 5 lines across
     # in 3 pieces and 4 along in 4, 12 diagonals, 3 polyline segments.
     assert whole.n_members == 31 + 12 + 3
