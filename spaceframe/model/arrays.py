@@ -111,6 +111,29 @@ def _grow(a: np.ndarray, n: int) -> np.ndarray:
     return out
 
 
+def _ids(values: Any, what: str, noun: str, count: int) -> np.ndarray:
+    """``values`` as int64 ids of existing ``noun``s (0..count-1), or ModelError naming ``what``."""
+    try:
+        ids = np.atleast_1d(np.asarray(values))
+    except (ValueError, TypeError) as exc:
+        raise ModelError(f"{what}: ids must be a 1-D list of integers ({exc})") from None
+    if ids.ndim != 1:
+        raise ModelError(f"{what}: {noun} ids must be a 1-D list, got shape {ids.shape}")
+    if ids.size and not np.issubdtype(ids.dtype, np.integer):
+        raise ModelError(
+            f"{what}: {noun} ids must be integers, got {ids.dtype} ({ids[:3].tolist()})"
+        )
+    ids = ids.astype(np.int64)
+    bad = np.flatnonzero((ids < 0) | (ids >= count))
+    if bad.size:
+        k = int(bad[0])
+        raise ModelError(
+            f"{what}: entry {k} refers to {noun} {int(ids[k])}, which does not exist "
+            f"(the model has {noun}s 0..{count - 1})"
+        )
+    return ids
+
+
 class ModelArrays:
     """The arrays of a Model, their derived geometry and the checks of ids and values."""
 
@@ -272,44 +295,10 @@ class ModelArrays:
 
     # ------------------------------------------------------------ validation
     def _node_ids(self, node_ids: Any, what: str) -> np.ndarray:
-        try:
-            ids = np.atleast_1d(np.asarray(node_ids))
-        except (ValueError, TypeError) as exc:
-            raise ModelError(f"{what}: ids must be a 1-D list of integers ({exc})") from None
-        if ids.ndim != 1:
-            raise ModelError(f"{what}: node ids must be a 1-D list, got shape {ids.shape}")
-        if ids.size and not np.issubdtype(ids.dtype, np.integer):
-            raise ModelError(
-                f"{what}: node ids must be integers, got {ids.dtype} ({ids[:3].tolist()})"
-            )
-        ids = ids.astype(np.int64)
-        bad = np.flatnonzero((ids < 0) | (ids >= self.n_nodes))
-        if bad.size:
-            k = int(bad[0])
-            raise ModelError(
-                f"{what}: entry {k} refers to node {int(ids[k])}, which does not exist "
-                f"(the model has nodes 0..{self.n_nodes - 1})"
-            )
-        return ids
+        return _ids(node_ids, what, "node", self.n_nodes)
 
     def _member_ids(self, member_ids: Any, what: str) -> np.ndarray:
-        try:
-            ids = np.atleast_1d(np.asarray(member_ids))
-        except (ValueError, TypeError) as exc:
-            raise ModelError(f"{what}: ids must be a 1-D list of integers ({exc})") from None
-        if ids.ndim != 1:
-            raise ModelError(f"{what}: member ids must be a 1-D list, got shape {ids.shape}")
-        if ids.size and not np.issubdtype(ids.dtype, np.integer):
-            raise ModelError(f"{what}: member ids must be integers, got {ids.dtype}")
-        ids = ids.astype(np.int64)
-        bad = np.flatnonzero((ids < 0) | (ids >= self.n_members))
-        if bad.size:
-            k = int(bad[0])
-            raise ModelError(
-                f"{what}: entry {k} refers to member {int(ids[k])}, which does not exist "
-                f"(the model has members 0..{self.n_members - 1})"
-            )
-        return ids
+        return _ids(member_ids, what, "member", self.n_members)
 
     @staticmethod
     def _per_item(value: Any, k: int, name: str, *, positive: bool = False) -> np.ndarray:
