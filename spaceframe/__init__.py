@@ -121,18 +121,8 @@ def solve(model: Model, solver: str = "auto") -> Results:
     Linear statics with combinations by superposition; a model with
     tension-only members or pretension is solved load set by load set
     (:mod:`spaceframe.analysis.tension_only`), since superposition does not
-    hold there.
-
-    Parameters
-    ----------
-    model : Model
-    solver : {"auto", "scipy", "pardiso"}
-        Sparse direct solver back-end; "auto" prefers PARDISO when installed.
-
-    Returns
-    -------
-    Results
-        Mapping from case or combination name to its result.
+    hold there.  ``solver``, the returned :class:`Results` and the errors
+    raised are those of :meth:`Model.solve`.
     """
     from spaceframe.analysis.static import solve_static
     from spaceframe.analysis.tension_only import needs_load_sets, solve_tension_only

@@ -42,6 +42,7 @@ few lines.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -186,9 +187,8 @@ def panel_vector_areas(
 
     Parameters
     ----------
-    nodes : (n, 3) float
-    panel_nodes : (s,) int
-    panel_offsets : (k + 1,) int
+    nodes, panel_nodes, panel_offsets : (n, 3) float, (s,) int, (k + 1,) int
+        Node coordinates (m) and the panels, as in the module notes.
 
     Returns
     -------
@@ -199,6 +199,28 @@ def panel_vector_areas(
     return np.stack([np.bincount(owner, vec[:, j], minlength=sizes.size) for j in range(3)], 1)
 
 
+def _panel_load(
+    nodes: Any,
+    panel_nodes: Any,
+    panel_offsets: Any,
+    value: Any,
+    name: str,
+    force: Callable[[np.ndarray, np.ndarray], np.ndarray],
+) -> np.ndarray:
+    """Nodal forces of a per-panel ``value`` (a scalar or one per panel).
+
+    ``force(vec, v)`` gives the (t, 3) force of each fan triangle from its
+    vector area and its panel's value; panels of zero area may not be loaded.
+    """
+    nodes = np.asarray(nodes, dtype=float)
+    _check_panels(nodes, panel_nodes, panel_offsets)
+    owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
+    v = _per_panel(value, sizes.size, name)
+    _refuse_zero_area(nodes, panel_nodes, owner, vec, sizes, v != 0)
+    return _spread(nodes.shape[0], owner, a, b, sizes, force(vec, v[owner]),
+                   np.asarray(panel_nodes, dtype=np.int64))
+
+
 def panel_normal_loads(
     nodes: np.ndarray, panel_nodes: np.ndarray, panel_offsets: np.ndarray, pressure: Any
 ) -> np.ndarray:
@@ -206,10 +228,8 @@ def panel_normal_loads(
 
     Parameters
     ----------
-    nodes : (n, 3) float
-        Node coordinates, m.
-    panel_nodes : (s,) int
-    panel_offsets : (k + 1,) int
+    nodes, panel_nodes, panel_offsets : (n, 3) float, (s,) int, (k + 1,) int
+        Node coordinates (m) and the panels, as in the module notes.
     pressure : float or (k,) float
         Pa; positive pushes on the face the normal points out of (force
         against the normal), negative is suction.  See the module notes.
@@ -219,31 +239,24 @@ def panel_normal_loads(
     forces : (n, 3) float
         N.  They sum to ``-sum_k p_k a_k``.
     """
-    nodes = np.asarray(nodes, dtype=float)
-    _check_panels(nodes, panel_nodes, panel_offsets)
-    owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
-    p = _per_panel(pressure, sizes.size, "pressure")
-    _refuse_zero_area(nodes, panel_nodes, owner, vec, sizes, p != 0)
-    return _spread(nodes.shape[0], owner, a, b, sizes, -p[owner, None] * vec,
-                   np.asarray(panel_nodes, dtype=np.int64))
+    return _panel_load(nodes, panel_nodes, panel_offsets, pressure, "pressure",
+                       lambda vec, p: -p[:, None] * vec)
 
 
 def _vertical_load(
     nodes: Any, panel_nodes: Any, panel_offsets: Any, load: Any, *, plan: bool
 ) -> np.ndarray:
     """Load along -z per plan area (``plan``) or per true surface area, to the corners."""
-    nodes = np.asarray(nodes, dtype=float)
-    _check_panels(nodes, panel_nodes, panel_offsets)
-    owner, a, b, vec, sizes = _fan(nodes, panel_nodes, panel_offsets)
-    q = _per_panel(load, sizes.size, "load")
-    _refuse_zero_area(nodes, panel_nodes, owner, vec, sizes, q != 0)
-    # Each fan triangle's vector area: its z component is its plan area, its
-    # length its true area.
-    area = np.abs(vec[:, 2]) if plan else np.linalg.norm(vec, axis=1)
-    force = np.zeros_like(vec)
-    force[:, 2] = -q[owner] * area
-    return _spread(nodes.shape[0], owner, a, b, sizes, force,
-                   np.asarray(panel_nodes, dtype=np.int64))
+
+    def force(vec: np.ndarray, q: np.ndarray) -> np.ndarray:
+        # Each fan triangle's vector area: its z component is its plan area,
+        # its length its true area.
+        area = np.abs(vec[:, 2]) if plan else np.linalg.norm(vec, axis=1)
+        out = np.zeros_like(vec)
+        out[:, 2] = -q * area
+        return out
+
+    return _panel_load(nodes, panel_nodes, panel_offsets, load, "load", force)
 
 
 def panel_plan_loads(
@@ -256,9 +269,8 @@ def panel_plan_loads(
 
     Parameters
     ----------
-    nodes : (n, 3) float
-    panel_nodes : (s,) int
-    panel_offsets : (k + 1,) int
+    nodes, panel_nodes, panel_offsets : (n, 3) float, (s,) int, (k + 1,) int
+        Node coordinates (m) and the panels, as in the module notes.
     load : float or (k,) float
         Pa of plan area; positive acts downwards.
 
@@ -275,18 +287,9 @@ def panel_surface_loads(
 ) -> np.ndarray:
     """Nodal forces of a load per unit surface area acting along -z (e.g. cladding weight).
 
-    Parameters
-    ----------
-    nodes : (n, 3) float
-    panel_nodes : (s,) int
-    panel_offsets : (k + 1,) int
-    load : float or (k,) float
-        Pa of true (sloping) surface area; positive acts downwards.
-
-    Returns
-    -------
-    forces : (n, 3) float
-        N; only the z components are non-zero.
+    As :func:`panel_plan_loads`, but ``load`` is in Pa of true (sloping)
+    surface area (positive acts downwards), so a vertical panel carries its
+    share too.
     """
     return _vertical_load(nodes, panel_nodes, panel_offsets, load, plan=False)
 
