@@ -40,6 +40,7 @@ import numpy as np
 
 from spaceframe.design.combinations import Action, generate_combinations
 from spaceframe.errors import ModelError
+from spaceframe.project.schema import _MISSING
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
@@ -144,14 +145,8 @@ def parse_design(ctx: Any, design: Any, actions: Any, selector: Any) -> DesignSp
             except ModelError as exc:
                 ctx.fail(a.where, a.data, str(exc))
     if spec.generate is not None and not spec.actions:
-        ctx.fail("design.combinations", _missing(), "needs [actions.CASE] tables to combine")
+        ctx.fail("design.combinations", _MISSING, "needs [actions.CASE] tables to combine")
     return spec
-
-
-def _missing() -> Any:
-    from spaceframe.project.core import _MISSING
-
-    return _MISSING
 
 
 def _parse_deflection(ctx: Any, t: Any, selector: Any) -> DeflectionSpec | None:
