@@ -29,6 +29,11 @@ from spaceframe.project.spec import _Case, _Spec
 #: by it cannot take in a neighbour that lies outside by a member length.
 _TOLERANCE_FRACTION = 0.5
 
+#: Evaluates a selection on the model being built: (selector, target, key path) -> ids.
+_Pick = Callable[[sel.Selector, sel.Target, str], np.ndarray]
+#: Raises a ProjectError naming the file and the key path: (key path, error).
+_Fail = Callable[[str, Exception], NoReturn]
+
 
 def _build(spec: _Spec, cache: bool = False) -> tuple[Model, dict[str, list[str]], list[str]]:
     """The model, the envelopes (with any generated ones) and every warning, in that order."""
@@ -60,40 +65,17 @@ def _build(spec: _Spec, cache: bool = False) -> tuple[Model, dict[str, list[str]
 
     _assign(spec, model, pick, notes)
 
-    for s in spec.supports:
-        ids = pick(s.nodes, "nodes", s.where + ".nodes")
-        try:
-            if s.restrain is not None:
-                model.add_support(ids, *s.restrain)
-            if s.spring is not None:
-                model.add_spring(ids, *(float(v) for v in s.spring))
-        except ModelError as exc:
-            fail(s.where, exc)
-
+    _build_supports(spec, model, pick, fail)
     for case in spec.cases.values():
         _build_case(case, model, pick, fail, notes)
-
     for cname, factors in spec.combinations.items():
         try:
             model.add_combination(cname, factors)
         except ModelError as exc:
             fail(_key("combinations", cname), exc)
-
     envelopes = dict(spec.envelopes)
     if spec.design is not None:
-        from spaceframe.project.design import apply_design
-
-        try:
-            generated = apply_design(spec.design, model, name)
-        except ModelError as exc:
-            raise ProjectError(str(exc)) from None
-        for label in ("ULS", "SLS"):
-            members = [c for c in generated if c.startswith(label)]
-            if members and f"{label} envelope" not in envelopes:
-                envelopes[f"{label} envelope"] = members
-        d = spec.design.deflection
-        if d is not None and d.nodes is not None:
-            d.node_ids = pick(d.nodes, "nodes", d.nodes_where)
+        envelopes = _build_design(spec, model, pick, envelopes)
 
     model.meta["project:file"] = str(spec.path)
     # The model file's length unit: reports and the results drawing use it.
@@ -106,6 +88,38 @@ def _build(spec: _Spec, cache: bool = False) -> tuple[Model, dict[str, list[str]
     for text in own:
         warnings.warn(text, SpaceframeWarning, stacklevel=3)
     return model, envelopes, reader_notes + own
+
+
+def _build_supports(spec: _Spec, model: Model, pick: _Pick, fail: _Fail) -> None:
+    for s in spec.supports:
+        ids = pick(s.nodes, "nodes", s.where + ".nodes")
+        try:
+            if s.restrain is not None:
+                model.add_support(ids, *s.restrain)
+            if s.spring is not None:
+                model.add_spring(ids, *(float(v) for v in s.spring))
+        except ModelError as exc:
+            fail(s.where, exc)
+
+
+def _build_design(spec: _Spec, model: Model, pick: _Pick,
+                  envelopes: dict[str, list[str]]) -> dict[str, list[str]]:
+    """Apply [design] and [actions]; the envelopes, with ULS and SLS ones of the generated."""
+    from spaceframe.project.design import apply_design
+
+    try:
+        generated = apply_design(spec.design, model, spec.path.name)
+    except ModelError as exc:
+        raise ProjectError(str(exc)) from None
+    envelopes = dict(envelopes)
+    for label in ("ULS", "SLS"):
+        members = [c for c in generated if c.startswith(label)]
+        if members and f"{label} envelope" not in envelopes:
+            envelopes[f"{label} envelope"] = members
+    d = spec.design.deflection
+    if d is not None and d.nodes is not None:
+        d.node_ids = pick(d.nodes, "nodes", d.nodes_where)
+    return envelopes
 
 
 def _check_tolerance_scale(spec: _Spec, model: Model) -> None:
@@ -135,8 +149,7 @@ def _check_tolerance_scale(spec: _Spec, model: Model) -> None:
     )
 
 
-def _read_geometry(spec: _Spec, fail: Callable[[str, Exception], NoReturn],
-                   cache: bool = False) -> Model:
+def _read_geometry(spec: _Spec, fail: _Fail, cache: bool = False) -> Model:
     geo = spec.geometry
     if geo.file is not None:
         model = _read_file(spec, fail, cache)
@@ -166,7 +179,7 @@ def _read_geometry(spec: _Spec, fail: Callable[[str, Exception], NoReturn],
     return model
 
 
-def _read_file(spec: _Spec, fail: Callable[[str, Exception], NoReturn], cache: bool) -> Model:
+def _read_file(spec: _Spec, fail: _Fail, cache: bool) -> Model:
     """Read geometry.file, through the geometry cache when ``cache`` (warnings replayed)."""
     from spaceframe.project import cache as geometry_cache
 
@@ -203,9 +216,7 @@ def _read_file(spec: _Spec, fail: Callable[[str, Exception], NoReturn], cache: b
     return model
 
 
-def _assign(spec: _Spec, model: Model,
-            pick: Callable[[sel.Selector, sel.Target, str], np.ndarray],
-            warnings_out: list[str]) -> None:
+def _assign(spec: _Spec, model: Model, pick: _Pick, warnings_out: list[str]) -> None:
     b = model.n_members
     sec_names = list(spec.sections)
     mat_table = {**PRESETS, **spec.materials}
@@ -256,9 +267,8 @@ def _assign(spec: _Spec, model: Model,
     model.meta["project:material_index"] = mat_of
 
 
-def _build_case(case: _Case, model: Model,
-                pick: Callable[[sel.Selector, sel.Target, str], np.ndarray],
-                fail: Callable[[str, Exception], NoReturn], warnings_out: list[str]) -> None:
+def _build_case(case: _Case, model: Model, pick: _Pick, fail: _Fail,
+                warnings_out: list[str]) -> None:
     name = case.name
     try:
         model.case(name)

@@ -1,4 +1,8 @@
-"""Load cases, combinations and envelopes of the model file ([loads], [combinations], [envelopes])."""
+"""Load cases, combinations and envelopes of the model file.
+
+The ``[loads]``, ``[combinations]`` and ``[envelopes]`` tables, read after the
+geometry, sections and selections (:mod:`~spaceframe.project.parse`).
+"""
 
 from __future__ import annotations
 
@@ -8,7 +12,7 @@ from typing import Any
 import numpy as np
 
 from spaceframe.model import STANDARD_GRAVITY
-from spaceframe.project.schema import _Ctx, _key, _plain_number, _quantity, _Table
+from spaceframe.project.schema import _Ctx, _key, _named_tables, _plain_number, _quantity, _Table
 from spaceframe.project.selectors import _selector
 from spaceframe.project.spec import _Area, _Case, _MemberLoad, _Nodal, _SelfWeight, _Settlement
 
@@ -23,90 +27,103 @@ def _items(ctx: _Ctx, t: _Table, key: str) -> list[_Table]:
 
 
 def _parse_loads(ctx: _Ctx, t: _Table | None) -> dict[str, _Case]:
-    cases: dict[str, _Case] = {}
-    if t is None:
-        return cases
-    for name in t.data:
-        c = t.sub(name)
-        case = _Case(name, c.where)
-        sw = c.raw("self_weight", None)
-        if sw is not None:
-            where = c.path("self_weight")
-            if sw is True:
-                case.self_weight = _SelfWeight(where, 1.0, STANDARD_GRAVITY, None)
-            elif sw is False:
-                pass
-            elif isinstance(sw, dict):
-                s = _Table(ctx, sw, where)
-                s.expect({"factor", "g", "members"})
-                factor = s.number("factor", 1.0)
-                if factor <= 0:
-                    ctx.fail(s.path("factor"), sw["factor"], "must be positive")
-                g = s.quantity("g", "acceleration", STANDARD_GRAVITY)
-                if not g > 0:
-                    ctx.fail(s.path("g"), sw["g"], "must be positive: self-weight acts along -z "
-                             "by definition (use nodal loads for another direction)")
-                members = (_selector(ctx, s.path("members"), s.raw("members"))
-                           if s.has("members") else None)
-                s.done()
-                case.self_weight = _SelfWeight(where, factor, g, members)
-            else:
-                ctx.fail(where, sw, "expected true, false or { factor = ..., members = ... }")
-        for n in _items(ctx, c, "nodal"):
-            n.expect({"nodes", "force", "total"})
-            nodes = _selector(ctx, n.path("nodes"), n.raw("nodes"))
-            has_f, has_t = n.has("force"), n.has("total")
-            if has_f == has_t:
-                ctx.fail(n.where, n.data, "give exactly one of force (applied at every node) "
-                         "or total (shared equally by the nodes)")
-            vec = n.vector("force" if has_f else "total", "force")
-            n.done()
-            case.nodal.append(_Nodal(n.where, nodes, vec, total=has_t))
-        for a in _items(ctx, c, "area"):
-            a.expect({"kind", "value", "panels", "nodes", "outline"})
-            kind = a.text("kind", choices=("pressure", "plan", "surface"))
-            value = a.quantity("value", "pressure")
-            has_p, has_n = a.has("panels"), a.has("nodes")
-            if has_p == has_n:
-                ctx.fail(a.where, a.data, "give exactly one of panels (load panels) or nodes "
-                         "(plan tributary areas of those nodes)")
-            panels = _selector(ctx, a.path("panels"), a.raw("panels")) if has_p else None
-            nodes_sel = _selector(ctx, a.path("nodes"), a.raw("nodes")) if has_n else None
-            if has_n and kind != "plan":
-                ctx.fail(a.path("kind"), kind, "loads on nodes by tributary area are per plan "
-                         "area: use kind = \"plan\", or load panels")
-            outline = None
-            if a.has("outline"):
-                if not has_n:
-                    ctx.fail(a.path("outline"), a.data["outline"], "only used with nodes")
-                outline = _outline(ctx, a.path("outline"), a.raw("outline"))
-            a.done()
-            case.area.append(_Area(a.where, kind, value, panels, nodes_sel, outline))
-        for m in _items(ctx, c, "temperature"):
-            m.expect({"members", "change"})
-            members = _selector(ctx, m.path("members"), m.raw("members"))
-            change = m.quantity("change", "temperature")
-            m.done()
-            case.temperature.append(_MemberLoad(m.where, members, change))
-        for m in _items(ctx, c, "lack_of_fit"):
-            m.expect({"members", "strain", "excess_length"})
-            members = _selector(ctx, m.path("members"), m.raw("members"))
-            has_s, has_l = m.has("strain"), m.has("excess_length")
-            if has_s == has_l:
-                ctx.fail(m.where, m.data, "give exactly one of strain or excess_length")
-            value = (m.quantity("strain", "strain") if has_s
-                     else m.quantity("excess_length", "length"))
-            m.done()
-            case.lack_of_fit.append(_MemberLoad(m.where, members, value, per_length=has_l))
-        for s_t in _items(ctx, c, "settlement"):
-            s_t.expect({"nodes", "displacement"})
-            nodes = _selector(ctx, s_t.path("nodes"), s_t.raw("nodes"))
-            disp = s_t.vector("displacement", "length")
-            s_t.done()
-            case.settlement.append(_Settlement(s_t.where, nodes, disp))
-        c.done(_CASE_KEYS)
-        cases[name] = case
-    return cases
+    return _named_tables(t, _parse_case)
+
+
+def _parse_case(ctx: _Ctx, name: str, c: _Table) -> _Case:
+    case = _Case(name, c.where)
+    case.self_weight = _self_weight(ctx, c)
+    case.nodal = [_nodal(ctx, n) for n in _items(ctx, c, "nodal")]
+    case.area = [_area(ctx, a) for a in _items(ctx, c, "area")]
+    case.temperature = [_temperature(ctx, m) for m in _items(ctx, c, "temperature")]
+    case.lack_of_fit = [_lack_of_fit(ctx, m) for m in _items(ctx, c, "lack_of_fit")]
+    case.settlement = [_settlement(ctx, s) for s in _items(ctx, c, "settlement")]
+    c.done(_CASE_KEYS)
+    return case
+
+
+def _self_weight(ctx: _Ctx, c: _Table) -> _SelfWeight | None:
+    sw = c.raw("self_weight", None)
+    if sw is None or sw is False:
+        return None
+    where = c.path("self_weight")
+    if sw is True:
+        return _SelfWeight(where, 1.0, STANDARD_GRAVITY, None)
+    if not isinstance(sw, dict):
+        ctx.fail(where, sw, "expected true, false or { factor = ..., members = ... }")
+    s = _Table(ctx, sw, where)
+    s.expect({"factor", "g", "members"})
+    factor = s.number("factor", 1.0)
+    if factor <= 0:
+        ctx.fail(s.path("factor"), sw["factor"], "must be positive")
+    g = s.quantity("g", "acceleration", STANDARD_GRAVITY)
+    if not g > 0:
+        ctx.fail(s.path("g"), sw["g"], "must be positive: self-weight acts along -z "
+                 "by definition (use nodal loads for another direction)")
+    members = _selector(ctx, s.path("members"), s.raw("members")) if s.has("members") else None
+    s.done()
+    return _SelfWeight(where, factor, g, members)
+
+
+def _nodal(ctx: _Ctx, n: _Table) -> _Nodal:
+    n.expect({"nodes", "force", "total"})
+    nodes = _selector(ctx, n.path("nodes"), n.raw("nodes"))
+    has_f, has_t = n.has("force"), n.has("total")
+    if has_f == has_t:
+        ctx.fail(n.where, n.data, "give exactly one of force (applied at every node) "
+                 "or total (shared equally by the nodes)")
+    vec = n.vector("force" if has_f else "total", "force")
+    n.done()
+    return _Nodal(n.where, nodes, vec, total=has_t)
+
+
+def _area(ctx: _Ctx, a: _Table) -> _Area:
+    a.expect({"kind", "value", "panels", "nodes", "outline"})
+    kind = a.text("kind", choices=("pressure", "plan", "surface"))
+    value = a.quantity("value", "pressure")
+    has_p, has_n = a.has("panels"), a.has("nodes")
+    if has_p == has_n:
+        ctx.fail(a.where, a.data, "give exactly one of panels (load panels) or nodes "
+                 "(plan tributary areas of those nodes)")
+    panels = _selector(ctx, a.path("panels"), a.raw("panels")) if has_p else None
+    nodes_sel = _selector(ctx, a.path("nodes"), a.raw("nodes")) if has_n else None
+    if has_n and kind != "plan":
+        ctx.fail(a.path("kind"), kind, "loads on nodes by tributary area are per plan "
+                 "area: use kind = \"plan\", or load panels")
+    outline = None
+    if a.has("outline"):
+        if not has_n:
+            ctx.fail(a.path("outline"), a.data["outline"], "only used with nodes")
+        outline = _outline(ctx, a.path("outline"), a.raw("outline"))
+    a.done()
+    return _Area(a.where, kind, value, panels, nodes_sel, outline)
+
+
+def _temperature(ctx: _Ctx, m: _Table) -> _MemberLoad:
+    m.expect({"members", "change"})
+    members = _selector(ctx, m.path("members"), m.raw("members"))
+    change = m.quantity("change", "temperature")
+    m.done()
+    return _MemberLoad(m.where, members, change)
+
+
+def _lack_of_fit(ctx: _Ctx, m: _Table) -> _MemberLoad:
+    m.expect({"members", "strain", "excess_length"})
+    members = _selector(ctx, m.path("members"), m.raw("members"))
+    has_s, has_l = m.has("strain"), m.has("excess_length")
+    if has_s == has_l:
+        ctx.fail(m.where, m.data, "give exactly one of strain or excess_length")
+    value = m.quantity("strain", "strain") if has_s else m.quantity("excess_length", "length")
+    m.done()
+    return _MemberLoad(m.where, members, value, per_length=has_l)
+
+
+def _settlement(ctx: _Ctx, s: _Table) -> _Settlement:
+    s.expect({"nodes", "displacement"})
+    nodes = _selector(ctx, s.path("nodes"), s.raw("nodes"))
+    disp = s.vector("displacement", "length")
+    s.done()
+    return _Settlement(s.where, nodes, disp)
 
 
 def _outline(ctx: _Ctx, where: str, value: Any) -> np.ndarray:

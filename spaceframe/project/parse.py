@@ -21,7 +21,7 @@ from spaceframe.errors import ModelError, ProjectError
 from spaceframe.geometry import selection as sel
 from spaceframe.materials import PRESETS, Material, preset
 from spaceframe.project.loads import _parse_combinations, _parse_envelopes, _parse_loads
-from spaceframe.project.schema import _MISSING, _Ctx, _id_list, _key, _Table, _vector
+from spaceframe.project.schema import _MISSING, _Ctx, _id_list, _key, _named_tables, _Table, _vector
 from spaceframe.project.selectors import _check_references, _parse_selections, _selector
 from spaceframe.project.spec import _Geometry, _Rule, _Spec, _Support
 from spaceframe.sections import (
@@ -118,6 +118,25 @@ def _parse_geometry(ctx: _Ctx, t: _Table | None) -> _Geometry:
         ctx.fail("geometry", _MISSING, "missing: give geometry.file or geometry.nodes")
     t.expect({"file", "file_units", "heal", "tolerance", "options", "nodes", "members",
               "groups", "node_sets", "panels"})
+    file_path, file_units, heal, tolerance, options = _geometry_file(ctx, t)
+    nodes = _inline_nodes(ctx, t)
+    members = _inline_members(ctx, t, nodes.shape[0])
+    if file_path is None and nodes.shape[0] == 0:
+        ctx.fail("geometry", _MISSING, "give a drawing or mesh (file) or inline nodes")
+    if file_path is None and members.shape[0] == 0:
+        ctx.fail(t.path("members"), _MISSING, "no members: list them or give a file")
+
+    groups = _inline_sets(ctx, t.table("groups", None), members.shape[0], "member")
+    node_sets = _inline_sets(ctx, t.table("node_sets", None), nodes.shape[0], "node")
+    panels = _inline_panels(ctx, t.table("panels", None), nodes.shape[0])
+    t.done()
+    return _Geometry(file_path, t.path("file"), file_units, heal, float(tolerance), options,
+                     nodes, members, groups, node_sets, panels, t.data.get("tolerance"))
+
+
+def _geometry_file(ctx: _Ctx, t: _Table) -> tuple[Path | None, str | None, bool, float,
+                                                   dict[str, Any]]:
+    """geometry.file and what goes with it: file_units, heal, tolerance, options."""
     file_name = t.text("file", None)
     file_path: Path | None = None
     if file_name is not None:
@@ -139,13 +158,19 @@ def _parse_geometry(ctx: _Ctx, t: _Table | None) -> _Geometry:
         if file_name is None:
             ctx.fail(t.path("options"), opt_t.data, "only used with geometry.file")
         options = dict(opt_t.data)
+    return file_path, file_units, heal, tolerance, options
 
+
+def _inline_nodes(ctx: _Ctx, t: _Table) -> np.ndarray:
     raw_nodes = t.raw("nodes", [])
     if not isinstance(raw_nodes, list):
         ctx.fail(t.path("nodes"), raw_nodes, "expected a list of [x, y, z] coordinates")
-    nodes = np.array(
+    return np.array(
         [_vector(ctx, _key(t.path("nodes"), i), v, "length") for i, v in enumerate(raw_nodes)]
     ).reshape(-1, 3)
+
+
+def _inline_members(ctx: _Ctx, t: _Table, n_nodes: int) -> np.ndarray:
     raw_members = t.raw("members", [])
     if not isinstance(raw_members, list):
         ctx.fail(t.path("members"), raw_members, "expected a list of [node, node] pairs")
@@ -155,44 +180,39 @@ def _parse_geometry(ctx: _Ctx, t: _Table | None) -> _Geometry:
         ids = _id_list(ctx, where, pair)
         if ids.size != 2:
             ctx.fail(where, pair, "expected two node ids [i, j]")
-        bad = np.flatnonzero(ids >= nodes.shape[0])
-        if bad.size:
-            ctx.fail(_key(where, int(bad[0])), int(ids[bad[0]]),
-                     f"no such inline node (geometry.nodes has {nodes.shape[0]}: "
-                     f"0..{nodes.shape[0] - 1})")
+        _check_inline_nodes(ctx, where, ids, n_nodes,
+                            f"geometry.nodes has {n_nodes}: 0..{n_nodes - 1}")
         pairs.append(ids)
-    members = np.array(pairs, dtype=np.int64).reshape(-1, 2)
-    if file_name is None and nodes.shape[0] == 0:
-        ctx.fail("geometry", _MISSING, "give a drawing or mesh (file) or inline nodes")
-    if file_name is None and members.shape[0] == 0:
-        ctx.fail(t.path("members"), _MISSING, "no members: list them or give a file")
+    return np.array(pairs, dtype=np.int64).reshape(-1, 2)
 
-    groups = _inline_sets(ctx, t.table("groups", None), members.shape[0], "member")
-    node_sets = _inline_sets(ctx, t.table("node_sets", None), nodes.shape[0], "node")
+
+def _check_inline_nodes(ctx: _Ctx, where: str, ids: np.ndarray, n_nodes: int,
+                        known: str) -> None:
+    bad = np.flatnonzero(ids >= n_nodes)
+    if bad.size:
+        ctx.fail(_key(where, int(bad[0])), int(ids[bad[0]]), f"no such inline node ({known})")
+
+
+def _inline_panels(ctx: _Ctx, pt: _Table | None, n_nodes: int) -> dict[str, list[np.ndarray]]:
     panels: dict[str, list[np.ndarray]] = {}
-    pt = t.table("panels", None)
-    if pt is not None:
-        for name, polys in pt.data.items():
-            where = pt.path(name)
-            pt.used.add(name)
-            if not isinstance(polys, list) or not polys:
-                ctx.fail(where, polys, "expected a list of panels, each a list of node ids")
-            group: list[np.ndarray] = []
-            for i, poly in enumerate(polys):
-                ids = _id_list(ctx, _key(where, i), poly)
-                if ids.size < 3:
-                    ctx.fail(_key(where, i), poly, "a panel needs at least 3 nodes")
-                if np.unique(ids).size != ids.size:
-                    ctx.fail(_key(where, i), poly, "a panel lists a node twice")
-                bad = np.flatnonzero(ids >= nodes.shape[0])
-                if bad.size:
-                    ctx.fail(_key(_key(where, i), int(bad[0])), int(ids[bad[0]]),
-                             f"no such inline node (0..{nodes.shape[0] - 1})")
-                group.append(ids)
-            panels[name] = group
-    t.done()
-    return _Geometry(file_path, t.path("file"), file_units, heal, float(tolerance), options,
-                     nodes, members, groups, node_sets, panels, t.data.get("tolerance"))
+    if pt is None:
+        return panels
+    for name, polys in pt.data.items():
+        where = pt.path(name)
+        pt.used.add(name)
+        if not isinstance(polys, list) or not polys:
+            ctx.fail(where, polys, "expected a list of panels, each a list of node ids")
+        group: list[np.ndarray] = []
+        for i, poly in enumerate(polys):
+            ids = _id_list(ctx, _key(where, i), poly)
+            if ids.size < 3:
+                ctx.fail(_key(where, i), poly, "a panel needs at least 3 nodes")
+            if np.unique(ids).size != ids.size:
+                ctx.fail(_key(where, i), poly, "a panel lists a node twice")
+            _check_inline_nodes(ctx, _key(where, i), ids, n_nodes, f"0..{n_nodes - 1}")
+            group.append(ids)
+        panels[name] = group
+    return panels
 
 
 def _inline_sets(ctx: _Ctx, t: _Table | None, size: int, what: str) -> dict[str, np.ndarray]:
@@ -214,38 +234,36 @@ def _inline_sets(ctx: _Ctx, t: _Table | None, size: int, what: str) -> dict[str,
 
 
 def _parse_materials(ctx: _Ctx, t: _Table | None) -> dict[str, Material]:
-    out: dict[str, Material] = {}
-    if t is None:
-        return out
-    for name in t.data:
-        m = t.sub(name)
-        m.expect({"like", "E", "density", "alpha", "yield", "ultimate"})
-        where = m.where
-        if name in PRESETS:
-            ctx.fail(where, m.data, "this is the name of a preset material; use it directly "
-                     "or choose another name")
-        base: Material | None = None
-        like = m.text("like", None)
-        if like is not None:
-            try:
-                base = preset(like)
-            except ModelError as exc:
-                ctx.fail(m.path("like"), like, str(exc))
-        e_mod = m.quantity("E", "stress", base.E if base else _MISSING)
-        density = m.quantity("density", "density", base.density if base else _MISSING)
-        alpha = m.quantity("alpha", "expansion", base.alpha if base else 0.0)
-        fy = m.quantity("yield", "stress", base.yield_strength if base else None)
-        fu = m.quantity("ultimate", "stress", base.ultimate_strength if base else None)
-        m.done()
+    return _named_tables(t, _parse_material)
+
+
+def _parse_material(ctx: _Ctx, name: str, m: _Table) -> Material:
+    m.expect({"like", "E", "density", "alpha", "yield", "ultimate"})
+    where = m.where
+    if name in PRESETS:
+        ctx.fail(where, m.data, "this is the name of a preset material; use it directly "
+                 "or choose another name")
+    base: Material | None = None
+    like = m.text("like", None)
+    if like is not None:
         try:
-            out[name] = Material(
-                name=name, E=e_mod, density=density, alpha=alpha, yield_strength=fy,
-                ultimate_strength=fu,
-                source=f"model file, based on {base.name}" if base else "model file",
-            )
+            base = preset(like)
         except ModelError as exc:
-            ctx.fail(where, m.data, str(exc))
-    return out
+            ctx.fail(m.path("like"), like, str(exc))
+    e_mod = m.quantity("E", "stress", base.E if base else _MISSING)
+    density = m.quantity("density", "density", base.density if base else _MISSING)
+    alpha = m.quantity("alpha", "expansion", base.alpha if base else 0.0)
+    fy = m.quantity("yield", "stress", base.yield_strength if base else None)
+    fu = m.quantity("ultimate", "stress", base.ultimate_strength if base else None)
+    m.done()
+    try:
+        return Material(
+            name=name, E=e_mod, density=density, alpha=alpha, yield_strength=fy,
+            ultimate_strength=fu,
+            source=f"model file, based on {base.name}" if base else "model file",
+        )
+    except ModelError as exc:
+        ctx.fail(where, m.data, str(exc))
 
 
 #: Section shape -> {key: (unit role, required)}; roles are those of spaceframe.units.
@@ -262,58 +280,60 @@ _SECTION_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
 
 
 def _parse_sections(ctx: _Ctx, t: _Table | None) -> dict[str, Section]:
-    out: dict[str, Section] = {}
-    if t is None:
-        return out
-    for name in t.data:
-        s = t.sub(name)
-        shape = s.text("shape", choices=tuple(_SECTION_KEYS))
-        extra = {"corners"} if shape in ("shs", "rhs") else {"fill"} if shape == "cable" else set()
-        design_keys = {"breaking_force"} if shape == "cable" else {"buckling_curve", "fabrication"}
-        s.expect({"shape", *_SECTION_KEYS[shape], *extra, *design_keys})
-        ex: dict[str, Any] = {}
-        if shape == "cable":
-            if s.has("breaking_force"):
-                ex["breaking_force"] = s.quantity("breaking_force", "force")
-                if ex["breaking_force"] <= 0:
-                    ctx.fail(s.path("breaking_force"), s.data["breaking_force"],
-                             "must be positive")
-        else:
-            if s.has("buckling_curve"):
-                ex["buckling_curve"] = s.text("buckling_curve",
-                                              choices=("a0", "a", "b", "c", "d"))
-            if s.has("fabrication"):
-                ex["fabrication"] = s.text("fabrication", choices=("hot", "cold"))
-            elif shape in ("shs", "rhs") and s.data.get("corners") == "cold-formed":
-                ex["fabrication"] = "cold"
-        ctx.section_extras[name] = ex
-        dims: dict[str, float] = {}
-        for key, (role, required) in _SECTION_KEYS[shape].items():
-            value = s.quantity(key, role, _MISSING if required else None)
-            if value is not None:
-                dims[key] = value
-        corners = "hot-finished"
-        fill = SPIRAL_STRAND_FILL
-        if shape in ("shs", "rhs"):
-            corners = s.text("corners", "hot-finished", choices=tuple(CORNER_RULES))
-            if "outer_radius" in dims and s.has("corners"):
-                ctx.fail(s.path("corners"), s.data["corners"],
-                         "give either corners or outer_radius, not both")
-        if shape == "cable":
-            fill = s.number("fill", SPIRAL_STRAND_FILL)
-        s.done()
-        try:
-            section = _make_section(name, shape, dims, corners, fill)
-        except ModelError as exc:
-            ctx.fail(s.where, s.data, str(exc))
-        lengths = {k: v for k, v in dims.items() if _SECTION_KEYS[shape][k][0] == "section"}
-        big = {k: v for k, v in lengths.items() if v > _IMPLAUSIBLE_SECTION_SIZE}
-        if big:
-            key = next(iter(big))
-            ctx.warn(f"{s.path(key)} is {big[key]:g} m: did you mean millimetres? "
-                     "(set [units] section = \"mm\")")
-        out[name] = section
-    return out
+    return _named_tables(t, _parse_section)
+
+
+def _parse_section(ctx: _Ctx, name: str, s: _Table) -> Section:
+    shape = s.text("shape", choices=tuple(_SECTION_KEYS))
+    extra = {"corners"} if shape in ("shs", "rhs") else {"fill"} if shape == "cable" else set()
+    design_keys = {"breaking_force"} if shape == "cable" else {"buckling_curve", "fabrication"}
+    s.expect({"shape", *_SECTION_KEYS[shape], *extra, *design_keys})
+    ctx.section_extras[name] = _section_design_data(ctx, s, shape)
+    dims: dict[str, float] = {}
+    for key, (role, required) in _SECTION_KEYS[shape].items():
+        value = s.quantity(key, role, _MISSING if required else None)
+        if value is not None:
+            dims[key] = value
+    corners = "hot-finished"
+    fill = SPIRAL_STRAND_FILL
+    if shape in ("shs", "rhs"):
+        corners = s.text("corners", "hot-finished", choices=tuple(CORNER_RULES))
+        if "outer_radius" in dims and s.has("corners"):
+            ctx.fail(s.path("corners"), s.data["corners"],
+                     "give either corners or outer_radius, not both")
+    if shape == "cable":
+        fill = s.number("fill", SPIRAL_STRAND_FILL)
+    s.done()
+    try:
+        section = _make_section(name, shape, dims, corners, fill)
+    except ModelError as exc:
+        ctx.fail(s.where, s.data, str(exc))
+    lengths = {k: v for k, v in dims.items() if _SECTION_KEYS[shape][k][0] == "section"}
+    big = {k: v for k, v in lengths.items() if v > _IMPLAUSIBLE_SECTION_SIZE}
+    if big:
+        key = next(iter(big))
+        ctx.warn(f"{s.path(key)} is {big[key]:g} m: did you mean millimetres? "
+                 "(set [units] section = \"mm\")")
+    return section
+
+
+def _section_design_data(ctx: _Ctx, s: _Table, shape: str) -> dict[str, Any]:
+    """Breaking force of a cable; buckling curve and fabrication of any other section."""
+    ex: dict[str, Any] = {}
+    if shape == "cable":
+        if s.has("breaking_force"):
+            ex["breaking_force"] = s.quantity("breaking_force", "force")
+            if ex["breaking_force"] <= 0:
+                ctx.fail(s.path("breaking_force"), s.data["breaking_force"],
+                         "must be positive")
+        return ex
+    if s.has("buckling_curve"):
+        ex["buckling_curve"] = s.text("buckling_curve", choices=("a0", "a", "b", "c", "d"))
+    if s.has("fabrication"):
+        ex["fabrication"] = s.text("fabrication", choices=("hot", "cold"))
+    elif shape in ("shs", "rhs") and s.data.get("corners") == "cold-formed":
+        ex["fabrication"] = "cold"
+    return ex
 
 
 def _make_section(name: str, shape: str, d: dict[str, float], corners: str,

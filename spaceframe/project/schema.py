@@ -11,8 +11,9 @@ from __future__ import annotations
 import difflib
 import math
 import re
+from collections.abc import Callable
 from pathlib import Path
-from typing import Any, NoReturn
+from typing import Any, NoReturn, TypeVar
 
 import numpy as np
 
@@ -151,6 +152,14 @@ class _Table:
         if value is default and default is not _MISSING:
             return value
         return _vector(self.ctx, self.path(key), value, role)
+
+
+_T = TypeVar("_T")
+
+
+def _named_tables(t: _Table | None, read: Callable[[_Ctx, str, _Table], _T]) -> dict[str, _T]:
+    """Each sub-table of ``t`` read by ``read(ctx, name, table)``, by name (none without ``t``)."""
+    return {} if t is None else {name: read(t.ctx, name, t.sub(name)) for name in t.data}
 
 
 def _plain_number(ctx: _Ctx, where: str, value: Any) -> float:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import difflib
 import math
+from collections.abc import Callable
 from typing import Any, Literal
 
 import numpy as np
@@ -28,10 +29,8 @@ from spaceframe.project.schema import (
 from spaceframe.project.spec import _Case, _Rule, _Support
 
 # -------------------------------------------------------------- selections
-_SELECTOR_KEYS = (
-    "all", "ids", "group", "node_set", "box", "plane", "markers", "points",
-    "union", "intersection", "difference",
-)
+#: A reader of one kind of selection table: (context, table, tolerance) -> selector.
+_Reader = Callable[[_Ctx, _Table, "float | None"], sel.Selector]
 _TOLERANT = {"box", "plane", "markers", "points"}
 
 
@@ -42,6 +41,20 @@ def _selector(ctx: _Ctx, where: str, value: Any) -> sel.Selector:
     if isinstance(value, list):
         return sel.Ids(tuple(int(i) for i in _id_list(ctx, where, value)))
     t = _Table(ctx, value, where)
+    kind = _selector_kind(ctx, t, where, value)
+    tol = t.quantity("tolerance", "length", None) if kind in _TOLERANT else None
+    if tol is not None and tol < 0:
+        ctx.fail(t.path("tolerance"), t.data["tolerance"], "must not be negative")
+    try:
+        out = _READERS[kind](ctx, t, tol)
+    except ModelError as exc:
+        ctx.fail(where, value, str(exc))
+    t.done()
+    return out
+
+
+def _selector_kind(ctx: _Ctx, t: _Table, where: str, value: Any) -> str:
+    """The one criterion a selection table gives (unknown keys named first)."""
     given = [k for k in _SELECTOR_KEYS if k in t.data]
     if len(given) != 1:
         extra = set(t.data) - set(_SELECTOR_KEYS) - {"tolerance", "at"}
@@ -52,52 +65,46 @@ def _selector(ctx: _Ctx, where: str, value: Any) -> sel.Selector:
             "a selection needs exactly one of " + ", ".join(_SELECTOR_KEYS)
             + (f" (got {', '.join(given)})" if given else ""),
         )
-    kind = given[0]
-    tol = t.quantity("tolerance", "length", None) if kind in _TOLERANT else None
-    if tol is not None and tol < 0:
-        ctx.fail(t.path("tolerance"), t.data["tolerance"], "must not be negative")
-    out: sel.Selector
-    try:
-        if kind == "all":
-            if t.raw("all") is not True:
-                ctx.fail(t.path("all"), t.data["all"], "write all = true")
-            out = sel.All()
-        elif kind == "ids":
-            out = sel.Ids(tuple(int(i) for i in _id_list(ctx, t.path("ids"), t.raw("ids"))))
-        elif kind == "group":
-            out = sel.Group(_names(ctx, t.path("group"), t.raw("group")))
-        elif kind == "node_set":
-            out = sel.NodeSet(_names(ctx, t.path("node_set"), t.raw("node_set")))
-        elif kind == "markers":
-            out = sel.Markers(_names(ctx, t.path("markers"), t.raw("markers")), tol)
-        elif kind == "points":
-            pts = t.raw("points")
-            if not isinstance(pts, list) or not pts:
-                ctx.fail(t.path("points"), pts, "expected a list of [x, y, z] points")
-            xyz = tuple(
-                tuple(float(v) for v in _vector(ctx, _key(t.path("points"), i), p, "length"))
-                for i, p in enumerate(pts)
-            )
-            out = sel.Points(xyz, tol)  # type: ignore[arg-type]
-        elif kind == "box":
-            out = _box(ctx, t, tol)
-        elif kind == "plane":
-            out = _plane(ctx, t, tol)
-        else:
-            parts = t.raw(kind)
-            if not isinstance(parts, list) or not parts:
-                ctx.fail(t.path(kind), parts, "expected a non-empty list of selections")
-            items = tuple(_selector(ctx, _key(t.path(kind), i), p) for i, p in enumerate(parts))
-            if kind == "union":
-                out = sel.Union(items)
-            elif kind == "intersection":
-                out = sel.Intersection(items)
-            else:
-                out = sel.Difference(items)
-    except ModelError as exc:
-        ctx.fail(where, value, str(exc))
-    t.done()
-    return out
+    return given[0]
+
+
+def _all(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Selector:
+    if t.raw("all") is not True:
+        ctx.fail(t.path("all"), t.data["all"], "write all = true")
+    return sel.All()
+
+
+def _ids(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Selector:
+    return sel.Ids(tuple(int(i) for i in _id_list(ctx, t.path("ids"), t.raw("ids"))))
+
+
+def _points(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Selector:
+    pts = t.raw("points")
+    if not isinstance(pts, list) or not pts:
+        ctx.fail(t.path("points"), pts, "expected a list of [x, y, z] points")
+    xyz = tuple(
+        tuple(float(v) for v in _vector(ctx, _key(t.path("points"), i), p, "length"))
+        for i, p in enumerate(pts)
+    )
+    return sel.Points(xyz, tol)  # type: ignore[arg-type]
+
+
+def _by_name(key: str, make: Callable[..., sel.Selector], tolerant: bool = False) -> _Reader:
+    """A reader of ``key = name`` or ``key = [names]`` (markers also take the tolerance)."""
+    def read(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Selector:
+        names = _names(ctx, t.path(key), t.raw(key))
+        return make(names, tol) if tolerant else make(names)
+    return read
+
+
+def _combined(key: str, make: Callable[[tuple[sel.Selector, ...]], sel.Selector]) -> _Reader:
+    """A reader of ``key = [selection, ...]`` (union, intersection, difference)."""
+    def read(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Selector:
+        parts = t.raw(key)
+        if not isinstance(parts, list) or not parts:
+            ctx.fail(t.path(key), parts, "expected a non-empty list of selections")
+        return make(tuple(_selector(ctx, _key(t.path(key), i), p) for i, p in enumerate(parts)))
+    return read
 
 
 def _box_corner(ctx: _Ctx, where: str, value: Any) -> np.ndarray:
@@ -160,6 +167,23 @@ def _plane(ctx: _Ctx, t: _Table, tol: float | None) -> sel.Plane:
 
 
 
+#: Selection table key -> its reader, in the order the messages list them.
+_READERS: dict[str, _Reader] = {
+    "all": _all,
+    "ids": _ids,
+    "group": _by_name("group", sel.Group),
+    "node_set": _by_name("node_set", sel.NodeSet),
+    "box": _box,
+    "plane": _plane,
+    "markers": _by_name("markers", sel.Markers, tolerant=True),
+    "points": _points,
+    "union": _combined("union", sel.Union),
+    "intersection": _combined("intersection", sel.Intersection),
+    "difference": _combined("difference", sel.Difference),
+}
+_SELECTOR_KEYS = tuple(_READERS)
+
+
 def _parse_selections(ctx: _Ctx, t: _Table | None) -> dict[str, sel.Selector]:
     out: dict[str, sel.Selector] = {}
     if t is None:
@@ -175,19 +199,33 @@ def _parse_selections(ctx: _Ctx, t: _Table | None) -> dict[str, sel.Selector]:
 
 def _check_references(ctx: _Ctx, selections: dict[str, sel.Selector], rules: list[_Rule],
                       supports: list[_Support], cases: dict[str, _Case]) -> None:
-    def check(where: str, selector: sel.Selector | None) -> None:
-        if selector is None:
-            return
-        for name in sel.references(selector):
-            if name not in selections:
-                close = difflib.get_close_matches(name, list(selections), n=3)
-                hint = f"did you mean {' or '.join(repr(c) for c in close)}? " if close else ""
-                ctx.fail(where, name, f"no selection of that name; {hint}(selections: "
-                         f"{', '.join(selections) or 'none defined'})")
-
+    """Every named selection referred to exists, none refers to itself; unused ones warned."""
     for name, selector in selections.items():
-        check(_key("selections", name), selector)
-    # Cycles among named selections (depth-first, with the path for the message).
+        _check_known(ctx, selections, _key("selections", name), selector)
+    _check_cycles(ctx, selections)
+    uses = _selector_uses(rules, supports, cases)
+    for where, item in uses:
+        _check_known(ctx, selections, where, item)
+    used = _reached(selections, [item for _, item in uses])
+    for name in selections:
+        if name not in used:
+            ctx.warn(f"selections.{name} is defined but not used")
+
+
+def _check_known(ctx: _Ctx, selections: dict[str, sel.Selector], where: str,
+                 selector: sel.Selector | None) -> None:
+    if selector is None:
+        return
+    for name in sel.references(selector):
+        if name not in selections:
+            close = difflib.get_close_matches(name, list(selections), n=3)
+            hint = f"did you mean {' or '.join(repr(c) for c in close)}? " if close else ""
+            ctx.fail(where, name, f"no selection of that name; {hint}(selections: "
+                     f"{', '.join(selections) or 'none defined'})")
+
+
+def _check_cycles(ctx: _Ctx, selections: dict[str, sel.Selector]) -> None:
+    """Cycles among named selections (depth-first, with the path for the message)."""
     state: dict[str, int] = {}
 
     def visit(name: str, trail: list[str]) -> None:
@@ -205,26 +243,13 @@ def _check_references(ctx: _Ctx, selections: dict[str, sel.Selector], rules: lis
         if state.get(name) is None:
             visit(name, [name])
 
-    used: set[str] = set()
 
-    def note(selector: sel.Selector | None) -> None:
-        if selector is not None:
-            stack = [selector]
-            while stack:
-                s = stack.pop()
-                for r in sel.references(s):
-                    if r not in used:
-                        used.add(r)
-                        stack.append(selections[r])
-
-    for r in rules:
-        check(r.selector_where, r.selector)
-        note(r.selector)
-    for s in supports:
-        check(s.where + ".nodes", s.nodes)
-        note(s.nodes)
+def _selector_uses(rules: list[_Rule], supports: list[_Support],
+                   cases: dict[str, _Case]) -> list[tuple[str, sel.Selector | None]]:
+    """Every selection the model file gives outside [selections], with its key path."""
+    items: list[tuple[str, sel.Selector | None]] = [(r.selector_where, r.selector) for r in rules]
+    items += [(s.where + ".nodes", s.nodes) for s in supports]
     for case in cases.values():
-        items: list[tuple[str, sel.Selector | None]] = []
         if case.self_weight is not None:
             items.append((case.self_weight.where + ".members", case.self_weight.members))
         items += [(n.where + ".nodes", n.nodes) for n in case.nodal]
@@ -232,10 +257,17 @@ def _check_references(ctx: _Ctx, selections: dict[str, sel.Selector], rules: lis
                    a.panels if a.panels is not None else a.nodes) for a in case.area]
         items += [(m.where + ".members", m.members) for m in case.temperature + case.lack_of_fit]
         items += [(s.where + ".nodes", s.nodes) for s in case.settlement]
-        for where, item in items:
-            check(where, item)
-            note(item)
-    for name in selections:
-        if name not in used:
-            ctx.warn(f"selections.{name} is defined but not used")
+    return items
 
+
+def _reached(selections: dict[str, sel.Selector],
+             selectors: list[sel.Selector | None]) -> set[str]:
+    """The named selections that ``selectors`` refer to, directly or through others."""
+    used: set[str] = set()
+    stack = [s for s in selectors if s is not None]
+    while stack:
+        for r in sel.references(stack.pop()):
+            if r not in used:
+                used.add(r)
+                stack.append(selections[r])
+    return used
