@@ -11,6 +11,7 @@ from typing import Any
 
 import numpy as np
 
+from spaceframe.geometry import selection as sel
 from spaceframe.model import STANDARD_GRAVITY
 from spaceframe.project.schema import _Ctx, _key, _named_tables, _plain_number, _quantity, _Table
 from spaceframe.project.selectors import _selector
@@ -100,10 +101,7 @@ def _area(ctx: _Ctx, a: _Table) -> _Area:
 
 
 def _temperature(ctx: _Ctx, m: _Table) -> _MemberLoad:
-    m.expect({"members", "change"})
-    members = _selector(ctx, m.path("members"), m.raw("members"))
-    change = m.quantity("change", "temperature")
-    m.done()
+    members, change = _selection_and_value(m, "members", "change", "temperature")
     return _MemberLoad(m.where, members, change)
 
 
@@ -119,11 +117,18 @@ def _lack_of_fit(ctx: _Ctx, m: _Table) -> _MemberLoad:
 
 
 def _settlement(ctx: _Ctx, s: _Table) -> _Settlement:
-    s.expect({"nodes", "displacement"})
-    nodes = _selector(ctx, s.path("nodes"), s.raw("nodes"))
-    disp = s.vector("displacement", "length")
-    s.done()
+    nodes, disp = _selection_and_value(s, "nodes", "displacement", "length", vector=True)
     return _Settlement(s.where, nodes, disp)
+
+
+def _selection_and_value(t: _Table, target: str, key: str, role: str,
+                         vector: bool = False) -> tuple[sel.Selector, Any]:
+    """A load given by a selection and one quantity (or vector) and nothing else."""
+    t.expect({target, key})
+    chosen = _selector(t.ctx, t.path(target), t.raw(target))
+    value = t.vector(key, role) if vector else t.quantity(key, role)
+    t.done()
+    return chosen, value
 
 
 def _outline(ctx: _Ctx, where: str, value: Any) -> np.ndarray:
