@@ -30,7 +30,7 @@ from spaceframe.project.spec import _Case, _Rule, _Support
 
 # -------------------------------------------------------------- selections
 #: A reader of one kind of selection table: (context, table, tolerance) -> selector.
-_Reader = Callable[[_Ctx, _Table, "float | None"], sel.Selector]
+_Reader = Callable[[_Ctx, _Table, float | None], sel.Selector]
 _TOLERANT = {"box", "plane", "markers", "points"}
 
 
