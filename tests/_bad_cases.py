@@ -12,6 +12,7 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
+from _helpers import BAR_GEOMETRY, BAR_SUPPORTS
 
 import spaceframe as sf
 from spaceframe.analysis.static import solve_static
@@ -20,19 +21,12 @@ from spaceframe.analysis.static import solve_static
 BAR = """\
 [units]
 section = "mm"
-[geometry]
-nodes = [[0, 0, 0], [3, 0, 0], [6, 0, 0]]
-members = [[0, 1], [1, 2]]
+""" + BAR_GEOMETRY + """\
 [sections]
 s = { shape = "chs", diameter = 60.3, thickness = 3.2 }
 [assign]
 default = { section = "s", material = "S355" }
-[[supports]]
-nodes = [0, 2]
-restrain = "xyz"
-[[supports]]
-nodes = [1]
-restrain = "yz"
+""" + BAR_SUPPORTS + """\
 [loads.push]
 [[loads.push.nodal]]
 nodes = [1]

@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from _helpers import BAR_GEOMETRY, BAR_SUPPORTS
 
 from spaceframe.errors import ProjectError, SpaceframeWarning
 from spaceframe.model import STANDARD_GRAVITY
@@ -186,9 +187,7 @@ BAR = """
 [units]
 section = "mm"
 stress = "GPa"
-[geometry]
-nodes = [[0, 0, 0], [3, 0, 0], [6, 0, 0]]
-members = [[0, 1], [1, 2]]
+""" + BAR_GEOMETRY + """\
 [materials.m]
 E = 200
 density = 0
@@ -197,13 +196,7 @@ alpha = "10e-6 1/K"
 s = { shape = "user", area = 1000 }
 [assign]
 default = { section = "s", material = "m" }
-[[supports]]
-nodes = [0, 2]
-restrain = "xyz"
-[[supports]]
-nodes = [1]
-restrain = "yz"
-"""
+""" + BAR_SUPPORTS
 
 
 def test_temperature_lack_of_fit_and_settlement_in_a_restrained_bar(tmp_path: Path) -> None:

@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import pytest
+from _helpers import project_error, project_from_text
 from test_project import CANOPY
 
 import spaceframe as sf
-from spaceframe.errors import ProjectError
-from spaceframe.project import parse_project
 from spaceframe.project.analysis import run_analyses
 
 ANALYSIS = """
@@ -23,9 +22,7 @@ min_frequency = "2 Hz"
 
 
 def _project(tmp_path, extra):
-    path = tmp_path / "canopy.toml"
-    path.write_text(CANOPY + extra, encoding="utf-8")
-    return parse_project(path.read_text(encoding="utf-8"), path)
+    return project_from_text(tmp_path, CANOPY + extra)
 
 
 def test_analysis_block_equals_the_library_calls(tmp_path):
@@ -70,9 +67,7 @@ def test_a_result_without_compression_is_reported_not_fatal(tmp_path):
     ],
 )
 def test_analysis_errors_name_the_key(tmp_path, extra, fragment):
-    with pytest.raises(ProjectError) as exc:
-        _project(tmp_path, extra)
-    assert fragment in str(exc.value)
+    assert fragment in project_error(tmp_path, CANOPY + extra)
 
 
 def test_run_writes_and_prints_the_analysis_block(tmp_path, capsys):

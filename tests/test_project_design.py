@@ -6,10 +6,10 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from _helpers import project_error, project_from_text
 from test_project import CANOPY
 
 import spaceframe as sf
-from spaceframe.errors import ProjectError
 from spaceframe.project import parse_project
 
 DESIGN = """
@@ -39,9 +39,7 @@ psi2 = 0.3
 
 
 def _project(tmp_path: Path, extra: str = DESIGN, base: str = CANOPY):
-    path = tmp_path / "canopy.toml"
-    path.write_text(base + extra, encoding="utf-8")
-    return parse_project(path.read_text(encoding="utf-8"), path)
+    return project_from_text(tmp_path, base + extra)
 
 
 def test_sections_and_materials_give_every_member_its_design_data(tmp_path):
@@ -104,6 +102,4 @@ def test_cable_sections_are_tension_only_with_their_breaking_force(tmp_path):
     ],
 )
 def test_design_table_errors_name_the_key(tmp_path, extra, fragment):
-    with pytest.raises(ProjectError) as exc:
-        _project(tmp_path, extra)
-    assert fragment in str(exc.value) and "\n" not in str(exc.value)
+    assert fragment in project_error(tmp_path, CANOPY + extra)

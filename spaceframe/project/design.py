@@ -40,6 +40,7 @@ import numpy as np
 
 from spaceframe.design.combinations import Action, generate_combinations
 from spaceframe.errors import ModelError
+from spaceframe.project.schema import _MISSING, _Ctx, _named_tables, _Table
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
@@ -98,60 +99,59 @@ def parse_design(ctx: Any, design: Any, actions: Any, selector: Any) -> DesignSp
                        "deflection", "sizing", "combinations"})
         for key in ("gamma_M0", "gamma_M1", "gamma_M2", "gamma_cable"):
             if design.has(key):
-                v = design.number(key)
-                if v <= 0:
-                    ctx.fail(design.path(key), design.data[key], "must be positive")
-                spec.gammas[key] = v
-        groups = design.table("groups", None)
-        if groups is not None:
-            for gname in groups.data:
-                g = groups.sub(gname)
-                g.expect(_GROUP_KEYS)
-                props = {}
-                for key in _GROUP_KEYS:
-                    if g.has(key):
-                        v = g.number(key)
-                        if v <= 0 or (key == "net_area_factor" and v > 1):
-                            ctx.fail(g.path(key), g.data[key], "must be positive" + (
-                                " and at most 1" if key == "net_area_factor" else ""))
-                        props[key] = v
-                spec.groups[gname] = props
+                spec.gammas[key] = _positive(ctx, design, key)
+        spec.groups = _named_tables(design.table("groups", None), _group_properties)
         spec.deflection = _parse_deflection(ctx, design.table("deflection", None), selector)
         spec.sizing = _parse_sizing(ctx, design.table("sizing", None))
-        combos = design.table("combinations", None)
-        if combos is not None:
-            combos.expect({"ultimate", "serviceability", "gamma_G_sup", "gamma_G_inf",
-                           "gamma_Q", "xi"})
-            gen: dict[str, Any] = {
-                "ultimate": combos.text("ultimate", "6.10", choices=("6.10", "6.10ab", "none")),
-            }
-            sls = combos.raw("serviceability", ["characteristic", "frequent", "quasi-permanent"])
-            if not isinstance(sls, list) or not all(isinstance(x, str) for x in sls):
-                ctx.fail(combos.path("serviceability"), sls, "expected a list of set names")
-            gen["serviceability"] = sls
-            for key in ("gamma_G_sup", "gamma_G_inf", "gamma_Q", "xi"):
-                if combos.has(key):
-                    gen[key] = combos.number(key)
-            spec.generate = gen
-    if actions is not None:
-        for cname in actions.data:
-            a = actions.sub(cname)
-            a.expect({"kind", "psi0", "psi1", "psi2"})
-            kind = a.text("kind", choices=("permanent", "variable"))
-            psi = {k: a.number(k, 1.0) for k in ("psi0", "psi1", "psi2")}
-            try:
-                spec.actions.append(Action(cname, kind, **psi))
-            except ModelError as exc:
-                ctx.fail(a.where, a.data, str(exc))
+        spec.generate = _parse_generate(ctx, design.table("combinations", None))
+    spec.actions = list(_named_tables(actions, _action).values())
     if spec.generate is not None and not spec.actions:
-        ctx.fail("design.combinations", _missing(), "needs [actions.CASE] tables to combine")
+        ctx.fail("design.combinations", _MISSING, "needs [actions.CASE] tables to combine")
     return spec
 
 
-def _missing() -> Any:
-    from spaceframe.project.core import _MISSING
+def _positive(ctx: _Ctx, t: _Table, key: str, at_most_one: bool = False) -> float:
+    v = t.number(key)
+    if v <= 0 or (at_most_one and v > 1):
+        ctx.fail(t.path(key), t.data[key], "must be positive" + (" and at most 1"
+                                                                 if at_most_one else ""))
+    return float(v)
 
-    return _MISSING
+
+def _group_properties(ctx: _Ctx, gname: str, g: _Table) -> dict[str, float]:
+    """[design.groups.NAME]: the design properties given for that member group."""
+    g.expect(_GROUP_KEYS)
+    return {key: _positive(ctx, g, key, at_most_one=key == "net_area_factor")
+            for key in _GROUP_KEYS if g.has(key)}
+
+
+def _parse_generate(ctx: _Ctx, combos: _Table | None) -> dict[str, Any] | None:
+    """[design.combinations]: what generate_combinations is called with."""
+    if combos is None:
+        return None
+    combos.expect({"ultimate", "serviceability", "gamma_G_sup", "gamma_G_inf", "gamma_Q", "xi"})
+    gen: dict[str, Any] = {
+        "ultimate": combos.text("ultimate", "6.10", choices=("6.10", "6.10ab", "none")),
+    }
+    sls = combos.raw("serviceability", ["characteristic", "frequent", "quasi-permanent"])
+    if not isinstance(sls, list) or not all(isinstance(x, str) for x in sls):
+        ctx.fail(combos.path("serviceability"), sls, "expected a list of set names")
+    gen["serviceability"] = sls
+    for key in ("gamma_G_sup", "gamma_G_inf", "gamma_Q", "xi"):
+        if combos.has(key):
+            gen[key] = combos.number(key)
+    return gen
+
+
+def _action(ctx: _Ctx, cname: str, a: _Table) -> Action:
+    """[actions.CASE]: how a load case takes part in generated combinations."""
+    a.expect({"kind", "psi0", "psi1", "psi2"})
+    kind = a.text("kind", choices=("permanent", "variable"))
+    psi = {k: a.number(k, 1.0) for k in ("psi0", "psi1", "psi2")}
+    try:
+        return Action(cname, kind, **psi)
+    except ModelError as exc:
+        ctx.fail(a.where, a.data, str(exc))
 
 
 def _parse_deflection(ctx: Any, t: Any, selector: Any) -> DeflectionSpec | None:
