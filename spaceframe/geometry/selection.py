@@ -492,7 +492,7 @@ def describe(selector: Selector) -> str:
     if isinstance(s, Ids):
         shown = ", ".join(str(i) for i in s.ids[:6]) + (", ..." if len(s.ids) > 6 else "")
         return f"ids [{shown}]"
-    if type(s) in _LISTED:
+    if isinstance(s, Group | NodeSet | Markers):
         word, attribute = _LISTED[type(s)]
         return f"{word} " + ", ".join(repr(n) for n in getattr(s, attribute))
     if isinstance(s, Box):
