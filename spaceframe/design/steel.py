@@ -228,13 +228,10 @@ def _member_property(model: Model, name: str, default: float) -> np.ndarray:
 
 def _require(model: Model, missing: np.ndarray, kind: str, what: str, fix: str) -> None:
     """Raise ModelError naming the first member in ``missing`` ((b,) bool) and the count."""
-    ids = np.flatnonzero(missing)
-    if ids.size:
-        i = int(ids[0])
-        raise ModelError(
-            f"check_members: {kind} {i}{model._group_text(i)} has no {what} "
-            f"({ids.size} members without one); {fix}"
-        )
+    if missing.any():
+        i = int(np.argmax(missing))  # the first member flagged
+        raise ModelError(f"check_members: {kind} {i}{model._group_text(i)} has no {what} "
+                         f"({int(missing.sum())} members without one); {fix}")
 
 
 def check_members(
