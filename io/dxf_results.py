@@ -79,22 +79,18 @@ CHUNK = 20_000
 #: Number of force bands on each side of zero.
 BANDS = 5
 
+#: The band colours as RGB, lightest (smallest force) first: (tension, compression) per band.
+_BAND_RGB: tuple[tuple[tuple[int, int, int], tuple[int, int, int]], ...] = (
+    ((255, 185, 165), (170, 200, 255)),
+    ((248, 135, 105), (115, 160, 245)),
+    ((232, 80, 55), (60, 110, 225)),
+    ((200, 30, 25), (25, 60, 185)),
+    ((140, 0, 15), (5, 20, 125)),
+)
 #: Tension bands, lightest (smallest force) first, as RGB.
-TENSION_COLORS: tuple[tuple[int, int, int], ...] = (
-    (255, 185, 165),
-    (248, 135, 105),
-    (232, 80, 55),
-    (200, 30, 25),
-    (140, 0, 15),
-)
+TENSION_COLORS: tuple[tuple[int, int, int], ...] = tuple(t for t, _ in _BAND_RGB)
 #: Compression bands, lightest (smallest force) first, as RGB.
-COMPRESSION_COLORS: tuple[tuple[int, int, int], ...] = (
-    (170, 200, 255),
-    (115, 160, 245),
-    (60, 110, 225),
-    (25, 60, 185),
-    (5, 20, 125),
-)
+COMPRESSION_COLORS: tuple[tuple[int, int, int], ...] = tuple(c for _, c in _BAND_RGB)
 #: Members carrying (numerically) no force.
 ZERO_COLOR = (150, 150, 150)
 
@@ -385,16 +381,9 @@ def write_results(
     name in the target folder that is renamed on success.
     """
     import ezdxf
-    from ezdxf.colors import rgb2int
-    from ezdxf.enums import TextEntityAlignment
 
     final = Path(path)
-    names = list(results) if cases is None else list(cases)
-    for name in names:
-        if name not in results:
-            raise WriteError(f"{final}: no result named {name!r} (have: {', '.join(results)})")
-    if not names:
-        raise WriteError(f"{final}: there are no load cases or combinations to draw")
+    names = _checked_names(final, results, cases)
     scales = {name: _resolve_scale(deformed_scale, results, name) for name in names}
     unit_name, per_unit, code = drawing_units(results, units, where=str(final))
     model = results.model
@@ -404,17 +393,13 @@ def write_results(
     lengths = model.lengths / per_unit
     text_height = 0.04 * float(np.median(lengths))
     lo, hi = nodes.min(axis=0), nodes.max(axis=0)
-    ext_lo, ext_hi = lo.copy(), hi.copy()
+    box = _Extents(lo.copy(), hi.copy())
 
     doc = ezdxf.new(dxfversion, setup=False)
     doc.header["$INSUNITS"] = code
     doc.header["$MEASUREMENT"] = 0 if unit_name in _IMPERIAL else 1
     msp = doc.modelspace()
-    band_values = np.arange(-BANDS, BANDS + 1)
-    colors = {int(b): _band_color(int(b)) for b in band_values}
-    aci_of = np.array([_nearest_aci(colors[int(b)]) for b in band_values], dtype=np.int64)
-    rgb_of = np.array([rgb2int(colors[int(b)]) for b in band_values], dtype=np.int64)
-    attribs = {b: {"true_color": rgb2int(c), "color": _nearest_aci(c)} for b, c in colors.items()}
+    colours = _BandColours.make()
 
     frame = np.stack([nodes[ends[:, 0]], nodes[ends[:, 1]]], axis=1)
     streamed: list[LineLayer] = [LineLayer("FRAME", frame, color=8)]
@@ -432,99 +417,181 @@ def write_results(
         tag = tags[name]
         bands, top = force_bands(res.axial_forces)
         streamed.append(LineLayer(
-            f"N_{tag}", frame, aci=aci_of[bands + BANDS], true_color=rgb_of[bands + BANDS],
+            f"N_{tag}", frame, aci=colours.aci[bands + BANDS],
+            true_color=colours.rgb[bands + BANDS],
             description=f"axial force bands of {name}, max |N| = {top / 1e3:.3f} kN",
             on=step == 0))
-        new_layers = []
-        key = doc.layers.add(f"KEY_{tag}", color=7)
-        key.description = f"force band legend of {name}"
-        new_layers.append(key)
         x0 = float(lo[0])
         y0 = float(lo[1]) - 3.0 * text_height
         z0 = float(lo[2])
-        rows = [
-            (
-                b,
-                f"T{b}  {format_number(top * (b - 1) / BANDS / 1e3)} < N <= "
-                f"{format_number(top * b / BANDS / 1e3)} kN",
-            )
-            for b in range(BANDS, 0, -1)
-        ]
-        rows.append((0, "0   no force"))
-        rows += [
-            (
-                -b,
-                f"C{b}  {format_number(-top * b / BANDS / 1e3)} <= N < "
-                f"{format_number(-top * (b - 1) / BANDS / 1e3)} kN",
-            )
-            for b in range(1, BANDS + 1)
-        ]
-        rows.insert(0, (0, f"{name}: axial force, tension positive"))
-        # The legend's box: strokes, then text of at most ~45 characters.
-        ext_lo = np.minimum(ext_lo, (x0, y0 - 1.6 * text_height * len(rows), z0))
-        ext_hi = np.maximum(ext_hi, (x0 + 5 * text_height + 45 * 0.8 * text_height, y0, z0))
-        for k, (band, text) in enumerate(rows):
-            y = y0 - 1.6 * text_height * k
-            if k > 0:
-                msp.add_line(
-                    (x0, y, z0),
-                    (x0 + 4 * text_height, y, z0),
-                    dxfattribs={"layer": f"KEY_{tag}", **attribs[band]},
-                )
-            note = msp.add_text(text, height=text_height, dxfattribs={"layer": f"KEY_{tag}"})
-            note.set_placement((x0 + 5 * text_height, y, z0), align=TextEntityAlignment.MIDDLE_LEFT)
-
+        new_layers = [_legend(doc, name, tag, top, (x0, y0, z0), text_height, colours, box)]
         if labels:
-            lab = doc.layers.add(f"L_{tag}", color=7)
-            lab.description = f"axial forces of {name} in kN, tension positive"
-            new_layers.append(lab)
-            mids = 0.5 * (nodes[ends[:, 0]] + nodes[ends[:, 1]])
-            rot = _text_rotation(nodes[ends[:, 1]] - nodes[ends[:, 0]])
-            kn = np.round(res.axial_forces / 1e3, 2)
-            kn[kn == 0.0] = 0.0  # no "-0.00"
-            for mid, r, value, band in zip(
-                mids.tolist(), rot.tolist(), kn.tolist(), bands.tolist(), strict=True
-            ):
-                label = msp.add_text(
-                    f"{value:.2f}",
-                    height=text_height,
-                    rotation=r,
-                    dxfattribs={"layer": f"L_{tag}", **attribs[band]},
-                )
-                label.set_placement(mid, align=TextEntityAlignment.MIDDLE_CENTER)
-
+            new_layers.append(_labels(doc, name, tag, nodes, ends, res.axial_forces, bands,
+                                      text_height, colours))
         scale = scales[name]
         if scale > 0:
             moved = nodes + scale * res.displacements / per_unit
-            ext_lo = np.minimum(ext_lo, moved.min(axis=0))
-            ext_hi = np.maximum(ext_hi, moved.max(axis=0))
+            box.grow(moved.min(axis=0), moved.max(axis=0))
             # The note above the frame: ~60 characters.
-            ext_hi = np.maximum(ext_hi, (x0 + 60 * 0.8 * text_height,
+            box.hi = np.maximum(box.hi, (x0 + 60 * 0.8 * text_height,
                                          float(hi[1]) + 3.0 * text_height, z0))
             streamed.append(LineLayer(
                 f"D_{tag}", np.stack([moved[ends[:, 0]], moved[ends[:, 1]]], axis=1), color=6,
                 description=f"deformed shape of {name}, displacements x {scale:.6g}",
                 on=step == 0))
-            dnote = doc.layers.add(f"D_{tag}", color=6)
-            dnote.description = streamed[-1].description
-            new_layers.append(dnote)
-            msp.add_text(
-                f"{name}: deformed shape, displacements x {format_number(scale, 3)}",
-                height=text_height,
-                dxfattribs={"layer": f"D_{tag}"},
-            ).set_placement(
-                (x0, float(hi[1]) + 2.0 * text_height, z0), align=TextEntityAlignment.MIDDLE_LEFT
-            )
+            new_layers.append(_deformed_note(doc, name, tag, streamed[-1].description, scale,
+                                             (x0, float(hi[1]) + 2.0 * text_height, z0),
+                                             text_height))
         if step > 0:
             for lay in new_layers:
                 lay.off()
 
     streamed += list(extra)
+    _add_line_layers(doc, streamed, box)
+    _save(final, doc, streamed, box)
+    return final
+
+
+def _checked_names(final: Path, results: Results, cases: Sequence[str] | None) -> list[str]:
+    """The results to draw, each checked to be one of ``results``."""
+    names = list(results) if cases is None else list(cases)
+    for name in names:
+        if name not in results:
+            raise WriteError(f"{final}: no result named {name!r} (have: {', '.join(results)})")
+    if not names:
+        raise WriteError(f"{final}: there are no load cases or combinations to draw")
+    return names
+
+
+@dataclass
+class _Extents:
+    """The drawing's extents, grown by everything drawn."""
+
+    lo: np.ndarray
+    hi: np.ndarray
+
+    def grow(self, lo: Any, hi: Any) -> None:
+        self.lo = np.minimum(self.lo, lo)
+        self.hi = np.maximum(self.hi, hi)
+
+
+@dataclass(frozen=True)
+class _BandColours:
+    """ACI and 24-bit colour per band (index band + BANDS), and DXF attributes per band."""
+
+    aci: np.ndarray
+    rgb: np.ndarray
+    attribs: dict[int, dict[str, int]]
+
+    @classmethod
+    def make(cls) -> _BandColours:
+        from ezdxf.colors import rgb2int
+
+        band_values = np.arange(-BANDS, BANDS + 1)
+        colors = {int(b): _band_color(int(b)) for b in band_values}
+        return cls(
+            np.array([_nearest_aci(colors[int(b)]) for b in band_values], dtype=np.int64),
+            np.array([rgb2int(colors[int(b)]) for b in band_values], dtype=np.int64),
+            {b: {"true_color": rgb2int(c), "color": _nearest_aci(c)} for b, c in colors.items()},
+        )
+
+
+def _legend_rows(name: str, top: float) -> list[tuple[int, str]]:
+    """(band, text) of each legend line, the title first (band 0)."""
+    rows = [
+        (
+            b,
+            f"T{b}  {format_number(top * (b - 1) / BANDS / 1e3)} < N <= "
+            f"{format_number(top * b / BANDS / 1e3)} kN",
+        )
+        for b in range(BANDS, 0, -1)
+    ]
+    rows.append((0, "0   no force"))
+    rows += [
+        (
+            -b,
+            f"C{b}  {format_number(-top * b / BANDS / 1e3)} <= N < "
+            f"{format_number(-top * (b - 1) / BANDS / 1e3)} kN",
+        )
+        for b in range(1, BANDS + 1)
+    ]
+    rows.insert(0, (0, f"{name}: axial force, tension positive"))
+    return rows
+
+
+def _legend(doc: Any, name: str, tag: str, top: float, origin: tuple[float, float, float],
+            text_height: float, colours: _BandColours, box: _Extents) -> Any:
+    """Layer ``KEY_<tag>`` with the band legend at ``origin``; returns the layer."""
+    from ezdxf.enums import TextEntityAlignment
+
+    msp = doc.modelspace()
+    x0, y0, z0 = origin
+    key = doc.layers.add(f"KEY_{tag}", color=7)
+    key.description = f"force band legend of {name}"
+    rows = _legend_rows(name, top)
+    # The legend's box: strokes, then text of at most ~45 characters.
+    box.grow((x0, y0 - 1.6 * text_height * len(rows), z0),
+             (x0 + 5 * text_height + 45 * 0.8 * text_height, y0, z0))
+    for k, (band, text) in enumerate(rows):
+        y = y0 - 1.6 * text_height * k
+        if k > 0:
+            msp.add_line(
+                (x0, y, z0),
+                (x0 + 4 * text_height, y, z0),
+                dxfattribs={"layer": f"KEY_{tag}", **colours.attribs[band]},
+            )
+        note = msp.add_text(text, height=text_height, dxfattribs={"layer": f"KEY_{tag}"})
+        note.set_placement((x0 + 5 * text_height, y, z0), align=TextEntityAlignment.MIDDLE_LEFT)
+    return key
+
+
+def _labels(doc: Any, name: str, tag: str, nodes: np.ndarray, ends: np.ndarray,
+            forces: np.ndarray, bands: np.ndarray, text_height: float,
+            colours: _BandColours) -> Any:
+    """Layer ``L_<tag>`` with each member's force in kN at its midpoint; returns the layer."""
+    from ezdxf.enums import TextEntityAlignment
+
+    msp = doc.modelspace()
+    lab = doc.layers.add(f"L_{tag}", color=7)
+    lab.description = f"axial forces of {name} in kN, tension positive"
+    mids = 0.5 * (nodes[ends[:, 0]] + nodes[ends[:, 1]])
+    rot = _text_rotation(nodes[ends[:, 1]] - nodes[ends[:, 0]])
+    kn = np.round(forces / 1e3, 2)
+    kn[kn == 0.0] = 0.0  # no "-0.00"
+    for mid, r, value, band in zip(
+        mids.tolist(), rot.tolist(), kn.tolist(), bands.tolist(), strict=True
+    ):
+        label = msp.add_text(
+            f"{value:.2f}",
+            height=text_height,
+            rotation=r,
+            dxfattribs={"layer": f"L_{tag}", **colours.attribs[band]},
+        )
+        label.set_placement(mid, align=TextEntityAlignment.MIDDLE_CENTER)
+    return lab
+
+
+def _deformed_note(doc: Any, name: str, tag: str, description: str, scale: float,
+                   at: tuple[float, float, float], text_height: float) -> Any:
+    """Layer ``D_<tag>`` with the note of the deformed shape's scale; returns the layer."""
+    from ezdxf.enums import TextEntityAlignment
+
+    dnote = doc.layers.add(f"D_{tag}", color=6)
+    dnote.description = description
+    doc.modelspace().add_text(
+        f"{name}: deformed shape, displacements x {format_number(scale, 3)}",
+        height=text_height,
+        dxfattribs={"layer": f"D_{tag}"},
+    ).set_placement(at, align=TextEntityAlignment.MIDDLE_LEFT)
+    return dnote
+
+
+def _add_line_layers(doc: Any, streamed: Sequence[LineLayer], box: _Extents) -> None:
+    """Grow the extents by the streamed lines and add their layers not made yet."""
     for ll in streamed:
         seg = np.asarray(ll.segments, dtype=float).reshape(-1, 2, 3)
         if seg.size:
-            ext_lo = np.minimum(ext_lo, seg.min(axis=(0, 1)))
-            ext_hi = np.maximum(ext_hi, seg.max(axis=(0, 1)))
+            box.grow(seg.min(axis=(0, 1)), seg.max(axis=(0, 1)))
         if ll.name in doc.layers:
             continue  # the deformed layer, made above with its note
         lay = doc.layers.add(ll.name, color=ll.color)
@@ -533,9 +600,13 @@ def write_results(
         if not ll.on:
             lay.off()
 
+
+def _save(final: Path, doc: Any, streamed: Sequence[LineLayer], box: _Extents) -> None:
+    """Write ezdxf's drawing with the streamed lines in its ENTITIES, atomically."""
+    msp = doc.modelspace()
     # ezdxf copies the model space's extents into the header when saving.
-    msp.dxf.extmin = tuple(float(v) for v in ext_lo)
-    msp.dxf.extmax = tuple(float(v) for v in ext_hi)
+    msp.dxf.extmin = tuple(float(v) for v in box.lo)
+    msp.dxf.extmax = tuple(float(v) for v in box.hi)
     # Reserve the handles of the streamed lines so that $HANDSEED, which
     # ezdxf writes from its handle generator, lies above all of them.
     total = sum(int(np.asarray(ll.segments).reshape(-1, 6).shape[0]) for ll in streamed)
@@ -563,4 +634,3 @@ def write_results(
         os.replace(tmp, final)
     finally:
         tmp.unlink(missing_ok=True)
-    return final

@@ -258,6 +258,50 @@ def _commit_all(done: list[tuple[Path, Path]]) -> None:
         _discard(done)
 
 
+class _Series:
+    """VTK files staged under temporary names, with a ``.pvd`` series over them.
+
+    Used as ``with _Series(pvd) as series``: :meth:`stage` names each file's
+    temporary, ``series.entries`` lists the ``.pvd`` datasets.  On leaving
+    without an error the ``.pvd`` is written and every file renamed onto its
+    target; on any failure every temporary file is removed.
+    """
+
+    def __init__(self, pvd: Path) -> None:
+        self.pvd = pvd
+        self.used: set[str] = {pvd.name.lower()}
+        self.done: list[tuple[Path, Path]] = []
+        self.entries: list[tuple[int, int, str, str]] = []
+
+    def unique(self, base: str) -> str:
+        """``<base>.vtu``, or ``<base>_2.vtu``, ... if taken (compared without case)."""
+        candidate, k = f"{base}.vtu", 2
+        while candidate.lower() in self.used:
+            candidate, k = f"{base}_{k}.vtu", k + 1
+        self.used.add(candidate.lower())
+        return candidate
+
+    def stage(self, final: Path) -> Path:
+        """The temporary file to write for ``final``."""
+        tmp = _temp_beside(final)
+        self.done.append((tmp, final))
+        return tmp
+
+    def __enter__(self) -> _Series:
+        return self
+
+    def __exit__(self, exc_type: type[BaseException] | None, *_: object) -> None:
+        if exc_type is not None:
+            _discard(self.done)
+            return
+        try:
+            _write_pvd(self.stage(self.pvd), self.entries)
+        except BaseException:
+            _discard(self.done)
+            raise
+        _commit_all(self.done)
+
+
 def _write_pvd(path: Path, entries: list[tuple[int, int, str, str]]) -> None:
     import xml.etree.ElementTree as ET
 
@@ -348,40 +392,20 @@ def write(
         raise WriteError(f"VTK output {pvd}: there are no load cases or combinations to write")
     folder.mkdir(parents=True, exist_ok=True)
 
-    used: set[str] = {pvd.name.lower()}
-
-    def unique(base: str) -> str:
-        candidate, k = f"{base}.vtu", 2
-        while candidate.lower() in used:
-            candidate, k = f"{base}_{k}.vtu", k + 1
-        used.add(candidate.lower())
-        return candidate
-
     with_panels = panels and results.model.n_panels > 0
-    entries: list[tuple[int, int, str, str]] = []
-    done: list[tuple[Path, Path]] = []
-    try:
+    with _Series(pvd) as series:
         for step, name in enumerate(names):
             base = f"{stem}_{_safe_name(name)}"
-            jobs = [(0, unique(base), member_grid)]
+            jobs = [(0, series.unique(base), member_grid)]
             if with_panels:
-                jobs.append((1, unique(f"{base}_panels"), panel_grid))
+                jobs.append((1, series.unique(f"{base}_panels"), panel_grid))
             for part, file, build in jobs:
-                final = folder / file
-                tmp = _temp_beside(final)
-                done.append((tmp, final))
+                tmp = series.stage(folder / file)
                 grid = build(results, name)
                 if part == 0:
                     _add_utilisation(grid, results, name, utilisation, governing_utilisation)
                 grid.save(tmp, binary=binary)
-                entries.append((step, part, file, name))
-        tmp_pvd = _temp_beside(pvd)
-        done.append((tmp_pvd, pvd))
-        _write_pvd(tmp_pvd, entries)
-    except BaseException:
-        _discard(done)
-        raise
-    _commit_all(done)
+                series.entries.append((step, part, file, name))
     return pvd
 
 
@@ -430,10 +454,8 @@ def write_modes(
         raise WriteError(f"VTK output {target}: there are no load cases or combinations to write")
     n = results.model.n_nodes
     target.mkdir(parents=True, exist_ok=True)
-    used: set[str] = {"modes.pvd"}
-    done: list[tuple[Path, Path]] = []
-    series: list[tuple[int, int, str, str]] = []
-    try:
+    # One series of every mode, so that open viewers step (animate) through them.
+    with _Series(target / "modes.pvd") as series:
         for m in modes:
             shape = np.asarray(m.shape, dtype=float)
             if shape.shape != (n, 3) or not np.isfinite(shape).all():
@@ -441,13 +463,8 @@ def write_modes(
                                  f"{m.result!r} is not {n} finite 3-vectors")
             base = (f"buckling_{_safe_name(m.result)}_mode{m.number}" if m.kind == "buckling"
                     else f"frequency_mode{m.number}")
-            file, k = f"{base}.vtu", 2
-            while file.lower() in used:
-                file, k = f"{base}_{k}.vtu", k + 1
-            used.add(file.lower())
-            final = target / file
-            tmp = _temp_beside(final)
-            done.append((tmp, final))
+            file = series.unique(base)
+            tmp = series.stage(target / file)
             grid = member_grid(results, m.result if m.result in results else names[0])
             grid.point_data["mode_shape"] = shape
             _set_text(grid, "mode_kind", m.kind)
@@ -456,15 +473,6 @@ def write_modes(
             key = "load_factor" if m.kind == "buckling" else "frequency_hz"
             grid.field_data[key] = np.array([float(m.value)])
             grid.save(tmp, binary=binary)
-            series.append((len(series), 0, file,
-                           f"{m.kind} {m.result} mode {m.number}".strip()))
-        # One series of every mode, so that open viewers step (animate) through them.
-        pvd = target / "modes.pvd"
-        tmp_pvd = _temp_beside(pvd)
-        done.append((tmp_pvd, pvd))
-        _write_pvd(tmp_pvd, series)
-    except BaseException:
-        _discard(done)
-        raise
-    _commit_all(done)
-    return [final for _, final in done]
+            series.entries.append((len(series.entries), 0, file,
+                                   f"{m.kind} {m.result} mode {m.number}".strip()))
+    return [final for _, final in series.done]

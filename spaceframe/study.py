@@ -87,61 +87,88 @@ def variant_key(params: Mapping[str, Any]) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
+def _apply_section(model: Model, key: str, rest: str, value: Any,
+                   sections: Mapping[str, Section]) -> None:
+    if rest not in model.groups:
+        raise ModelError(f"study: {key}: no member group {rest!r}")
+    if value not in sections:
+        raise ModelError(f"study: {key} = {value!r}: no section of that name")
+    sec = sections[value]
+    ids = model.groups[rest]
+    if math.isfinite(sec.second_moment):
+        model.set_member_properties(ids, area=sec.area, second_moment=sec.second_moment)
+    else:
+        model.set_member_properties(ids, area=sec.area)
+
+
+def _apply_case(model: Model, key: str, rest: str, value: Any,
+                sections: Mapping[str, Section]) -> None:
+    if rest not in model.cases:
+        raise ModelError(f"study: {key}: no load case {rest!r}")
+    f = _factor(key, value)
+    lc = model.cases[rest]
+    for name in ("forces", "temperature", "initial_strain", "settlement"):
+        setattr(lc, name, getattr(lc, name) * f)
+
+
+def _apply_combination(model: Model, key: str, rest: str, value: Any,
+                       sections: Mapping[str, Section]) -> None:
+    combo, _, case = rest.partition(".")
+    if combo not in model.combinations or case not in model.cases:
+        raise ModelError(f"study: {key}: no combination {combo!r} or load case {case!r}")
+    model.combinations[combo] = {**model.combinations[combo], case: _factor(key, value)}
+
+
+def _apply_scale(model: Model, key: str, rest: str, value: Any,
+                 sections: Mapping[str, Section]) -> None:
+    if rest not in _AXES:
+        raise ModelError(f"study: {key}: the axis must be x, y or z")
+    f = _factor(key, value)
+    if f <= 0:
+        raise ModelError(f"study: {key} = {value!r} must be positive")
+    old_mass = model.mass.copy()
+    ax = _AXES[rest]
+    nodes = model.nodes.copy()
+    low = nodes[:, ax].min()
+    nodes[:, ax] = low + (nodes[:, ax] - low) * f
+    model.nodes = nodes
+    model._invalidate()
+    model._follow_self_weight(old_mass)
+
+
+def _apply_restraint(model: Model, key: str, rest: str, value: Any,
+                     sections: Mapping[str, Section]) -> None:
+    if rest not in model.node_sets:
+        raise ModelError(f"study: {key}: no node set {rest!r}")
+    text = str(value).lower()
+    if text != "none" and (not text or set(text) - set("xyz")):
+        raise ModelError(f"study: {key} = {value!r} must be letters of 'xyz' or 'none'")
+    ids = model.node_sets[rest]
+    held = np.array([c in text for c in "xyz"])
+    restraint = model.restraint.copy()
+    restraint[ids] = held
+    model.restraint = restraint
+
+
+#: Parameter kind (the part of a ``vary`` key before the first dot) -> its step.
+_APPLY: dict[str, Callable[[Model, str, str, Any, Mapping[str, Section]], None]] = {
+    "section": _apply_section,
+    "case": _apply_case,
+    "combination": _apply_combination,
+    "scale": _apply_scale,
+    "restraint": _apply_restraint,
+}
+
+
 def _apply(model: Model, key: str, value: Any, sections: Mapping[str, Section]) -> None:
     kind, _, rest = key.partition(".")
-    if kind == "section":
-        if rest not in model.groups:
-            raise ModelError(f"study: {key}: no member group {rest!r}")
-        if value not in sections:
-            raise ModelError(f"study: {key} = {value!r}: no section of that name")
-        sec = sections[value]
-        ids = model.groups[rest]
-        if math.isfinite(sec.second_moment):
-            model.set_member_properties(ids, area=sec.area, second_moment=sec.second_moment)
-        else:
-            model.set_member_properties(ids, area=sec.area)
-    elif kind == "case":
-        if rest not in model.cases:
-            raise ModelError(f"study: {key}: no load case {rest!r}")
-        f = _factor(key, value)
-        lc = model.cases[rest]
-        for name in ("forces", "temperature", "initial_strain", "settlement"):
-            setattr(lc, name, getattr(lc, name) * f)
-    elif kind == "combination":
-        combo, _, case = rest.partition(".")
-        if combo not in model.combinations or case not in model.cases:
-            raise ModelError(f"study: {key}: no combination {combo!r} or load case {case!r}")
-        model.combinations[combo] = {**model.combinations[combo], case: _factor(key, value)}
-    elif kind == "scale":
-        if rest not in _AXES:
-            raise ModelError(f"study: {key}: the axis must be x, y or z")
-        f = _factor(key, value)
-        if f <= 0:
-            raise ModelError(f"study: {key} = {value!r} must be positive")
-        old_mass = model.mass.copy()
-        ax = _AXES[rest]
-        nodes = model.nodes.copy()
-        low = nodes[:, ax].min()
-        nodes[:, ax] = low + (nodes[:, ax] - low) * f
-        model.nodes = nodes
-        model._invalidate()
-        model._follow_self_weight(old_mass)
-    elif kind == "restraint":
-        if rest not in model.node_sets:
-            raise ModelError(f"study: {key}: no node set {rest!r}")
-        text = str(value).lower()
-        if text != "none" and (not text or set(text) - set("xyz")):
-            raise ModelError(f"study: {key} = {value!r} must be letters of 'xyz' or 'none'")
-        ids = model.node_sets[rest]
-        held = np.array([c in text for c in "xyz"])
-        restraint = model.restraint.copy()
-        restraint[ids] = held
-        model.restraint = restraint
-    else:
+    step = _APPLY.get(kind)
+    if step is None:
         raise ModelError(
             f"study: parameter {key!r} must start with section., case., combination., "
             "scale. or restraint."
         )
+    step(model, key, rest, value, sections)
 
 
 def _factor(key: str, value: Any) -> float:

@@ -126,65 +126,101 @@ def generate_combinations(
         On no actions, a repeated case, an unknown set or a bad factor.
     """
     acts = list(actions)
+    _check_inputs(acts, ultimate, gamma_G_sup=gamma_G_sup, gamma_G_inf=gamma_G_inf,
+                  gamma_Q=gamma_Q, xi=xi)
+    perm = [a for a in acts if a.kind == "permanent"]
+    var = [a for a in acts if a.kind == "variable"]
+    out = _Combinations(prefix)
+    _ultimate(out, ultimate, perm, var, gamma_G_sup=gamma_G_sup, gamma_G_inf=gamma_G_inf,
+              gamma_Q=gamma_Q, xi=xi)
+    _serviceability(out, serviceability, perm, var)
+    return out.combinations
+
+
+def _check_inputs(acts: list[Action], ultimate: str, **factors: float) -> None:
+    """Raise ModelError on no actions, a repeated case, a bad factor or ultimate set."""
     if not acts:
         raise ModelError("generate_combinations: no actions given")
     cases = [a.case for a in acts]
     if len(set(cases)) != len(cases):
         dup = next(c for c in cases if cases.count(c) > 1)
         raise ModelError(f"generate_combinations: case {dup!r} is declared twice")
-    for label, v in (("gamma_G_sup", gamma_G_sup), ("gamma_G_inf", gamma_G_inf),
-                     ("gamma_Q", gamma_Q), ("xi", xi)):
+    for label, v in factors.items():
         if not (isinstance(v, int | float) and v >= 0):
             raise ModelError(f"generate_combinations: {label} = {v!r} must be a number >= 0")
     if ultimate not in ("6.10", "6.10ab", ""):
         raise ModelError(
             f"generate_combinations: ultimate = {ultimate!r} must be '6.10', '6.10ab' or ''"
         )
-    perm = [a for a in acts if a.kind == "permanent"]
-    var = [a for a in acts if a.kind == "variable"]
-    out: list[GeneratedCombination] = []
-    seen: set[tuple[str, tuple[tuple[str, float], ...]]] = set()
 
-    def add(kind: str, label: str, factors: dict[str, float], leading: str | None) -> None:
+
+class _Combinations:
+    """The combinations made so far, numbered per label, each set of factors once."""
+
+    def __init__(self, prefix: str) -> None:
+        self.prefix = prefix
+        self.combinations: list[GeneratedCombination] = []
+        self.seen: set[tuple[str, tuple[tuple[str, float], ...]]] = set()
+
+    def add(self, kind: str, label: str, factors: dict[str, float], leading: str | None) -> None:
         clean = {c: round(f, 12) for c, f in factors.items() if f != 0.0}
         key = (label, tuple(sorted(clean.items())))
-        if not clean or key in seen:
+        if not clean or key in self.seen:
             return
-        seen.add(key)
-        count = sum(1 for g in out if g.name.startswith(f"{prefix}{label} "))
-        out.append(GeneratedCombination(f"{prefix}{label} {count + 1}", clean, kind, leading))
+        self.seen.add(key)
+        prefix = self.prefix
+        count = sum(1 for g in self.combinations if g.name.startswith(f"{prefix}{label} "))
+        self.combinations.append(
+            GeneratedCombination(f"{prefix}{label} {count + 1}", clean, kind, leading)
+        )
 
-    def permanents(sup: float) -> Iterable[dict[str, float]]:
-        for choice in itertools.product((sup, gamma_G_inf), repeat=len(perm)):
-            yield {a.case: g for a, g in zip(perm, choice, strict=True)}
 
+def _permanents(perm: list[Action], sup: float, inf: float) -> Iterable[dict[str, float]]:
+    """Factors of every permanent action, each unfavourable (``sup``) or favourable."""
+    for choice in itertools.product((sup, inf), repeat=len(perm)):
+        yield {a.case: g for a, g in zip(perm, choice, strict=True)}
+
+
+def _led(out: _Combinations, kind: str, perm: list[Action], var: list[Action], sup: float,
+         inf: float, gamma_Q: float) -> None:
+    """Eq. (6.10) / (6.10b): each variable action leads at γ_Q, the others at γ_Q ψ_0."""
+    for g in _permanents(perm, sup, inf):
+        for lead, f in _variable_patterns(var, gamma_Q, "psi0"):
+            q = {c: (v * gamma_Q if c != lead else v) for c, v in f.items()}
+            out.add(kind, "ULS", {**g, **q}, lead)
+
+
+def _ultimate(out: _Combinations, ultimate: str, perm: list[Action], var: list[Action], *,
+              gamma_G_sup: float, gamma_G_inf: float, gamma_Q: float, xi: float) -> None:
+    """The ultimate set "6.10" or "6.10ab" ("" for none)."""
     if ultimate == "6.10":
-        for g in permanents(gamma_G_sup):
-            for lead, f in _variable_patterns(var, gamma_Q, "psi0"):
-                q = {c: (v * gamma_Q if c != lead else v) for c, v in f.items()}
-                add("ULS 6.10", "ULS", {**g, **q}, lead)
+        _led(out, "ULS 6.10", perm, var, gamma_G_sup, gamma_G_inf, gamma_Q)
     elif ultimate == "6.10ab":
-        for g in permanents(gamma_G_sup):
+        for g in _permanents(perm, gamma_G_sup, gamma_G_inf):
             for _lead, f in _variable_patterns(var, 0.0, "psi0", unled=True):
                 q = {c: v * gamma_Q for c, v in f.items()}
-                add("ULS 6.10a", "ULS", {**g, **q}, None)
-        for g in permanents(xi * gamma_G_sup):
-            for lead, f in _variable_patterns(var, gamma_Q, "psi0"):
-                q = {c: (v * gamma_Q if c != lead else v) for c, v in f.items()}
-                add("ULS 6.10b", "ULS", {**g, **q}, lead)
-    sets: dict[str, tuple[float | str, str, str]] = {
-        "characteristic": (1.0, "psi0", "SLS-char"),
-        "frequent": ("psi1", "psi2", "SLS-freq"),
-        "quasi-permanent": (0.0, "psi2", "SLS-qp"),
-    }
+                out.add("ULS 6.10a", "ULS", {**g, **q}, None)
+        _led(out, "ULS 6.10b", perm, var, xi * gamma_G_sup, gamma_G_inf, gamma_Q)
+
+
+#: Serviceability set -> (leading factor or its ψ, ψ of the others, label).
+_SERVICEABILITY: dict[str, tuple[float | str, str, str]] = {
+    "characteristic": (1.0, "psi0", "SLS-char"),
+    "frequent": ("psi1", "psi2", "SLS-freq"),
+    "quasi-permanent": (0.0, "psi2", "SLS-qp"),
+}
+
+
+def _serviceability(out: _Combinations, serviceability: Iterable[str], perm: list[Action],
+                    var: list[Action]) -> None:
+    """The serviceability sets named, in order (§6.5.3)."""
     for name in serviceability:
-        if name not in sets:
+        if name not in _SERVICEABILITY:
             raise ModelError(
                 f"generate_combinations: serviceability set {name!r} must be one of "
-                f"{', '.join(sets)}"
+                f"{', '.join(_SERVICEABILITY)}"
             )
-        lead_f, other, label = sets[name]
+        lead_f, other, label = _SERVICEABILITY[name]
         g1 = {a.case: 1.0 for a in perm}
         for lead, f in _variable_patterns(var, lead_f, other, unled=(name == "quasi-permanent")):
-            add(f"SLS {name}", label, {**g1, **f}, lead)
-    return out
+            out.add(f"SLS {name}", label, {**g1, **f}, lead)

@@ -226,6 +226,14 @@ def _member_property(model: Model, name: str, default: float) -> np.ndarray:
     return np.asarray(value)
 
 
+def _require(model: Model, missing: np.ndarray, kind: str, what: str, fix: str) -> None:
+    """Raise ModelError naming the first member in ``missing`` ((b,) bool) and the count."""
+    if missing.any():
+        i = int(np.argmax(missing))  # the first member flagged
+        raise ModelError(f"check_members: {kind} {i}{model._group_text(i)} has no {what} "
+                         f"({int(missing.sum())} members without one); {fix}")
+
+
 def check_members(
     model: Model,
     result: Any,
@@ -295,21 +303,11 @@ def check_members(
     limit_c = _member_property(model, "slenderness_limit", np.nan).astype(float)
 
     steel = ~tension_only
-    no_fy = np.flatnonzero(steel & ~np.isfinite(fy))
-    if no_fy.size:
-        i = int(no_fy[0])
-        raise ModelError(
-            f"check_members: member {i}{model._group_text(i)} has no yield strength "
-            f"({no_fy.size} members without one); set it with set_member_properties("
-            "yield_strength=...) or a material with a yield strength"
-        )
-    no_break = np.flatnonzero(tension_only & ~np.isfinite(breaking))
-    if no_break.size:
-        i = int(no_break[0])
-        raise ModelError(
-            f"check_members: tension-only member {i}{model._group_text(i)} has no breaking "
-            f"force ({no_break.size} members without one); set breaking_force"
-        )
+    _require(model, steel & ~np.isfinite(fy), "member", "yield strength",
+             "set it with set_member_properties(yield_strength=...) or a material with a "
+             "yield strength")
+    _require(model, tension_only & ~np.isfinite(breaking), "tension-only member",
+             "breaking force", "set breaking_force")
 
     with np.errstate(invalid="ignore", divide="ignore"):
         # Tension: (6.6) and, with a net-area factor below 1, (6.7).

@@ -9,7 +9,7 @@ from numpy.typing import ArrayLike
 
 from spaceframe.errors import ModelError
 from spaceframe.geometry._types import FloatArray, IntArray
-from spaceframe.geometry.reports import _fmt_length
+from spaceframe.geometry.reports import _fmt_length, _positive_float
 from spaceframe.tolerances import GEOMETRY_TOLERANCE
 
 
@@ -87,13 +87,7 @@ def _as_ids(values: ArrayLike, upper: int, what: str) -> IntArray:
 
 
 def _check_tolerance(tolerance: float, what: str = "tolerance") -> float:
-    try:
-        tol = float(tolerance)
-    except (TypeError, ValueError):
-        raise ModelError(f"{what} must be a number; got {tolerance!r}") from None
-    if not (math.isfinite(tol) and tol > 0.0):
-        raise ModelError(f"{what} must be finite and > 0; got {tolerance!r}")
-    return tol
+    return _positive_float(tolerance, f"{what} must be a number", f"{what} must be finite and > 0")
 
 
 #: Float64 coordinates carry a round-off of about ``eps * |x|``; healing

@@ -109,11 +109,10 @@ remove_duplicates, drop_unused_nodes : bool
     )
     tol_text = _fmt_length(tol)
     _check_resolution(raw_nodes, tol)
-    steps: list[StepReport] = []
+    timer = _StepTimer()
     largest_move = 0.0
 
     # 1. merge close nodes
-    clock = time.perf_counter()
     if merge_nodes and n_raw:
         count, node_map, first = _merge_labels(raw_nodes, tol)
         cur_nodes = raw_nodes[first]
@@ -142,11 +141,9 @@ remove_duplicates, drop_unused_nodes : bool
         rep = _skipped("merge_nodes")
     cur_members = node_map[raw_members] if len(raw_members) else raw_members.copy()
     origin = np.arange(len(raw_members), dtype=np.int64)
-    rep.seconds = time.perf_counter() - clock
-    steps.append(rep)
+    timer.record(rep)
 
     # 2. zero-length members
-    clock = time.perf_counter()
     short_removed = np.zeros(0, dtype=np.int64)
     if remove_zero_length:
         zero = cur_members[:, 0] == cur_members[:, 1]
@@ -182,33 +179,22 @@ remove_duplicates, drop_unused_nodes : bool
         cur_members, origin = cur_members[~zero], origin[~zero]
     else:
         rep = _skipped("remove_zero_length")
-    rep.seconds = time.perf_counter() - clock
-    steps.append(rep)
+    timer.record(rep)
 
     # 3. split at nodes lying on members
-    clock = time.perf_counter()
     if split_at_nodes:
         hm, hn, ht = _points_on_members(cur_nodes, cur_members, tol)
         n_split = int(np.unique(hm).size)
         cur_members, src = _split_members(cur_members, hm, hn, ht)
         origin = origin[src]
-        rep = StepReport(
-            "split_at_nodes",
-            n_split,
-            _first_locations(cur_nodes[hn]),
-            f"split {n_split} members at {hm.size} points where nodes lie on them "
-            f"(within {tol_text}) into {n_split + hm.size} pieces",
-            lengths=(tol,),
-            template=f"split {n_split} members at {hm.size} points where nodes lie on them "
-            f"(within {{0}}) into {n_split + hm.size} pieces",
-        )
+        rep = _step("split_at_nodes", n_split, _first_locations(cur_nodes[hn]),
+                    f"split {n_split} members at {hm.size} points where nodes lie on them "
+                    f"(within {{0}}) into {n_split + hm.size} pieces", (tol,))
     else:
         rep = _skipped("split_at_nodes")
-    rep.seconds = time.perf_counter() - clock
-    steps.append(rep)
+    timer.record(rep)
 
     # 4. split at crossings
-    clock = time.perf_counter()
     if split_crossings:
         cross = _crossing_points(cur_nodes, cur_members, tol)
         if len(cross):
@@ -224,23 +210,14 @@ remove_duplicates, drop_unused_nodes : bool
             origin = origin[src]
         else:
             n_new, n_split, new_pts, hm = 0, 0, cross, np.zeros(0, dtype=np.int64)
-        rep = StepReport(
-            "split_crossings",
-            n_new,
-            _first_locations(new_pts),
-            f"added {n_new} nodes where members cross (closer than {tol_text}) and split "
-            f"{n_split} members into {n_split + hm.size} pieces",
-            lengths=(tol,),
-            template=f"added {n_new} nodes where members cross (closer than {{0}}) and split "
-            f"{n_split} members into {n_split + hm.size} pieces",
-        )
+        rep = _step("split_crossings", n_new, _first_locations(new_pts),
+                    f"added {n_new} nodes where members cross (closer than {{0}}) and split "
+                    f"{n_split} members into {n_split + hm.size} pieces", (tol,))
     else:
         rep = _skipped("split_crossings")
-    rep.seconds = time.perf_counter() - clock
-    steps.append(rep)
+    timer.record(rep)
 
     # 5. duplicates
-    clock = time.perf_counter()
     duplicates = np.zeros((0, 2), dtype=np.int64)
     if remove_duplicates and len(cur_members):
         lo = cur_members.min(axis=1)
@@ -269,11 +246,9 @@ remove_duplicates, drop_unused_nodes : bool
         rep = StepReport("remove_duplicates", 0, _no_locations(), "removed 0 duplicate members")
     else:
         rep = _skipped("remove_duplicates")
-    rep.seconds = time.perf_counter() - clock
-    steps.append(rep)
+    timer.record(rep)
 
     # 6. unused nodes
-    clock = time.perf_counter()
     if drop_unused_nodes:
         used = np.zeros(len(cur_nodes), dtype=bool)
         used[cur_members.reshape(-1)] = True
@@ -295,11 +270,9 @@ remove_duplicates, drop_unused_nodes : bool
         node_map = renumber[node_map]
     else:
         rep = _skipped("drop_unused_nodes")
-    rep.seconds = time.perf_counter() - clock
-    steps.append(rep)
+    timer.record(rep)
 
     # 7. components
-    clock = time.perf_counter()
     n_comp, labels = _ordered_labels(len(cur_nodes), cur_members[:, 0], cur_members[:, 1])
     if n_comp > 1:
         sizes = np.bincount(labels, minlength=n_comp)
@@ -317,8 +290,7 @@ remove_duplicates, drop_unused_nodes : bool
     else:
         detail = "the frame is in one part" if n_comp == 1 else "the frame is empty"
         rep = StepReport("components", n_comp, _no_locations(), detail)
-    rep.seconds = time.perf_counter() - clock
-    steps.append(rep)
+    timer.record(rep)
 
     return HealResult(
         nodes=cur_nodes,
@@ -327,7 +299,7 @@ remove_duplicates, drop_unused_nodes : bool
         duplicates=duplicates.astype(np.int64, copy=False),
         node_map=node_map.astype(np.int64, copy=False),
         components=labels,
-        report=HealReport(steps, n_comp),
+        report=HealReport(timer.steps, n_comp),
         n_raw_members=len(raw_members),
         largest_move=largest_move,
         short_removed=short_removed,
@@ -375,17 +347,9 @@ def remap_node_sets(
     is left out with a :class:`~spaceframe.errors.SpaceframeWarning` naming
     the set and the nodes.
 
-    Parameters
-    ----------
-    sets : dict of str to (s,) int
-        Raw node ids per set name.
-    result : HealResult
-        Result of :func:`heal` on those raw nodes.
-
-    Returns
-    -------
-    dict of str to (s',) int64
-        Sorted unique healed node ids per set.
+    As :func:`remap_groups`, for node sets: ``sets`` maps each set name to
+    raw node ids, and the sorted unique healed node ids (int64) come back
+    per set name.
     """
     out: dict[str, NDArray[np.int64]] = {}
     for name, ids in sets.items():  # one pass per set, not per node
@@ -402,3 +366,16 @@ def remap_node_sets(
             )
         out[name] = np.unique(new[new >= 0]).astype(np.int64)
     return out
+
+
+class _StepTimer:
+    """The healing steps' reports, each timed from the end of the one before."""
+
+    def __init__(self) -> None:
+        self.steps: list[StepReport] = []
+        self.clock = time.perf_counter()
+
+    def record(self, rep: StepReport) -> None:
+        rep.seconds = time.perf_counter() - self.clock
+        self.steps.append(rep)
+        self.clock = time.perf_counter()

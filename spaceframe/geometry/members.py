@@ -90,10 +90,8 @@ def merge_collinear_chains(
 
     Parameters
     ----------
-    nodes : (n, 3) float
-        Node coordinates, metres.
-    members : (b, 2) int
-        Node-id pairs.
+    nodes, members : (n, 3) float, (b, 2) int
+        As for :func:`find_mid_member_nodes`.
     mid_nodes : (k,) int
         Nodes to merge through; each must have exactly two members.
     keep_nodes : (j,) int, optional

@@ -49,6 +49,21 @@ def _no_locations() -> FloatArray:
     return np.zeros((0, 3), dtype=np.float64)
 
 
+def _positive_float(value: Any, not_number: str, not_positive: str | None = None) -> float:
+    """``value`` as a finite float > 0.
+
+    Raises ModelError ``"<not_number>; got <value>"`` when it is not a number,
+    ``"<not_positive>; got <value>"`` (default the same) when not finite and > 0.
+    """
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise ModelError(f"{not_number}; got {value!r}") from None
+    if not (math.isfinite(number) and number > 0.0):
+        raise ModelError(f"{not_positive or not_number}; got {value!r}")
+    return number
+
+
 @dataclass
 class StepReport:
     """What one healing step did.
@@ -103,12 +118,7 @@ class StepReport:
         str
             ``"name: detail"`` followed by the locations, if any.
         """
-        try:
-            factor = float(scale)
-        except (TypeError, ValueError):
-            raise ModelError(f"scale must be a finite positive number; got {scale!r}") from None
-        if not (math.isfinite(factor) and factor > 0):
-            raise ModelError(f"scale must be a finite positive number; got {scale!r}")
+        factor = _positive_float(scale, "scale must be a finite positive number")
         detail = self.detail
         if self.template:
             detail = self.template.format(*(_unit_length(x, factor, unit) for x in self.lengths))

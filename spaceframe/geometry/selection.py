@@ -87,17 +87,18 @@ class Ids:
 
 
 @dataclass(frozen=True)
-class Group:
+class _Named:
+    """A selector of named sets (its subclasses say which sets)."""
+
+    names: tuple[str, ...]
+
+
+class Group(_Named):
     """Named groups: member groups, and panel groups of the same names."""
 
-    names: tuple[str, ...]
 
-
-@dataclass(frozen=True)
-class NodeSet:
+class NodeSet(_Named):
     """Named node sets."""
-
-    names: tuple[str, ...]
 
 
 @dataclass(frozen=True)
@@ -165,24 +166,22 @@ class Points:
 
 
 @dataclass(frozen=True)
-class Union:
+class _Combined:
+    """Set algebra over parts (its subclasses say which)."""
+
+    parts: tuple[Selector, ...]
+
+
+class Union(_Combined):
     """Picked by any part."""
 
-    parts: tuple[Selector, ...]
 
-
-@dataclass(frozen=True)
-class Intersection:
+class Intersection(_Combined):
     """Picked by every part."""
 
-    parts: tuple[Selector, ...]
 
-
-@dataclass(frozen=True)
-class Difference:
+class Difference(_Combined):
     """Picked by the first part and by none of the others."""
-
-    parts: tuple[Selector, ...]
 
 
 @dataclass(frozen=True)
@@ -477,6 +476,14 @@ def references(selector: Selector) -> set[str]:
     return set()
 
 
+#: Selectors described by a word and the names they list: type -> (word, attribute).
+_LISTED: dict[type, tuple[str, str]] = {
+    Group: ("group", "names"),
+    NodeSet: ("node set", "names"),
+    Markers: ("markers on", "layers"),
+}
+
+
 def describe(selector: Selector) -> str:
     """A short human-readable description, for messages and reports."""
     s = selector
@@ -485,16 +492,13 @@ def describe(selector: Selector) -> str:
     if isinstance(s, Ids):
         shown = ", ".join(str(i) for i in s.ids[:6]) + (", ..." if len(s.ids) > 6 else "")
         return f"ids [{shown}]"
-    if isinstance(s, Group):
-        return "group " + ", ".join(repr(n) for n in s.names)
-    if isinstance(s, NodeSet):
-        return "node set " + ", ".join(repr(n) for n in s.names)
+    if isinstance(s, Group | NodeSet | Markers):
+        word, attribute = _LISTED[type(s)]
+        return f"{word} " + ", ".join(repr(n) for n in getattr(s, attribute))
     if isinstance(s, Box):
         return f"box {list(s.lower)} to {list(s.upper)}"
     if isinstance(s, Plane):
         return f"plane normal {list(s.normal)} at {s.at}"
-    if isinstance(s, Markers):
-        return "markers on " + ", ".join(repr(n) for n in s.layers)
     if isinstance(s, Points):
         return f"{len(s.xyz)} points"
     if isinstance(s, Ref):
