@@ -43,7 +43,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 import scipy.sparse as sp
 
-from spaceframe.assembly import member_dofs
+from spaceframe.assembly import free_dof_map, member_dofs
 from spaceframe.solvers import SingularFactor, factorize_ldlt
 
 if TYPE_CHECKING:
@@ -110,14 +110,12 @@ class Bars:
         self.L0 = self.L - self.shorten
         self.f = f
         self.restrained = model.restraint.ravel().copy()
-        self.free = np.flatnonzero(~self.restrained)
+        dof_map, self.free = free_dof_map(model.restraint)
         self.spring_all = model.springs.ravel().copy()
         self.spring = self.spring_all[self.free]
         self.q = f[self.free]
         nf = self.free.size
         self.nf = nf
-        dof_map = np.full(3 * self.n, -1, dtype=np.int64)
-        dof_map[self.free] = np.arange(nf)
         self.dofs = member_dofs(self.members).astype(np.int64)  # (b, 6)
         loc = dof_map[self.dofs]
         rows = np.repeat(loc, 6, axis=1)  # entry 6a + b of a member: row of its dof a

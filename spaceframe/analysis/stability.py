@@ -22,7 +22,7 @@ inertia count above, with bases of both null spaces where they are few.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 import scipy.sparse as sp
@@ -30,7 +30,7 @@ from scipy.sparse.csgraph import connected_components
 
 from spaceframe.assembly import equilibrium_matrix, full_symmetric, reduced_stiffness
 from spaceframe.errors import MechanismError, ModelError, SolverError
-from spaceframe.solvers import PIVOT_TOLERANCE, SingularFactor
+from spaceframe.solvers import PIVOT_TOLERANCE, LDLFactor, SingularFactor, factorize_ldlt
 from spaceframe.tolerances import MAX_STIFFNESS_RATIO, NODE_STIFFNESS_RATIO, RANK_TOLERANCE
 
 if TYPE_CHECKING:
@@ -351,23 +351,25 @@ def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
     Sylvester's law of inertia: K - tau I = L D L^T has as many negative
     pivots as K has eigenvalues below tau (the Sturm sequence check of
     structural eigenvalue solvers, Bathe, "Finite Element Procedures", 1996,
-    section 11.4.3).  SuperLU in symmetric mode with diagonal pivoting and
-    one ordering for rows and columns is such an L D L^T (U = D L^T), so the
-    signs of U's diagonal are those pivots.  scipy has no sparse LDL^T or
-    rank-revealing sparse QR; this is why SuperLU is driven this way here.
-    A mechanism's pivot is -tau plus round-off and its column below is
-    round-off too (Ks is positive semi-definite), so the elimination does not
-    grow; a pivot that lands almost on zero (an eigenvalue within a hair of
-    tau) is retried with a shift moved by a factor 1.5.
+    section 11.4.3).  :func:`spaceframe.solvers.factorize_ldlt` is such an
+    L D L^T (SuperLU in symmetric mode with diagonal pivoting); its
+    ``pivots`` are D.  Here the pivots are judged against the shift, not
+    against their diagonals as its ``inertia`` does.  A mechanism's pivot is
+    -tau plus round-off and its column below is round-off too (Ks is
+    positive semi-definite), so the elimination does not grow; a pivot that
+    lands almost on zero (an eigenvalue within a hair of tau) is retried
+    with a shift moved by a factor 1.5.
     """
     last: Exception | None = None
     for shift in (tau, tau * 1.5, tau / 1.5):
         try:
-            lu = _splu_shifted(Ks, shift)
-        except RuntimeError as exc:  # an exactly zero pivot
+            d = _shifted_ldlt(Ks, shift).pivots
+        except SingularFactor as exc:
             last = exc
             continue
-        d = lu.U.diagonal()
+        if d is None:
+            last = SolverError("an exactly zero pivot in the symmetric elimination")
+            continue
         if not np.all(np.isfinite(d)):
             last = SolverError("non-finite pivots")
             continue
@@ -378,20 +380,13 @@ def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
     raise SolverError(f"determinacy: the inertia count failed ({last})")
 
 
-def _splu_shifted(Ks: sp.spmatrix, shift: float) -> Any:
-    """SuperLU of Ks - shift I: symmetric mode, diagonal pivots, COLAMD order."""
-    import scipy.sparse.linalg as spla
-
+def _shifted_ldlt(Ks: sp.spmatrix, shift: float) -> LDLFactor:
+    """L D L^T of Ks - shift I (solvers.factorize_ldlt) in COLAMD order."""
     eye = sp.identity(Ks.shape[0], format="csc")
     # COLAMD: on these matrices (not pre-ordered) it fills several times less
     # than MMD on A^T + A; with diagonal pivoting in symmetric mode the row
     # order follows the column order, so this is an L D L^T.
-    return spla.splu(
-        sp.csc_matrix(Ks - shift * eye),
-        permc_spec="COLAMD",
-        diag_pivot_thresh=0.0,
-        options={"SymmetricMode": True},
-    )
+    return factorize_ldlt(sp.csc_matrix(Ks - shift * eye), ordering="COLAMD")
 
 
 def _lowest_modes(Ks: sp.spmatrix, k: int, tau: float) -> tuple[np.ndarray, np.ndarray]:
@@ -411,7 +406,7 @@ def _lowest_modes(Ks: sp.spmatrix, k: int, tau: float) -> tuple[np.ndarray, np.n
     n = Ks.shape[0]
     k = max(1, min(k, n))
     p = min(n, k + min(k, 8) + 2)
-    lu = _splu_shifted(Ks, -tau / 100.0)
+    lu = _shifted_ldlt(Ks, -tau / 100.0)
     X = np.random.default_rng(0).standard_normal((n, p))
     w = np.zeros(p)
     for _ in range(8):
