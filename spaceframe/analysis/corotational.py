@@ -31,8 +31,13 @@ law of inertia the negative entries of diag(U) count K's negative
 eigenvalues.  When SuperLU had to leave the diagonal (its row and column
 permutations differ) or needed partial pivoting, the count is unknown (-1).
 
-This assembly duplicates the geometric-stiffness assembly planned for a
-shared module of element matrices; to be unified with it.
+The blocks are those of :func:`spaceframe.assembly.elastic_stiffness` and
+:func:`spaceframe.analysis.matrices.geometric_stiffness` in the current
+geometry, but the tangent is not built by
+:func:`spaceframe.assembly.assemble_blocks`: a Newton step assembles it many
+times, and summing into a pattern found once avoids a sparse build each time
+(the sums run in member order, so the entries differ from that routine's in
+the last bits).
 """
 
 from __future__ import annotations
