@@ -13,7 +13,7 @@ Conventions (tension positive):
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Literal, TypedDict, Unpack
 
 import numpy as np
 import scipy.sparse as sp
@@ -22,14 +22,36 @@ if TYPE_CHECKING:
     from spaceframe.model import Model
 
 __all__ = [
+    "Numbering",
     "assemble_blocks",
+    "elastic_stiffness",
     "equilibrium_matrix",
+    "free_dof_map",
     "full_symmetric",
     "index_dtype",
     "member_dofs",
     "reduced_stiffness",
     "stiffness_matrix",
 ]
+
+Triangle = Literal["full", "upper"]
+
+
+class Numbering(TypedDict, total=False):
+    """How an assembled matrix is numbered and stored (keywords of every assembly routine).
+
+    dof_map : (3n,) int
+        Renumbering of global dofs; entries < 0 are dropped (restrained).
+        Used to assemble the reduced (free-free) matrix without slicing.
+    n_dof : int
+        Size of the renumbered system (default ``dof_map.max() + 1``).
+    triangle : {"full", "upper"}
+        All entries (default), or only the upper triangle (for symmetric solvers).
+    """
+
+    dof_map: np.ndarray | None
+    n_dof: int | None
+    triangle: Triangle
 
 
 def index_dtype(n: int) -> type[np.signedinteger]:
@@ -83,9 +105,7 @@ def assemble_blocks(
     off: np.ndarray,
     *,
     nodal: np.ndarray | None = None,
-    dof_map: np.ndarray | None = None,
-    n_dof: int | None = None,
-    triangle: Literal["full", "upper"] = "full",
+    **numbering: Unpack[Numbering],
 ) -> sp.csr_matrix:
     """Assemble member matrices [[D, O], [O, D]] on the elastic stiffness's pattern.
 
@@ -98,18 +118,17 @@ def assemble_blocks(
         Upper triangles of each member's blocks D and O.
     nodal : (n, 3) float, optional
         Extra diagonal terms per node and axis (springs, added masses).
-    dof_map : (3n,) int, optional
-        Renumbering of global dofs; entries < 0 are dropped (restrained).
-    n_dof : int, optional
-        Size of the renumbered system (default ``dof_map.max() + 1``).
-    triangle : {"full", "upper"}
-        All entries, or only the upper triangle (for symmetric solvers).
+    **numbering
+        ``dof_map``, ``n_dof``, ``triangle``: see :class:`Numbering`.
 
     Returns
     -------
     scipy.sparse.csr_matrix
         Duplicates summed, indices sorted; zeros in the pattern kept.
     """
+    dof_map = numbering.get("dof_map")
+    n_dof = numbering.get("n_dof")
+    triangle = numbering.get("triangle", "full")
     members = np.asarray(members)
     b = members.shape[0]
     n = int(n_nodes)
@@ -165,53 +184,76 @@ def assemble_blocks(
     return M
 
 
-def stiffness_matrix(
-    model: Model,
-    dof_map: np.ndarray | None = None,
-    n_dof: int | None = None,
-    triangle: Literal["full", "upper"] = "full",
-) -> sp.csr_matrix:
-    """Assemble the member stiffness K = A diag(EA/L) A^T directly.
+def free_dof_map(restraint: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Renumbering that eliminates restrained directions.
 
     Parameters
     ----------
-    model : Model
-    dof_map : (3n,) int, optional
-        Renumbering of global degrees of freedom; entries < 0 are dropped.
-        Used to assemble the reduced (free-free) matrix without slicing.
-    n_dof : int, optional
-        Size of the renumbered system (default ``dof_map.max() + 1``).
-    triangle : {"full", "upper"}
-        Keep all entries, or only the upper triangle (for symmetric solvers).
+    restraint : (n, 3) bool
+
+    Returns
+    -------
+    dof_map : (3n,) int
+        New number of each global dof, -1 where restrained.
+    free : (m,) int
+        Global dof of each new number.
+    """
+    flat = np.asarray(restraint, dtype=bool).ravel()
+    free = np.flatnonzero(~flat)
+    dof_map = np.full(flat.size, -1, dtype=np.int64)
+    dof_map[free] = np.arange(free.size)
+    return dof_map, free
+
+
+def elastic_stiffness(
+    members: np.ndarray,
+    n_nodes: int,
+    directions: np.ndarray,
+    axial_stiffness: np.ndarray,
+    *,
+    springs: np.ndarray | None = None,
+    **numbering: Unpack[Numbering],
+) -> sp.csr_matrix:
+    """Elastic stiffness Σ (EA/L) [[ccᵀ, -ccᵀ], [-ccᵀ, ccᵀ]], plus springs (n, 3) N/m.
+
+    From arrays, so that an analysis can pass modified geometry; numbered as
+    ``numbering`` says (:class:`Numbering`), on the pattern of
+    :func:`assemble_blocks`.
+    """
+    D = np.asarray(axial_stiffness, dtype=float)[:, None] * _outer6(directions)
+    return assemble_blocks(members, n_nodes, D, -D, nodal=springs, **numbering)
+
+
+def stiffness_matrix(model: Model, **numbering: Unpack[Numbering]) -> sp.csr_matrix:
+    """The member stiffness K = A diag(EA/L) A^T of a model, assembled directly.
+
+    ``numbering`` (:class:`Numbering`) gives the reduced (free-free) matrix
+    without slicing, or its upper triangle.  Springs are not included.
 
     Returns
     -------
     K : scipy.sparse.csr_matrix
         Duplicates summed, indices sorted.
     """
-    member = model.axial_stiffness[:, None] * _outer6(model.directions)
-    return assemble_blocks(model.members, model.n_nodes, member, -member, dof_map=dof_map,
-                           n_dof=n_dof, triangle=triangle)
+    return elastic_stiffness(model.members, model.n_nodes, model.directions,
+                             model.axial_stiffness, **numbering)
 
 
 def reduced_stiffness(
-    model: Model, triangle: Literal["full", "upper"] = "full"
+    model: Model, triangle: Triangle = "full"
 ) -> tuple[sp.csr_matrix, np.ndarray]:
     """Stiffness on the free directions (springs on the diagonal) and their dof numbers.
 
     ``triangle="upper"`` stores the upper triangle only (what PARDISO is given).
     """
-    free = np.flatnonzero(~model.restraint.ravel())
-    dof_map = np.full(3 * model.n_nodes, -1, dtype=np.int64)
-    dof_map[free] = np.arange(free.size)
-    K = stiffness_matrix(model, dof_map=dof_map, n_dof=free.size, triangle=triangle)
-    spring = model.springs.ravel()[free]
-    if np.any(spring):
-        K.setdiag(K.diagonal() + spring)
+    dof_map, free = free_dof_map(model.restraint)
+    K = elastic_stiffness(model.members, model.n_nodes, model.directions, model.axial_stiffness,
+                          springs=model.springs, dof_map=dof_map, n_dof=free.size,
+                          triangle=triangle)
     return K, free
 
 
-def full_symmetric(K: sp.spmatrix, triangle: Literal["full", "upper"]) -> sp.spmatrix:
+def full_symmetric(K: sp.spmatrix, triangle: Triangle) -> sp.spmatrix:
     """The full symmetric matrix from one stored as ``triangle``."""
     if triangle == "full":
         return K

@@ -47,6 +47,8 @@ __all__ = [
 ]
 
 Backend = Literal["auto", "scipy", "pardiso"]
+#: Fill-reducing orderings SuperLU offers for a symmetric elimination.
+Ordering = Literal["MMD_AT_PLUS_A", "COLAMD"]
 
 #: Pivot size, relative to the diagonal entry of the same degree of freedom
 #: (the stiffness that direction had before elimination), below which a pivot
@@ -324,20 +326,23 @@ class LDLFactor:
     section 8.1.5).  Where that elimination meets an exactly zero pivot, or
     SuperLU departs from the symmetric ordering, partial pivoting gives a
     sound solve and ``inertia`` is None (unknown).  ``inertia`` is also None
-    when a pivot is non-finite.
+    when a pivot is non-finite.  ``pivots`` holds D (in elimination order)
+    where the symmetric elimination went through, else None.  ``ordering``
+    is SuperLU's column ordering (applied to rows too).
     """
 
     name = "scipy-ldlt"
 
-    def __init__(self, K: sp.spmatrix) -> None:
+    def __init__(self, K: sp.spmatrix, ordering: Ordering = "MMD_AT_PLUS_A") -> None:
         import scipy.sparse.linalg as spla
 
         Kc = sp.csc_matrix(K)
         self.inertia: Inertia | None = None
+        self.pivots: np.ndarray | None = None
         try:
             lu = spla.splu(
                 Kc,
-                permc_spec="MMD_AT_PLUS_A",
+                permc_spec=ordering,
                 diag_pivot_thresh=0.0,
                 options={"SymmetricMode": True},
             )
@@ -345,8 +350,9 @@ class LDLFactor:
             lu = None
         if lu is not None and np.array_equal(lu.perm_r, lu.perm_c):
             inv = np.argsort(lu.perm_c)
+            self.pivots = lu.U.diagonal()
             try:
-                self.inertia = pivot_inertia(lu.U.diagonal(), Kc.diagonal()[inv])
+                self.inertia = pivot_inertia(self.pivots, Kc.diagonal()[inv])
             except SingularFactor:
                 self.inertia = None
         if lu is None:
@@ -361,15 +367,19 @@ class LDLFactor:
         return np.asarray(self._lu.solve(np.asarray(rhs, dtype=float)))
 
 
-def factorize_ldlt(K: sp.spmatrix) -> LDLFactor:
+def factorize_ldlt(K: sp.spmatrix, ordering: Ordering = "MMD_AT_PLUS_A") -> LDLFactor:
     """Factorise a symmetric (possibly indefinite) matrix and count its inertia.
+
+    ``ordering``: minimum degree on A^T + A (the default), or COLAMD, which
+    fills less on matrices that are not pre-ordered and have many nodes
+    sharing few directions (the Gram matrices of determinacy).
 
     Raises
     ------
     SingularFactor
         When even partial pivoting finds the matrix exactly singular.
     """
-    return LDLFactor(K)
+    return LDLFactor(K, ordering)
 
 
 def shift_invert(

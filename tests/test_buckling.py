@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from _bars import pinned_bar
 from benchmarks.grids import double_layer_grid
 
 import spaceframe as sf
@@ -57,10 +58,7 @@ def test_bar_on_lateral_spring_and_fewer_factors_than_asked() -> None:
     # Closed form: a bar of length L pinned at one end, the other on a lateral
     # spring k, under axial compression P: k - λP/L = 0, so λ = kL/P.
     L, k, P = 3.0, 1e5, 1e3
-    m = sf.Model()
-    m.add_nodes([[0, 0, 0], [L, 0, 0]])
-    m.add_members([[0, 1]], area=A, E=E)
-    m.add_support([0])
+    m = pinned_bar(L, A, E)
     m.add_support([1], x=False, y=False, z=True)
     m.add_spring([1], ky=k)
     m.add_load("P", [1], (-P, 0.0, 0.0))

@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 import scipy.optimize as so
 import scipy.sparse as sp
+from _bars import pinned_bar
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -189,10 +190,7 @@ def test_straight_bar_in_tension_is_exact_and_matches_the_linear_solve() -> None
     also the linear answer.
     """
     L, P = 2.0, 0.05 * EA  # 5 % strain: far from small
-    m = sf.Model()
-    m.add_nodes([[0, 0, 0], [L, 0, 0]])
-    m.add_members([[0, 1]], area=AREA, E=E)
-    m.add_support([0])
+    m = pinned_bar(L, AREA, E)
     m.add_support([1], x=False)
     m.add_load("T", [1], (P, 0, 0))
     path = sf.solve_nonlinear(m, "T")
@@ -202,10 +200,7 @@ def test_straight_bar_in_tension_is_exact_and_matches_the_linear_solve() -> None
     np.testing.assert_allclose(path.reactions[:, 0, 0], -lam * P, rtol=1e-12)
     assert lam[-1] == 1.0
     # Small load: the linear solve of the same bar.
-    m2 = sf.Model()
-    m2.add_nodes([[0, 0, 0], [L, 0, 0]])
-    m2.add_members([[0, 1]], area=AREA, E=E)
-    m2.add_support([0])
+    m2 = pinned_bar(L, AREA, E)
     m2.add_support([1], x=False)
     m2.add_load("T", [1], (1e3, 0, 0))
     lin = m2.solve()["T"]
@@ -217,10 +212,7 @@ def test_straight_bar_in_tension_is_exact_and_matches_the_linear_solve() -> None
 def test_spring_in_parallel_with_a_bar() -> None:
     """Bar and axial spring k at its free end share the load: P = (EA/L + k) u, exactly."""
     L, k, P = 1.0, 3.0e7, 2.0e5
-    m = sf.Model()
-    m.add_nodes([[0, 0, 0], [L, 0, 0]])
-    m.add_members([[0, 1]], area=AREA, E=E)
-    m.add_support([0])
+    m = pinned_bar(L, AREA, E)
     m.add_support([1], x=False)
     m.add_spring([1], kx=k)
     m.add_load("T", [1], (P, 0, 0))

@@ -31,8 +31,13 @@ law of inertia the negative entries of diag(U) count K's negative
 eigenvalues.  When SuperLU had to leave the diagonal (its row and column
 permutations differ) or needed partial pivoting, the count is unknown (-1).
 
-This assembly duplicates the geometric-stiffness assembly planned for a
-shared module of element matrices; to be unified with it.
+The blocks are those of :func:`spaceframe.assembly.elastic_stiffness` and
+:func:`spaceframe.analysis.matrices.geometric_stiffness` in the current
+geometry, but the tangent is not built by
+:func:`spaceframe.assembly.assemble_blocks`: a Newton step assembles it many
+times, and summing into a pattern found once avoids a sparse build each time
+(the sums run in member order, so the entries differ from that routine's in
+the last bits).
 """
 
 from __future__ import annotations
@@ -43,7 +48,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 import scipy.sparse as sp
 
-from spaceframe.assembly import member_dofs
+from spaceframe.assembly import free_dof_map, member_dofs
 from spaceframe.solvers import SingularFactor, factorize_ldlt
 
 if TYPE_CHECKING:
@@ -110,14 +115,12 @@ class Bars:
         self.L0 = self.L - self.shorten
         self.f = f
         self.restrained = model.restraint.ravel().copy()
-        self.free = np.flatnonzero(~self.restrained)
+        dof_map, self.free = free_dof_map(model.restraint)
         self.spring_all = model.springs.ravel().copy()
         self.spring = self.spring_all[self.free]
         self.q = f[self.free]
         nf = self.free.size
         self.nf = nf
-        dof_map = np.full(3 * self.n, -1, dtype=np.int64)
-        dof_map[self.free] = np.arange(nf)
         self.dofs = member_dofs(self.members).astype(np.int64)  # (b, 6)
         loc = dof_map[self.dofs]
         rows = np.repeat(loc, 6, axis=1)  # entry 6a + b of a member: row of its dof a

@@ -26,8 +26,8 @@ import scipy.linalg as sla
 import scipy.sparse as sp
 from scipy.sparse.linalg import ArpackError, ArpackNoConvergence, LinearOperator, eigsh
 
-from spaceframe.analysis.stability import describe_dofs, mechanism_modes
-from spaceframe.errors import MechanismError, ModelError, SolverError
+from spaceframe.analysis.stability import mechanism_error
+from spaceframe.errors import ModelError, SolverError
 from spaceframe.solvers import Factor, SingularFactor, factorize, shift_invert
 from spaceframe.tolerances import (
     BUCKLING_SHIFT_FRACTION,
@@ -54,22 +54,7 @@ def factor_or_mechanism(K: sp.spmatrix, free: np.ndarray, backend: str, what: st
     try:
         return factorize(K, backend)
     except SingularFactor as exc:
-        try:
-            _, modes = mechanism_modes(K, free)
-        except Exception:  # naming is best effort; the mechanism is certain
-            modes = []
-        if modes:
-            dofs = np.unique(np.concatenate(modes))
-            text = "; ".join(f"mode {j + 1} moves {describe_dofs(d)}" for j, d in enumerate(modes))
-        else:
-            dofs = free[exc.dofs] if exc.dofs.size else np.zeros(0, dtype=np.int64)
-            text = f"zero stiffness at {describe_dofs(dofs)}" if dofs.size else str(exc)
-        nodes, axes = np.divmod(dofs, 3)
-        raise MechanismError(
-            f"{what}: the frame is a mechanism (singular stiffness): {text}",
-            nodes=nodes,
-            directions=["xyz"[a] for a in axes],
-        ) from exc
+        raise mechanism_error(K, free, exc, what, detail=False) from exc
 
 
 def spectral_scale(K: sp.spmatrix, B: sp.spmatrix) -> float:

@@ -29,16 +29,26 @@ The blocks (tension positive, c the unit vector from i to j, L the length):
 
 Arguments are arrays, not a Model, so that an analysis can pass modified
 geometry or forces; :func:`member_geometry` gives lengths and directions.
+The elastic stiffness and the renumbering of free directions live beside
+the assembly (:func:`spaceframe.assembly.elastic_stiffness`,
+:func:`spaceframe.assembly.free_dof_map`) and are re-exported here; every
+routine takes the keywords of :class:`spaceframe.assembly.Numbering`.
 """
 
 from __future__ import annotations
 
-from typing import Literal
+from typing import Literal, Unpack
 
 import numpy as np
 import scipy.sparse as sp
 
-from spaceframe.assembly import _outer6, assemble_blocks
+from spaceframe.assembly import (
+    Numbering,
+    _outer6,
+    assemble_blocks,
+    elastic_stiffness,
+    free_dof_map,
+)
 
 __all__ = [
     "assemble_blocks",
@@ -47,6 +57,7 @@ __all__ = [
     "free_dof_map",
     "geometric_stiffness",
     "lumped_mass",
+    "mass_matrix",
     "member_geometry",
 ]
 
@@ -64,58 +75,13 @@ def member_geometry(nodes: np.ndarray, members: np.ndarray) -> tuple[np.ndarray,
         return length, d / length[:, None]
 
 
-def free_dof_map(restraint: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Renumbering that eliminates restrained directions.
-
-    Parameters
-    ----------
-    restraint : (n, 3) bool
-
-    Returns
-    -------
-    dof_map : (3n,) int
-        New number of each global dof, -1 where restrained.
-    free : (m,) int
-        Global dof of each new number.
-    """
-    flat = np.asarray(restraint, dtype=bool).ravel()
-    free = np.flatnonzero(~flat)
-    dof_map = np.full(flat.size, -1, dtype=np.int64)
-    dof_map[free] = np.arange(free.size)
-    return dof_map, free
-
-
-def elastic_stiffness(
-    members: np.ndarray,
-    n_nodes: int,
-    directions: np.ndarray,
-    axial_stiffness: np.ndarray,
-    *,
-    springs: np.ndarray | None = None,
-    dof_map: np.ndarray | None = None,
-    n_dof: int | None = None,
-    triangle: Triangle = "full",
-) -> sp.csr_matrix:
-    """Elastic stiffness Σ (EA/L) [[ccᵀ, -ccᵀ], [-ccᵀ, ccᵀ]], plus springs (n, 3) N/m.
-
-    Same values as :func:`spaceframe.assembly.stiffness_matrix` (checked in
-    the tests), on the pattern shared with :func:`geometric_stiffness`.
-    """
-    D = np.asarray(axial_stiffness, dtype=float)[:, None] * _outer6(directions)
-    return assemble_blocks(members, n_nodes, D, -D, nodal=springs, dof_map=dof_map,
-                           n_dof=n_dof, triangle=triangle)
-
-
 def geometric_stiffness(
     members: np.ndarray,
     n_nodes: int,
     directions: np.ndarray,
     lengths: np.ndarray,
     axial_forces: np.ndarray,
-    *,
-    dof_map: np.ndarray | None = None,
-    n_dof: int | None = None,
-    triangle: Triangle = "full",
+    **numbering: Unpack[Numbering],
 ) -> sp.csr_matrix:
     """Geometric stiffness Σ (N/L) [[G, -G], [-G, G]], G = I - ccᵀ, N in N (tension +).
 
@@ -124,57 +90,75 @@ def geometric_stiffness(
     """
     w = np.asarray(axial_forces, dtype=float) / np.asarray(lengths, dtype=float)
     D = w[:, None] * (_EYE6[None, :] - _outer6(directions))
-    return assemble_blocks(members, n_nodes, D, -D, dof_map=dof_map, n_dof=n_dof,
-                           triangle=triangle)
+    return assemble_blocks(members, n_nodes, D, -D, **numbering)
 
 
-def consistent_mass(
+def mass_matrix(
     members: np.ndarray,
     n_nodes: int,
     member_mass: np.ndarray,
+    lumped: bool = False,
     *,
     added: np.ndarray | None = None,
-    dof_map: np.ndarray | None = None,
-    n_dof: int | None = None,
-    triangle: Triangle = "full",
+    **numbering: Unpack[Numbering],
 ) -> sp.csr_matrix:
-    """Consistent mass Σ (m/6) [[2I, I], [I, 2I]] plus added nodal masses, kg.
+    """Consistent (default) or lumped mass of bars plus added nodal masses, kg.
 
     Parameters
     ----------
     member_mass : (b,) float
         ρAL of each member, kg.
+    lumped : bool
+        Half of each member's mass at each end (a diagonal matrix, the same
+        for either triangle) instead of the consistent Σ (m/6) [[2I, I], [I, 2I]].
     added : (n,) float, optional
         Point mass at each node, kg, in all three directions.
+    **numbering
+        See :class:`spaceframe.assembly.Numbering`.
     """
+    if lumped:
+        return _lumped(members, n_nodes, member_mass, added, **numbering)
     m = np.asarray(member_mass, dtype=float)[:, None] * _EYE6[None, :]
     nodal = None if added is None else np.repeat(np.asarray(added, dtype=float)[:, None], 3, 1)
-    return assemble_blocks(members, n_nodes, m / 3.0, m / 6.0, nodal=nodal, dof_map=dof_map,
-                           n_dof=n_dof, triangle=triangle)
+    return assemble_blocks(members, n_nodes, m / 3.0, m / 6.0, nodal=nodal, **numbering)
+
+
+def consistent_mass(
+    members: np.ndarray, n_nodes: int, member_mass: np.ndarray, *,
+    added: np.ndarray | None = None, **numbering: Unpack[Numbering],
+) -> sp.csr_matrix:
+    """Consistent mass Σ (m/6) [[2I, I], [I, 2I]] plus added masses, kg (:func:`mass_matrix`)."""
+    return mass_matrix(members, n_nodes, member_mass, False, added=added, **numbering)
 
 
 def lumped_mass(
-    members: np.ndarray,
-    n_nodes: int,
-    member_mass: np.ndarray,
-    *,
-    added: np.ndarray | None = None,
-    dof_map: np.ndarray | None = None,
-    n_dof: int | None = None,
+    members: np.ndarray, n_nodes: int, member_mass: np.ndarray, *,
+    added: np.ndarray | None = None, **numbering: Unpack[Numbering],
 ) -> sp.csr_matrix:
     """Diagonal mass: half of each member's ρAL at each end, plus added masses, kg.
 
-    Parameters and renumbering as for :func:`consistent_mass`; the result is
-    diagonal (the same matrix for either triangle).
+    The lumped :func:`mass_matrix`; the same matrix for either triangle.
     """
+    return mass_matrix(members, n_nodes, member_mass, True, added=added, **numbering)
+
+
+def _lumped(
+    members: np.ndarray,
+    n_nodes: int,
+    member_mass: np.ndarray,
+    added: np.ndarray | None,
+    **numbering: Unpack[Numbering],
+) -> sp.csr_matrix:
     n = int(n_nodes)
     half = 0.5 * np.asarray(member_mass, dtype=float)
     node = np.bincount(members[:, 0], half, n) + np.bincount(members[:, 1], half, n)
     if added is not None:
         node = node + np.asarray(added, dtype=float)
     d = np.repeat(node, 3)
+    dof_map = numbering.get("dof_map")
     if dof_map is not None:
         keep = dof_map >= 0
+        n_dof = numbering.get("n_dof")
         size = int(dof_map.max(initial=-1)) + 1 if n_dof is None else int(n_dof)
         diag = np.zeros(size)
         diag[dof_map[keep]] = d[keep]

@@ -182,8 +182,11 @@ class LoadPath:
 # ---------------------------------------------------------------- iterations
 @dataclass
 class _Control:
+    """Convergence settings of every Newton run on the path."""
+
     tolerance: float
     max_iterations: int
+    limit_tolerance: float
 
 
 def _rate(bars: Bars, s: State, direction: np.ndarray | None) -> float:
@@ -275,79 +278,110 @@ def _land(
     return None
 
 
-def _locate_limit(
-    bars: Bars,
-    start: State,
-    end: State,
-    dl: float,
-    direction: np.ndarray | None,
-    ctl: _Control,
-    limit_tolerance: float,
-) -> State | None:
-    """The point of zero load rate between ``start`` and ``end`` (regula falsi in s)."""
-    s_lo, r_lo = 0.0, start.rate
-    s_hi, r_hi = dl, end.rate
-    best: State | None = None
-    side = 0
-    for _ in range(40):
-        s_try = (s_lo * r_hi - s_hi * r_lo) / (r_hi - r_lo)
-        if not (s_lo < s_try < s_hi):
-            s_try = 0.5 * (s_lo + s_hi)
-        p = _arc_step(bars, start, s_try, direction, ctl)
-        if p is None:
-            return best
-        if best is None or abs(p.rate) < abs(best.rate):
-            best = p
-        # |lambda* - lambda(s)| <= |rate| * bracket, the rate being monotone here.
-        if abs(p.rate) * (s_hi - s_lo) <= limit_tolerance * max(abs(p.lam), 1e-300):
-            return best
-        if np.sign(p.rate) == np.sign(r_lo):
-            s_lo, r_lo = s_try, p.rate
-            if side == -1:
-                r_hi *= 0.5  # Illinois: keep the stale end from stalling
-            side = -1
-        else:
-            s_hi, r_hi = s_try, p.rate
-            if side == 1:
-                r_lo *= 0.5
-            side = 1
-    return best
-
-
 def _negative(s: State) -> int:
     return s.tangent.negative if s.tangent is not None else -1
 
 
-def _locate_branch(
-    bars: Bars,
-    start: State,
-    end: State,
-    dl: float,
-    direction: np.ndarray | None,
-    ctl: _Control,
-    limit_tolerance: float,
-) -> State | None:
-    """The first state with ``end``'s negative-pivot count, by bisection in s.
+@dataclass
+class _Stretch:
+    """A converged step from ``start`` to ``end`` (arc length ``dl``) and the points on it."""
 
-    Stops when the load factors either side of the change are within
-    ``limit_tolerance`` (relative) of each other.
+    bars: Bars
+    start: State
+    end: State
+    dl: float
+    direction: np.ndarray | None
+    ctl: _Control
+
+    def step(self, s: float) -> State | None:
+        """The arc-length step of length ``s`` from ``start`` in the same direction."""
+        return _arc_step(self.bars, self.start, s, self.direction, self.ctl)
+
+    def pieces(self) -> list[State]:
+        """``[end]``, or ``[point, end]`` with a limit or branch point located between."""
+        start, end = self.start, self.end
+        point: State | None = None
+        if np.sign(end.rate) != np.sign(start.rate) and end.rate != 0:
+            point = self.limit()
+        elif _negative(start) >= 0 and _negative(end) >= 0 and (
+            _negative(end) != _negative(start)
+        ):
+            point = self.branch()
+        return [end] if point is None else [point, end]
+
+    def limit(self) -> State | None:
+        """The point of zero load rate between ``start`` and ``end`` (regula falsi in s)."""
+        tol = self.ctl.limit_tolerance
+        s_lo, r_lo = 0.0, self.start.rate
+        s_hi, r_hi = self.dl, self.end.rate
+        best: State | None = None
+        side = 0
+        for _ in range(40):
+            s_try = (s_lo * r_hi - s_hi * r_lo) / (r_hi - r_lo)
+            if not (s_lo < s_try < s_hi):
+                s_try = 0.5 * (s_lo + s_hi)
+            p = self.step(s_try)
+            if p is None:
+                return best
+            if best is None or abs(p.rate) < abs(best.rate):
+                best = p
+            # |lambda* - lambda(s)| <= |rate| * bracket, the rate being monotone here.
+            if abs(p.rate) * (s_hi - s_lo) <= tol * max(abs(p.lam), 1e-300):
+                return best
+            if np.sign(p.rate) == np.sign(r_lo):
+                s_lo, r_lo = s_try, p.rate
+                if side == -1:
+                    r_hi *= 0.5  # Illinois: keep the stale end from stalling
+                side = -1
+            else:
+                s_hi, r_hi = s_try, p.rate
+                if side == 1:
+                    r_lo *= 0.5
+                side = 1
+        return best
+
+    def branch(self) -> State | None:
+        """The first state with ``end``'s negative-pivot count, by bisection in s.
+
+        Stops when the load factors either side of the change are within
+        ``limit_tolerance`` (relative) of each other.
+        """
+        tol = self.ctl.limit_tolerance
+        s_lo, s_hi = 0.0, self.dl
+        lam_lo, lam_hi = self.start.lam, self.end.lam
+        before = _negative(self.start)
+        found: State | None = None
+        for _ in range(60):
+            if abs(lam_hi - lam_lo) <= tol * max(abs(lam_hi), 1e-300):
+                break
+            mid = 0.5 * (s_lo + s_hi)
+            p = self.step(mid)
+            if p is None or _negative(p) < 0:
+                break
+            if _negative(p) == before:
+                s_lo, lam_lo = mid, p.lam
+            else:
+                s_hi, lam_hi, found = mid, p.lam, p
+        return found
+
+
+def _advance(
+    bars: Bars, start: State, dl: float, direction: np.ndarray | None, ctl: _Control,
+    target: float,
+) -> tuple[list[State] | None, bool]:
+    """One step: predictor and corrector, located points, landing on ``target``.
+
+    Returns the new states and whether the path ends with them; no states
+    when the step failed (the caller cuts back).
     """
-    s_lo, s_hi = 0.0, dl
-    lam_lo, lam_hi = start.lam, end.lam
-    before = _negative(start)
-    found: State | None = None
-    for _ in range(60):
-        if abs(lam_hi - lam_lo) <= limit_tolerance * max(abs(lam_hi), 1e-300):
-            break
-        mid = 0.5 * (s_lo + s_hi)
-        p = _arc_step(bars, start, mid, direction, ctl)
-        if p is None or _negative(p) < 0:
-            break
-        if _negative(p) == before:
-            s_lo, lam_lo = mid, p.lam
-        else:
-            s_hi, lam_hi, found = mid, p.lam, p
-    return found
+    new = _arc_step(bars, start, dl, direction, ctl)
+    if new is None:
+        return None, False
+    pieces = _Stretch(bars, start, new, dl, direction, ctl).pieces()
+    crossed, landed = _finish(bars, start, pieces, target, ctl)
+    if crossed:
+        return landed, landed is not None  # crossed the target but could not land: retry
+    return pieces, False
 
 
 # -------------------------------------------------------------------- driver
@@ -467,6 +501,49 @@ def solve_nonlinear(
     model.validate()
     kind, f, factors = _reference_load(model, case_or_combination)
     bars = Bars(model, f)
+    first = _first_state(model, bars, tolerance)
+    ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations),
+                   limit_tolerance=limit_tolerance)
+    trace = _Trace(bars, kind, case_or_combination, factors, max_load_factor, progress, [first])
+    try:
+        if not np.any(bars.q):
+            # No load on a free direction: equilibrium stays at the drawn shape.
+            first.tangent = bars.tangent(first)
+            end = bars.state(np.zeros(bars.nf), max_load_factor)
+            end.tangent = first.tangent
+            trace.steps.append(end)
+            return trace.path()
+        first.rate = _rate(bars, first, None)
+    except RuntimeError as exc:
+        raise trace.fail(f"could not factorise the unloaded tangent stiffness ({exc})") from exc
+
+    incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
+    dl0 = incr0 / abs(first.rate)
+    # Longest arc: a few default first steps, however small the first one was.
+    dl_max = _MAX_GROWTH * max(dl0, max_load_factor / 20.0 / abs(first.rate))
+    arc = _ArcLength(dl0, dl_max, max_cutbacks)
+    direction: np.ndarray | None = None
+    while True:
+        if len(trace.steps) > max_steps:
+            raise trace.fail(f"not taken: {max_steps} steps used before reaching load factor "
+                             f"{max_load_factor:.6g}")
+        start = trace.steps[-1]
+        pieces, done = _advance(bars, start, arc.dl, direction, ctl, max_load_factor)
+        if pieces is None:
+            trace.cutbacks += 1
+            text = arc.cut()
+            if text is not None:
+                raise trace.fail(text)
+            continue
+        trace.accept(pieces)
+        if done:
+            return trace.path()
+        direction = pieces[-1].uf - start.uf
+        arc.adapt(pieces[-1].iterations)
+
+
+def _first_state(model: Model, bars: Bars, tolerance: float) -> State:
+    """Step 0: the drawn (prestressed) state at load factor 0, checked (module notes)."""
     mechanism: MechanismError | None = None
     try:
         check_stability(model)
@@ -474,13 +551,9 @@ def solve_nonlinear(
         if not np.any(bars.pretension):
             raise
         mechanism = exc  # the prestressed tangent at step 0 decides (module notes)
-    ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations))
-    label = f"nonlinear {kind} {case_or_combination!r}"
-
-    steps: list[State] = [bars.state(np.zeros(bars.nf), 0.0)]
-    cutbacks = 0
+    first = bars.state(np.zeros(bars.nf), 0.0)
     if np.any(bars.pretension):
-        _, res0 = bars.out_of_balance(steps[0])
+        _, res0 = bars.out_of_balance(first)
         if not res0 <= tolerance:
             raise ModelError(
                 f"solve_nonlinear: the pretension is not self-equilibrated in the drawn "
@@ -488,86 +561,76 @@ def solve_nonlinear(
             )
     if mechanism is not None:
         try:
-            t0 = bars.tangent(steps[0])
+            t0 = bars.tangent(first)
         except RuntimeError:
             raise mechanism from None
         if t0.negative != 0:
             raise mechanism
-        steps[0].tangent = t0
+        first.tangent = t0
+    return first
 
-    def path() -> LoadPath:
-        return _make_path(bars, steps, kind, case_or_combination, factors, max_load_factor,
-                          cutbacks)
 
-    def fail(text: str) -> PathError:
-        k = len(steps)
+@dataclass
+class _ArcLength:
+    """The arc length of the next step: adapted to the iterations used, halved on failure."""
+
+    dl0: float
+    dl_max: float
+    max_cutbacks: int
+    dl: float = field(init=False)
+    tries: int = 0
+
+    def __post_init__(self) -> None:
+        self.dl = self.dl0
+
+    def cut(self) -> str | None:
+        """Halve the arc length; the reason to stop when no more cutbacks are allowed."""
+        self.tries += 1
+        self.dl *= 0.5
+        if self.tries > self.max_cutbacks or self.dl < _MIN_SHRINK * self.dl0:
+            return (f"did not converge after {self.tries - 1} cutbacks of the arc length "
+                    f"(down to {self.dl * 2:.3g} m)")
+        return None
+
+    def adapt(self, iterations: int) -> None:
+        """After a converged step: Crisfield's sqrt(I_desired / I) rule, within bounds."""
+        self.tries = 0
+        grow = np.sqrt(_DESIRED_ITERATIONS / max(iterations, 1))
+        self.dl = min(self.dl * float(np.clip(grow, 0.5, 2.0)), self.dl_max)
+
+
+@dataclass
+class _Trace:
+    """Bookkeeping of one path: the converged steps and cutbacks, reports and failures."""
+
+    bars: Bars
+    kind: str
+    name: str
+    factors: dict[str, float]
+    max_load_factor: float
+    progress: Callable[[int, float], Any] | None
+    steps: list[State]
+    cutbacks: int = 0
+
+    def path(self) -> LoadPath:
+        """The steps so far as a LoadPath."""
+        return _make_path(self.bars, self.steps, self.kind, self.name, self.factors,
+                          self.max_load_factor, self.cutbacks)
+
+    def fail(self, text: str) -> PathError:
+        """A PathError for the step after the last converged one, holding the path so far."""
+        k = len(self.steps)
         return PathError(
-            f"{label}: step {k} {text} (last converged load factor "
-            f"{steps[-1].lam:.6g} at step {k - 1}); the path up to there is in err.path",
-            path(),
+            f"nonlinear {self.kind} {self.name!r}: step {k} {text} (last converged load factor "
+            f"{self.steps[-1].lam:.6g} at step {k - 1}); the path up to there is in err.path",
+            self.path(),
         )
 
-    try:
-        if not np.any(bars.q):
-            # No load on a free direction: equilibrium stays at the drawn shape.
-            steps[0].tangent = bars.tangent(steps[0])
-            end = bars.state(np.zeros(bars.nf), max_load_factor)
-            end.tangent = steps[0].tangent
-            steps.append(end)
-            return path()
-        steps[0].rate = _rate(bars, steps[0], None)
-    except RuntimeError as exc:
-        raise fail(f"could not factorise the unloaded tangent stiffness ({exc})") from exc
-
-    incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
-    dl0 = incr0 / abs(steps[0].rate)
-    dl = dl0
-    # Longest arc: a few default first steps, however small the first one was.
-    dl_max = _MAX_GROWTH * max(dl0, max_load_factor / 20.0 / abs(steps[0].rate))
-    direction: np.ndarray | None = None
-    tries = 0
-    while True:
-        if len(steps) > max_steps:
-            raise fail(f"not taken: {max_steps} steps used before reaching load factor "
-                       f"{max_load_factor:.6g}")
-        start = steps[-1]
-        new = _arc_step(bars, start, dl, direction, ctl)
-        pieces: list[State] = []
-        if new is not None:
-            pieces = [new]
-            if np.sign(new.rate) != np.sign(start.rate) and new.rate != 0:
-                limit = _locate_limit(bars, start, new, dl, direction, ctl, limit_tolerance)
-                if limit is not None:
-                    pieces = [limit, new]
-            elif _negative(start) >= 0 and _negative(new) >= 0 and (
-                _negative(new) != _negative(start)
-            ):
-                branch = _locate_branch(bars, start, new, dl, direction, ctl, limit_tolerance)
-                if branch is not None:
-                    pieces = [branch, new]
-            crossed, landed = _finish(bars, start, pieces, max_load_factor, ctl)
-            if crossed and landed is None:
-                new = None  # crossed the target but could not land: retry shorter
-            elif landed is not None:
-                steps.extend(landed)
-                if progress is not None:
-                    progress(len(steps) - 1, steps[-1].lam)
-                return path()
-        if new is None:
-            tries += 1
-            cutbacks += 1
-            dl *= 0.5
-            if tries > max_cutbacks or dl < _MIN_SHRINK * dl0:
-                raise fail(f"did not converge after {tries - 1} cutbacks of the arc length "
-                           f"(down to {dl * 2:.3g} m)")
-            continue
-        tries = 0
-        direction = new.uf - start.uf
-        steps.extend(pieces)
-        if progress is not None:
-            progress(len(steps) - 1, new.lam)
-        grow = np.sqrt(_DESIRED_ITERATIONS / max(new.iterations, 1))
-        dl = min(dl * float(np.clip(grow, 0.5, 2.0)), dl_max)
+    def accept(self, pieces: list[State]) -> None:
+        """Append converged states and report the last one."""
+        self.steps.extend(pieces)
+        if self.progress is not None:
+            self.progress(len(self.steps) - 1, self.steps[-1].lam)
 
 
 def _finish(

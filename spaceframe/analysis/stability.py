@@ -22,7 +22,7 @@ inertia count above, with bases of both null spaces where they are few.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 import scipy.sparse as sp
@@ -30,7 +30,7 @@ from scipy.sparse.csgraph import connected_components
 
 from spaceframe.assembly import equilibrium_matrix, full_symmetric, reduced_stiffness
 from spaceframe.errors import MechanismError, ModelError, SolverError
-from spaceframe.solvers import PIVOT_TOLERANCE, SingularFactor
+from spaceframe.solvers import PIVOT_TOLERANCE, LDLFactor, SingularFactor, factorize_ldlt
 from spaceframe.tolerances import MAX_STIFFNESS_RATIO, NODE_STIFFNESS_RATIO, RANK_TOLERANCE
 
 if TYPE_CHECKING:
@@ -43,6 +43,7 @@ __all__ = [
     "describe_dofs",
     "determinacy",
     "full_stability",
+    "mechanism_error",
     "mechanism_modes",
     "name_singular",
     "solve_determinate",
@@ -141,15 +142,21 @@ def check_conditioning(model: Model) -> None:
         )
 
 
-def name_singular(model: Model, K: sp.spmatrix, free: np.ndarray, exc: SingularFactor) -> None:
-    """Raise MechanismError naming the zero-energy modes of a singular reduced stiffness.
+def mechanism_error(
+    K: sp.spmatrix, free: np.ndarray, exc: SingularFactor, what: str = "", *,
+    detail: bool = True,
+) -> MechanismError:
+    """MechanismError naming the zero-energy modes of a singular reduced stiffness.
 
     ``K`` is the full (not triangular) reduced stiffness, ``free`` the global
-    dof of each row, ``exc`` the factorisation's complaint.
+    dof of each row, ``exc`` the factorisation's complaint and ``what`` the
+    analysis (a prefix of the message).  Where no mode is found the message
+    names the zero pivots, followed by ``exc`` when ``detail``.  The caller
+    raises the error ``from exc``.
     """
     try:
         _, modes = mechanism_modes(K, free)
-    except Exception:
+    except Exception:  # naming is best effort; the mechanism is certain
         modes = []
     if modes:
         text = "; ".join(f"mode {j + 1} moves {describe_dofs(d)}" for j, d in enumerate(modes))
@@ -157,13 +164,22 @@ def name_singular(model: Model, K: sp.spmatrix, free: np.ndarray, exc: SingularF
     else:
         dofs = free[exc.dofs] if exc.dofs.size else np.zeros(0, dtype=np.int64)
         text = f"zero stiffness at {describe_dofs(dofs)}" if dofs.size else str(exc)
-        text += f" ({exc})" if dofs.size else ""
+        text += f" ({exc})" if detail and dofs.size else ""
     nodes, axes = np.divmod(dofs, 3)
-    raise MechanismError(
-        f"the frame is a mechanism (singular stiffness): {text}",
+    return MechanismError(
+        f"{what}{': ' if what else ''}the frame is a mechanism (singular stiffness): {text}",
         nodes=nodes,
         directions=["xyz"[a] for a in axes],
-    ) from exc
+    )
+
+
+def name_singular(model: Model, K: sp.spmatrix, free: np.ndarray, exc: SingularFactor) -> None:
+    """Raise MechanismError naming the zero-energy modes of a singular reduced stiffness.
+
+    ``K`` is the full (not triangular) reduced stiffness, ``free`` the global
+    dof of each row, ``exc`` the factorisation's complaint.
+    """
+    raise mechanism_error(K, free, exc) from exc
 
 
 def full_stability(model: Model, solver: str = "auto", quick: bool = False) -> None:
@@ -277,6 +293,15 @@ def check_stability(model: Model) -> None:
     _check_rigid_body(model, label, n_parts, held)
 
 
+def _rigid_body_fields(r: np.ndarray) -> np.ndarray:
+    """(p, 3, 6): velocities at points ``r`` (p, 3) of the 3 translations and 3 rotations."""
+    fields = np.zeros((r.shape[0], 3, 6))
+    fields[:, [0, 1, 2], [0, 1, 2]] = 1.0
+    for axis, e in enumerate(np.eye(3)):
+        fields[:, :, 3 + axis] = np.cross(e, r)
+    return fields
+
+
 def _check_rigid_body(model: Model, label: np.ndarray, n_parts: int, held: np.ndarray) -> None:
     """Each part's supports must stop its three translations and three rotations."""
     names = ("translation along x", "translation along y", "translation along z",
@@ -291,23 +316,12 @@ def _check_rigid_body(model: Model, label: np.ndarray, n_parts: int, held: np.nd
         if all_nodes.size < 2:
             continue
         centre = model.nodes[all_nodes].mean(axis=0)
-        r = model.nodes[nodes_p] - centre
         # Rigid-body velocity fields (translations, rotations) at the held dofs.
-        modes = np.zeros((nodes_p.size, 3, 6))
-        modes[:, [0, 1, 2], [0, 1, 2]] = 1.0
-        modes[:, :, 3] = np.cross([1.0, 0, 0], r)
-        modes[:, :, 4] = np.cross([0, 1.0, 0], r)
-        modes[:, :, 5] = np.cross([0, 0, 1.0], r)
-        G = modes[held[nodes_p]]  # rows: held directions
+        G = _rigid_body_fields(model.nodes[nodes_p] - centre)[held[nodes_p]]  # rows: held dofs
         # A part that is flat or a line has fewer genuine rigid-body modes to
         # check: rotations about its own line do not move anything.
         span = model.nodes[all_nodes] - centre
-        R = np.zeros((all_nodes.size, 3, 6))
-        R[:, [0, 1, 2], [0, 1, 2]] = 1.0
-        R[:, :, 3] = np.cross([1.0, 0, 0], span)
-        R[:, :, 4] = np.cross([0, 1.0, 0], span)
-        R[:, :, 5] = np.cross([0, 0, 1.0], span)
-        Rf = R.reshape(-1, 6)
+        Rf = _rigid_body_fields(span).reshape(-1, 6)
         # Right singular vectors of Rf from its 6x6 Gram matrix: the same
         # subspace at a cost linear in the nodes (a thin SVD of a 3N x 6
         # matrix is not).  Squared singular values, so the threshold is squared.
@@ -337,23 +351,25 @@ def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
     Sylvester's law of inertia: K - tau I = L D L^T has as many negative
     pivots as K has eigenvalues below tau (the Sturm sequence check of
     structural eigenvalue solvers, Bathe, "Finite Element Procedures", 1996,
-    section 11.4.3).  SuperLU in symmetric mode with diagonal pivoting and
-    one ordering for rows and columns is such an L D L^T (U = D L^T), so the
-    signs of U's diagonal are those pivots.  scipy has no sparse LDL^T or
-    rank-revealing sparse QR; this is why SuperLU is driven this way here.
-    A mechanism's pivot is -tau plus round-off and its column below is
-    round-off too (Ks is positive semi-definite), so the elimination does not
-    grow; a pivot that lands almost on zero (an eigenvalue within a hair of
-    tau) is retried with a shift moved by a factor 1.5.
+    section 11.4.3).  :func:`spaceframe.solvers.factorize_ldlt` is such an
+    L D L^T (SuperLU in symmetric mode with diagonal pivoting); its
+    ``pivots`` are D.  Here the pivots are judged against the shift, not
+    against their diagonals as its ``inertia`` does.  A mechanism's pivot is
+    -tau plus round-off and its column below is round-off too (Ks is
+    positive semi-definite), so the elimination does not grow; a pivot that
+    lands almost on zero (an eigenvalue within a hair of tau) is retried
+    with a shift moved by a factor 1.5.
     """
     last: Exception | None = None
     for shift in (tau, tau * 1.5, tau / 1.5):
         try:
-            lu = _splu_shifted(Ks, shift)
-        except RuntimeError as exc:  # an exactly zero pivot
+            d = _shifted_ldlt(Ks, shift).pivots
+        except SingularFactor as exc:
             last = exc
             continue
-        d = lu.U.diagonal()
+        if d is None:
+            last = SolverError("an exactly zero pivot in the symmetric elimination")
+            continue
         if not np.all(np.isfinite(d)):
             last = SolverError("non-finite pivots")
             continue
@@ -364,20 +380,13 @@ def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
     raise SolverError(f"determinacy: the inertia count failed ({last})")
 
 
-def _splu_shifted(Ks: sp.spmatrix, shift: float) -> Any:
-    """SuperLU of Ks - shift I: symmetric mode, diagonal pivots, COLAMD order."""
-    import scipy.sparse.linalg as spla
-
+def _shifted_ldlt(Ks: sp.spmatrix, shift: float) -> LDLFactor:
+    """L D L^T of Ks - shift I (solvers.factorize_ldlt) in COLAMD order."""
     eye = sp.identity(Ks.shape[0], format="csc")
     # COLAMD: on these matrices (not pre-ordered) it fills several times less
     # than MMD on A^T + A; with diagonal pivoting in symmetric mode the row
     # order follows the column order, so this is an L D L^T.
-    return spla.splu(
-        sp.csc_matrix(Ks - shift * eye),
-        permc_spec="COLAMD",
-        diag_pivot_thresh=0.0,
-        options={"SymmetricMode": True},
-    )
+    return factorize_ldlt(sp.csc_matrix(Ks - shift * eye), ordering="COLAMD")
 
 
 def _lowest_modes(Ks: sp.spmatrix, k: int, tau: float) -> tuple[np.ndarray, np.ndarray]:
@@ -397,7 +406,7 @@ def _lowest_modes(Ks: sp.spmatrix, k: int, tau: float) -> tuple[np.ndarray, np.n
     n = Ks.shape[0]
     k = max(1, min(k, n))
     p = min(n, k + min(k, 8) + 2)
-    lu = _splu_shifted(Ks, -tau / 100.0)
+    lu = _shifted_ldlt(Ks, -tau / 100.0)
     X = np.random.default_rng(0).standard_normal((n, p))
     w = np.zeros(p)
     for _ in range(8):

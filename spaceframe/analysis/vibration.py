@@ -38,11 +38,10 @@ from spaceframe.analysis.eigen import (
     positive_definite,
 )
 from spaceframe.analysis.matrices import (
-    consistent_mass,
     elastic_stiffness,
     free_dof_map,
     geometric_stiffness,
-    lumped_mass,
+    mass_matrix,
 )
 from spaceframe.analysis.stability import check_stability, describe_dofs
 from spaceframe.errors import MechanismError, ModelError
@@ -247,10 +246,8 @@ def natural_frequencies(
             "natural frequencies: the frame is unstable under its prestress (the stiffness "
             "with the prestress's geometric stiffness is not positive definite)"
         )
-    if mass == "consistent":
-        M = consistent_mass(*args, m_members, added=added, dof_map=dof_map, n_dof=free.size)
-    else:
-        M = lumped_mass(*args, m_members, added=added, dof_map=dof_map, n_dof=free.size)
+    M = mass_matrix(*args, m_members, mass == "lumped", added=added, dof_map=dof_map,
+                    n_dof=free.size)
     massed = int(np.count_nonzero(M.diagonal() > 0))
     if massed == 0:
         raise ModelError("natural_frequencies: all of the model's mass sits on supports")

@@ -18,15 +18,9 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from grids import double_layer_grid, grid_for_members
+from _frames import grid_of
 
 import spaceframe as sf
-
-
-def _count(text: str) -> int:
-    t = text.lower()
-    mult = 1_000_000 if t.endswith("m") else 1000 if t.endswith("k") else 1
-    return int(float(t.rstrip("mk")) * mult)
 
 
 def main() -> int:
@@ -34,8 +28,7 @@ def main() -> int:
     ap.add_argument("--members", default="100k")
     ap.add_argument("--check", action="store_true", help="exit 1 when a target is missed")
     args = ap.parse_args()
-    nx, ny = grid_for_members(_count(args.members))
-    m = double_layer_grid(nx, ny)
+    m = grid_of(args.members)
     b = m.n_members
     m.set_member_properties(np.arange(b), yield_strength=355e6, second_moment=1.2e-6,
                             buckling_curve="a")

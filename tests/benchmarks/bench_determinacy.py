@@ -29,15 +29,9 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from grids import double_layer_grid, grid_for_members
+from _frames import grid_of
 
 import spaceframe as sf
-
-
-def _size(text: str) -> int:
-    t = text.lower()
-    mult = 1_000_000 if t.endswith("m") else 1000 if t.endswith("k") else 1
-    return int(float(t.rstrip("mk")) * mult)
 
 
 def tower(levels: int, open_storey: int, h: float = 3.0, w: float = 2.0) -> sf.Model:
@@ -73,8 +67,7 @@ def main() -> int:
     warnings.simplefilter("ignore", sf.SpaceframeWarning)
     ok = True
     for text in args.sizes:
-        nx, ny = grid_for_members(_size(text))
-        m = double_layer_grid(nx, ny)
+        m = grid_of(text)
         t0 = time.perf_counter()
         d = sf.determinacy(m, modes=False)
         t_det = time.perf_counter() - t0

@@ -9,16 +9,17 @@ Not collected by pytest; run on an otherwise idle machine.
 from __future__ import annotations
 
 import argparse
+import sys
 import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from _frames import grid_of
+from grids import ROOF_CASE
 
 import spaceframe as sf
-from tests.benchmarks.grids import ROOF_CASE, double_layer_grid, grid_for_members
-
-
-def _size(text: str) -> int:
-    text = text.lower()
-    scale = 1_000_000 if text.endswith("m") else 1_000 if text.endswith("k") else 1
-    return int(float(text.rstrip("km")) * scale)
 
 
 def main() -> None:
@@ -29,7 +30,7 @@ def main() -> None:
     print(f"{'members':>9} {'static s':>9} {'buckling s':>11} {'ratio':>6} "
           f"{'frequencies s':>14} {'ratio':>6}  lowest factor, lowest frequency")
     for text in args.sizes:
-        m = double_layer_grid(*grid_for_members(_size(text)))
+        m = grid_of(text)
         t = time.perf_counter()
         r = m.solve(solver=args.solver)[ROOF_CASE]
         ts = time.perf_counter() - t
