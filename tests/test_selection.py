@@ -47,7 +47,7 @@ def test_all_and_ids(model: sf.Model) -> None:
     assert ids(model, s.All()) == list(range(13))
     assert ids(model, s.All(), "members") == list(range(32))
     assert ids(model, s.Ids((5, 2, 5))) == [2, 5]
-    with pytest.raises(ModelError, match=r"where: entry 1 is node 13, which does not exist"):
+    with pytest.raises(ModelError, match=r"where: entry 1 refers to node 13, which does not exist"):
         s.select(model, s.Ids((0, 13)), "nodes", where="where")
 
 

@@ -39,6 +39,7 @@ from typing import TYPE_CHECKING, Literal
 import numpy as np
 
 from spaceframe.errors import ModelError
+from spaceframe.model.arrays import checked_ids
 from spaceframe.tolerances import GEOMETRY_TOLERANCE
 
 if TYPE_CHECKING:
@@ -364,14 +365,7 @@ def _mask(ctx: _Context, sel: Selector, target: Target) -> np.ndarray:
     if isinstance(sel, All):
         return np.ones(size, dtype=bool)
     if isinstance(sel, Ids):
-        ids = np.asarray(sel.ids, dtype=np.int64)
-        bad = np.flatnonzero((ids < 0) | (ids >= size))
-        if bad.size:
-            k = int(bad[0])
-            raise ModelError(
-                f"{ctx.where}: entry {k} is {target[:-1]} {int(ids[k])}, which does not exist "
-                f"(the model has {size} {target}: 0..{size - 1})"
-            )
+        ids = checked_ids(sel.ids, ctx.where, target[:-1], size)
         return _ids_mask(ids, size)
     if isinstance(sel, Group):
         return _group(ctx, sel, target)

@@ -16,7 +16,7 @@ import numpy as np
 
 from spaceframe.errors import ModelError
 
-__all__ = ["LoadCase", "ModelArrays"]
+__all__ = ["LoadCase", "ModelArrays", "checked_ids"]
 
 _AXES = "xyz"
 
@@ -111,7 +111,7 @@ def _grow(a: np.ndarray, n: int) -> np.ndarray:
     return out
 
 
-def _ids(values: Any, what: str, noun: str, count: int) -> np.ndarray:
+def checked_ids(values: Any, what: str, noun: str, count: int) -> np.ndarray:
     """``values`` as int64 ids of existing ``noun``s (0..count-1), or ModelError naming ``what``."""
     try:
         ids = np.atleast_1d(np.asarray(values))
@@ -295,10 +295,10 @@ class ModelArrays:
 
     # ------------------------------------------------------------ validation
     def _node_ids(self, node_ids: Any, what: str) -> np.ndarray:
-        return _ids(node_ids, what, "node", self.n_nodes)
+        return checked_ids(node_ids, what, "node", self.n_nodes)
 
     def _member_ids(self, member_ids: Any, what: str) -> np.ndarray:
-        return _ids(member_ids, what, "member", self.n_members)
+        return checked_ids(member_ids, what, "member", self.n_members)
 
     @staticmethod
     def _per_item(value: Any, k: int, name: str, *, positive: bool = False) -> np.ndarray:
