@@ -44,9 +44,11 @@ from spaceframe.errors import WriteError
 from spaceframe.results.summary import member_group_labels, summary, supported_nodes
 
 if TYPE_CHECKING:
+    from spaceframe.model import Model
     from spaceframe.results import Envelope, Results
 
-__all__ = ["ARRAYS_FILE", "FILES", "INPUT_DIGITS", "RESULT_DIGITS", "write", "write_arrays"]
+__all__ = ["ARRAYS_FILE", "FILES", "INPUT_DIGITS", "RESULT_DIGITS", "read_arrays", "write",
+           "write_arrays"]
 
 #: Names of the files written, in the order returned by :func:`write`.
 FILES = ("nodes.csv", "members.csv", "reactions.csv", "summary.json")
@@ -258,7 +260,8 @@ ARRAYS_FILE = "results.npz"
 ARRAY_UNITS = {
     "nodes": "m", "members": "-", "groups": "-", "lengths": "m", "area": "m2", "E": "Pa",
     "result_names": "-", "result_kinds": "-", "displacements": "m", "reactions": "N",
-    "axial_forces": "N", "stress": "Pa",
+    "axial_forces": "N", "stress": "Pa", "loads": "N", "elongations": "m", "residuals": "-",
+    "slack": "-", "result_factors": "-",
 }
 
 
@@ -273,7 +276,13 @@ def write_arrays(
     ``lengths`` [m], ``area`` [m2], ``E`` [Pa], ``result_names`` (r,) and
     ``result_kinds`` (r,) ("case" or "combination"), ``displacements`` (r, n,
     3) [m], ``reactions`` (r, n, 3) [N], ``axial_forces`` (r, b) [N, tension
-    positive], ``stress`` (r, b) [Pa]; ``units`` holds this table as JSON.
+    positive], ``stress`` (r, b) [Pa], ``loads`` (r, n, 3) applied nodal
+    forces [N], ``elongations`` (r, b) [m], ``residuals`` (r,) relative
+    equilibrium residuals, ``slack`` (r, b) tension-only members carrying
+    nothing (present only when the model has tension-only members) and
+    ``result_factors`` the combinations' case factors as JSON; ``units``
+    holds this table as JSON.  :func:`read_arrays` turns the file back into
+    :class:`~spaceframe.results.Results` of the model.
     Full float64 precision, and about 30 times faster to write than the CSV
     tables at a million members.
 
@@ -311,8 +320,16 @@ def write_arrays(
         "reactions": np.stack([r.reactions for r in items]),
         "axial_forces": np.stack([r.axial_forces for r in items]),
         "stress": np.stack([r.stress for r in items]),
+        "loads": np.stack([r.loads for r in items]),
+        "elongations": np.stack([r.elongations for r in items]),
+        "residuals": np.array([r.residual for r in items], dtype=np.float64),
+        "result_factors": np.array(json.dumps([r.factors for r in items])),
+        "solver": np.array(str(results.solver)),
         "units": np.array(json.dumps(ARRAY_UNITS)),
     }
+    if any(r.slack is not None for r in items):
+        arrays["slack"] = np.stack([np.zeros(model.n_members, dtype=bool) if r.slack is None
+                                    else np.asarray(r.slack, dtype=bool) for r in items])
     out.mkdir(parents=True, exist_ok=True)
     final = out / f"{prefix}{ARRAYS_FILE}"
 
@@ -323,6 +340,54 @@ def write_arrays(
 
     atomic_write(final, save)
     return [final]
+
+
+def read_arrays(path: str | os.PathLike[str], model: Model) -> Results:
+    """The results in a ``results.npz`` of :func:`write_arrays`, as Results of ``model``.
+
+    Raises
+    ------
+    ReadError
+        If the file is missing or not such a file, or if ``model`` is not the
+        model the results were computed for (its nodes or members differ:
+        the model changed since the run).
+    """
+    from spaceframe.errors import ReadError
+    from spaceframe.results import CaseResult
+    from spaceframe.results import Results as _Results
+
+    where = Path(path)
+    try:
+        with np.load(where) as z:
+            data = {k: z[k] for k in z.files}
+    except (OSError, ValueError) as exc:
+        raise ReadError(f"{where}: cannot be read as a results file ({exc})") from None
+    missing = [k for k in ("nodes", "members", "result_names", "result_kinds", "displacements",
+                           "reactions", "axial_forces", "loads", "elongations", "residuals",
+                           "result_factors", "area") if k not in data]
+    if missing:
+        raise ReadError(f"{where}: not a results file of spaceframe (no {missing[0]!r} array)")
+    if (data["nodes"].shape != model.nodes.shape or data["members"].shape != model.members.shape
+            or not np.array_equal(data["members"], model.members)
+            or not np.allclose(data["nodes"], model.nodes, rtol=0.0, atol=1e-9)):
+        raise ReadError(
+            f"{where}: the results are of another model ({data['nodes'].shape[0]} nodes, "
+            f"{data['members'].shape[0]} members; the model now has {model.n_nodes} nodes, "
+            f"{model.n_members} members, or they moved): the model changed since the run, "
+            "so run it again")
+    factors = json.loads(str(data["result_factors"]))
+    slack = data.get("slack")
+    items = {}
+    for i, name in enumerate(data["result_names"].tolist()):
+        items[name] = CaseResult(
+            name=name, kind=str(data["result_kinds"][i]),
+            displacements=data["displacements"][i], axial_forces=data["axial_forces"][i],
+            reactions=data["reactions"][i], loads=data["loads"][i],
+            elongations=data["elongations"][i], residual=float(data["residuals"][i]),
+            area=data["area"], factors={k: float(v) for k, v in factors[i].items()},
+            slack=None if slack is None else slack[i])
+    return _Results(model, items, solver=str(data.get("solver", "")),
+                    info={"read_from": str(where)})
 
 
 def write_envelopes(

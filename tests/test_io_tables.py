@@ -217,3 +217,28 @@ def test_text_columns_quote_each_value_once(tmp_path: Path) -> None:
     with paths[1].open(newline="", encoding="utf-8") as fh:
         rows = list(csv.reader(fh))
     assert [r[3] for r in rows[1:]] == ["legs, main;north", 'legs, main;say "hi"', "legs, main"]
+
+
+def test_arrays_file_reads_back_as_the_same_results(tmp_path: Path, results: sf.Results) -> None:
+    (path,) = tables.write_arrays(tmp_path, results)
+    back = tables.read_arrays(path, results.model)
+    assert list(back) == list(results)
+    for name, r in results.items():
+        b = back[name]
+        assert (b.kind, b.factors, b.residual) == (r.kind, r.factors, r.residual)
+        for attr in ("displacements", "axial_forces", "reactions", "loads", "elongations",
+                     "stress"):
+            np.testing.assert_array_equal(getattr(b, attr), getattr(r, attr))
+        assert b.slack is None
+    assert back.solver == results.solver
+
+
+def test_arrays_file_of_another_model_is_refused(tmp_path: Path, results: sf.Results) -> None:
+    (path,) = tables.write_arrays(tmp_path, results)
+    moved = _mast_base()
+    moved.nodes = moved.nodes + np.array([0.0, 0.0, 0.01])
+    with pytest.raises(sf.ReadError, match="the model changed since the run"):
+        tables.read_arrays(path, moved)
+    (tmp_path / "junk.npz").write_bytes(b"not a zip")
+    with pytest.raises(sf.ReadError, match=r"junk\.npz: cannot be read"):
+        tables.read_arrays(tmp_path / "junk.npz", results.model)
