@@ -161,10 +161,11 @@ def write_pictures(
         By result, then by view.
     """
     from spaceframe import viewer
+    from spaceframe.io._common import atomic_write
 
     return viewer.screenshots(folder, results, cases=cases, views=views, size=size,
                               color_by=color_by, progress=progress, utilisation=utilisation,
-                              prefix=prefix)
+                              prefix=prefix, write=atomic_write)
 
 
 # ------------------------------------------------------------------- charts
