@@ -53,11 +53,20 @@ def build_parser() -> argparse.ArgumentParser:
         parser._add_action(action)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
 
-    p = sub.add_parser(
-        "check", parents=[common],
-        help="read, heal and check a model without solving",
-    )
-    p.add_argument("model", type=Path, help="model file (.toml) or a drawing/mesh")
+    def command(name: str, text: str, model: str | None = None) -> argparse.ArgumentParser:
+        """A subcommand with the common flags and, when ``model`` says what it is, a model."""
+        sub_parser = sub.add_parser(name, parents=[common], help=text)
+        if model is not None:
+            sub_parser.add_argument("model", type=Path, help=model)
+        return sub_parser
+
+    def no_cache(sub_parser: argparse.ArgumentParser) -> None:
+        sub_parser.add_argument(
+            "--no-cache", action="store_true",
+            help="read the drawing afresh, without the geometry cache beside the model file")
+
+    p = command("check", "read, heal and check a model without solving",
+                "model file (.toml) or a drawing/mesh")
     p.add_argument("--units", help="length unit of a bare drawing that declares none, e.g. mm "
                    "(one that differs from the units a drawing declares is refused)")
     p.add_argument("--override-units", action="store_true",
@@ -67,14 +76,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the report as JSON")
     p.add_argument("--quick", action="store_true",
                    help="cheap stability checks only, without factorising the stiffness")
-    p.add_argument("--no-cache", action="store_true",
-                   help="read the drawing afresh, without the geometry cache beside the model file")
+    no_cache(p)
 
-    p = sub.add_parser(
-        "run", parents=[common],
-        help="solve a model file and write the results folder",
-    )
-    p.add_argument("model", type=Path, help="model file (.toml)")
+    p = command("run", "solve a model file and write the results folder", "model file (.toml)")
     p.add_argument("-o", "--output", type=Path, help="results folder (default from the file)")
     p.add_argument("--solver", default="auto", choices=["auto", "scipy", "pardiso"],
                    help="sparse solver: auto (PARDISO when installed, else SciPy), scipy or "
@@ -89,8 +93,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "above (default), yes always, no never")
     p.add_argument("--dxf-deformed", action="store_true",
                    help="add the deformed shape of each result to the results drawing")
-    p.add_argument("--no-cache", action="store_true",
-                   help="read the drawing afresh, without the geometry cache beside the model file")
+    no_cache(p)
     p.add_argument("--pictures", default="combinations", metavar="WHICH",
                    help="results that get pictures: combinations (default: the combinations "
                         "and envelopes, or the load cases when there are none), all, none, "
@@ -98,16 +101,14 @@ def build_parser() -> argparse.ArgumentParser:
 
     from spaceframe.demos import DEMOS
 
-    p = sub.add_parser("new", parents=[common], help="write a starter project from a demo scenario")
+    p = command("new", "write a starter project from a demo scenario")
     p.add_argument("folder", type=Path)
     p.add_argument("--demo", default="canopy", metavar="NAME",
                    help=f"demo scenario: {', '.join(DEMOS)} (default: canopy)")
     p.add_argument("--force", action="store_true", help="write into a non-empty folder")
 
-    p = sub.add_parser(
-        "study", parents=[common],
-        help="run every variant of a study file (a parameter sweep) and write one table",
-    )
+    p = command("study",
+                "run every variant of a study file (a parameter sweep) and write one table")
     p.add_argument("study", type=Path, help="study file (.toml) with a [study] table")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="a running Dask scheduler, e.g. tcp://host:8786 "
@@ -118,11 +119,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--restart", action="store_true",
                    help="ignore the journal of an earlier run and solve every variant again")
 
-    p = sub.add_parser(
-        "view", parents=[common],
-        help="show a model's results in 3D, or save a screenshot",
-    )
-    p.add_argument("model", type=Path, help="model file (.toml) or a results folder")
+    p = command("view", "show a model's results in 3D, or save a screenshot",
+                "model file (.toml) or a results folder")
     p.add_argument("--case", help="load case or combination to show first")
     p.add_argument("--color-by", default="axial_force",
                    choices=["axial_force", "displacement", "stress", "group", "utilisation"])
@@ -413,8 +411,10 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
                 + (", ".join(design.per_result) if design else "none") + ")")
         options["utilisation"] = design.per_result
     if args.screenshot:
+        from spaceframe.io._common import atomic_write
+
         viewer.screenshot(results, case, args.screenshot, view=args.view, size=(w, h),
-                          color_by=args.color_by, **options)
+                          color_by=args.color_by, write=atomic_write, **options)
         out.line(f"wrote {args.screenshot}")
         return 0
     viewer.show(results, case, color_by=args.color_by, **options)
@@ -457,8 +457,11 @@ def _cmd_study(args: argparse.Namespace, out: _Printer) -> int:
 
 
 def _has_display() -> bool:
-    """Whether a window can be opened: on Linux and other X11/Wayland systems an
-    X or Wayland display must be named in the environment."""
+    """Whether a window can be opened.
+
+    On Linux and other X11/Wayland systems an X or Wayland display must be
+    named in the environment.
+    """
     if sys.platform in ("win32", "darwin"):
         return True
     return bool(os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))

@@ -20,7 +20,6 @@ call it, and ``spaceframe new`` does too.
 from __future__ import annotations
 
 import os
-import tempfile
 from collections.abc import Callable
 from pathlib import Path
 
@@ -34,6 +33,23 @@ CAUTION_TOML = (
     "# Demo scenario, invented for illustration. Results must be checked by a qualified\n"
     "# engineer; local codes and licensed practice govern.\n"
 )
+
+
+def _tubes(sizes: dict[str, tuple[float, float]], default: str,
+           groups: dict[str, str] | None = None) -> str:
+    """Model-file text of circular hollow sections and their assignment, S355 throughout.
+
+    ``sizes``: section name -> (outside diameter, wall thickness) in mm;
+    ``groups``: group -> section name (the others get ``default``).
+    """
+    lines = ["[sections]"]
+    lines += [f'{name} = {{ shape = "chs", diameter = {d}, thickness = {t} }}'
+              for name, (d, t) in sizes.items()]
+    lines += ["", "[assign]", f'default = {{ section = "{default}", material = "S355" }}']
+    if groups:
+        pairs = ", ".join(f'{g} = {{ section = "{name}" }}' for g, name in groups.items())
+        lines.append(f"groups = {{ {pairs} }}")
+    return "\n".join(lines) + "\n"
 
 
 # --------------------------------------------------------------------- canopy
@@ -117,14 +133,8 @@ pressure = "kN/m^2"
 file = "canopy.dxf"
 tolerance = "2 mm"                 # joints closer than this are one joint
 
-[sections]
-chord = { shape = "chs", diameter = 114.3, thickness = 6.3 }
-diagonal = { shape = "chs", diameter = 76.1, thickness = 4.0 }
-
-[assign]
-default = { section = "diagonal", material = "S355" }
-groups = { TOP_CHORD = { section = "chord" }, BOTTOM_CHORD = { section = "chord" } }
-
+''' + _tubes({"chord": (114.3, 6.3), "diagonal": (76.1, 4.0)}, "diagonal",
+            {"TOP_CHORD": "chord", "BOTTOM_CHORD": "chord"}) + '''
 [selections]
 column_heads = { markers = "COLUMN_HEADS" }
 
@@ -212,15 +222,8 @@ temperature = "K"
 [geometry]
 file = "mast.msh"
 
-[sections]
-leg = { shape = "chs", diameter = 139.7, thickness = 8.0 }
-brace = { shape = "chs", diameter = 60.3, thickness = 4.0 }
-horizontal = { shape = "chs", diameter = 48.3, thickness = 3.2 }
-
-[assign]
-default = { section = "brace", material = "S355" }
-groups = { legs = { section = "leg" }, horizontals = { section = "horizontal" } }
-
+''' + _tubes({"leg": (139.7, 8.0), "brace": (60.3, 4.0), "horizontal": (48.3, 3.2)},
+            "brace", {"legs": "leg", "horizontals": "horizontal"}) + '''
 [selections]
 base = { plane = "z", at = "min" }
 windward_face = { difference = [{ plane = "x", at = "min" }, "base"] }
@@ -315,7 +318,7 @@ def _write_dome_mesh(path: Path) -> None:
     nodes, faces = dome_geometry()
     # Binary (zlib-compressed) VTU: meshio prints a warning to the terminal for
     # text VTU ("only meant for debugging"), and binary keeps every digit.
-    meshio.Mesh(nodes, [("triangle", faces)]).write(path, binary=True)
+    meshio.Mesh(nodes, [("triangle", faces)]).write(path, file_format="vtu", binary=True)
 
 
 DOME_TOML = '''title = "Community garden geodesic dome (demo scenario)"
@@ -330,12 +333,7 @@ pressure = "kN/m^2"
 file = "dome.vtu"
 options = { edges_as_members = true }   # every triangle edge is a strut
 
-[sections]
-strut = { shape = "chs", diameter = 48.3, thickness = 3.2 }
-
-[assign]
-default = { section = "strut", material = "S355" }
-
+''' + _tubes({"strut": (48.3, 3.2)}, "strut") + '''
 [selections]
 base_ring = { plane = "z", at = "min" }
 
@@ -369,8 +367,9 @@ def write_demo(folder: str | os.PathLike[str], name: str = "canopy", *,
                force: bool = False) -> list[Path]:
     """Write the demo's drawing and model file into ``folder``.
 
-    Files are written under temporary names and renamed, so a failure leaves
-    nothing half-written.
+    Each file is written under a temporary name and renamed
+    (:func:`spaceframe.io._common.atomic_write`), so a failure leaves nothing
+    half-written.
 
     Raises
     ------
@@ -386,11 +385,12 @@ def write_demo(folder: str | os.PathLike[str], name: str = "canopy", *,
     existing = [str(p) for p in targets if p.exists()]
     if existing and not force:
         raise ProjectError(f"{', '.join(existing)} exists already (use --force to overwrite)")
-    with tempfile.TemporaryDirectory(dir=out, prefix=".demo-") as tmp:
-        t_draw = Path(tmp) / drawing
-        writer(t_draw)
-        t_toml = Path(tmp) / toml_name
-        t_toml.write_text(CAUTION_TOML + text, encoding="utf-8")
-        os.replace(t_draw, targets[0])
-        os.replace(t_toml, targets[1])
+    from spaceframe.io._common import atomic_write
+
+    atomic_write(targets[0], writer)
+    atomic_write(targets[1], lambda tmp: _write_text(tmp, CAUTION_TOML + text))
     return targets
+
+
+def _write_text(path: Path, text: str) -> None:
+    path.write_text(text, encoding="utf-8")

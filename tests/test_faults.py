@@ -16,9 +16,12 @@ import signal
 import subprocess
 import sys
 import time
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
+from _model_files import tripod_file
 
 from spaceframe.cli import main
 from spaceframe.run.job import FAULT_ENV, MARKER
@@ -28,29 +31,8 @@ pytestmark = pytest.mark.skipif(sys.platform == "win32", reason="POSIX signals a
 
 ROOT = Path(__file__).resolve().parents[1]
 
-TRIPOD = """title = "tripod"
-[geometry]
-nodes = [[0,0,3],[2,0,0],[-1,1.732,0],[-1,-1.732,0]]
-members = [[0,1],[0,2],[0,3]]
-[sections]
-s = {{ shape = "bar", diameter = 0.02 }}
-[assign]
-default = {{ section = "s", material = "steel" }}
-[[supports]]
-nodes = [1, 2, 3]
-restrain = "pinned"
-[loads.snow]
-[[loads.snow.nodal]]
-nodes = [0]
-force = ["0 kN", "0 kN", "{load} kN"]
-"""
-
-
 def model(folder: Path, load: float) -> Path:
-    folder.mkdir(parents=True, exist_ok=True)
-    toml = folder / "tripod.toml"
-    toml.write_text(TRIPOD.format(load=load))
-    return toml
+    return tripod_file(folder, load)
 
 
 def env(**extra: str) -> dict[str, str]:
@@ -174,19 +156,29 @@ def test_cleanup_removes_only_marked_leftovers_of_dead_runs(tmp_path: Path) -> N
         assert (d / "file.txt").read_text() == why
 
 
-def _make_read_only(path: Path) -> None:
+@contextmanager
+def read_only(path: Path) -> Iterator[None]:
+    """``path`` read-only inside the block, writable again after it."""
     if os.geteuid() == 0:  # permissions do not stop root; the immutable flag does
         if subprocess.run(["chattr", "+i", str(path)], capture_output=True).returncode:
             pytest.skip("chattr +i not available to make a folder read-only for root")
     else:
         path.chmod(0o555)
+    try:
+        yield
+    finally:
+        if os.geteuid() == 0:
+            subprocess.run(["chattr", "-i", str(path)], capture_output=True)
+        else:
+            path.chmod(0o755)
 
 
-def _make_writable(path: Path) -> None:
-    if os.geteuid() == 0:
-        subprocess.run(["chattr", "-i", str(path)], capture_output=True)
-    else:
-        path.chmod(0o755)
+def refusal(proc: subprocess.CompletedProcess[str]) -> str:
+    """The one line of a run that failed on bad input or a write (exit code 2)."""
+    assert proc.returncode == 2, proc.stderr
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1, proc.stderr
+    return lines[0]
 
 
 def test_read_only_old_results_are_refused(tmp_path: Path) -> None:
@@ -196,14 +188,9 @@ def test_read_only_old_results_are_refused(tmp_path: Path) -> None:
     toml = model(tmp_path / "m", -10.0)
     assert cli(toml, out).returncode == 0
     vtk = out / "vtk"
-    _make_read_only(vtk)
-    try:
-        proc = cli(model(tmp_path / "m", -20.0), out)
-    finally:
-        _make_writable(vtk)
-    assert proc.returncode == 2
-    lines = proc.stderr.strip().splitlines()
-    assert len(lines) == 1 and str(vtk) in lines[0] and "read-only" in lines[0]
+    with read_only(vtk):
+        line = refusal(cli(model(tmp_path / "m", -20.0), out))
+    assert str(vtk) in line and "read-only" in line
     assert applied_z(out) == pytest.approx(-10.0) and leftovers(out) == []
 
 
@@ -213,16 +200,13 @@ def test_leftover_that_cannot_be_removed_is_reported(tmp_path: Path) -> None:
     assert cli(toml, out).returncode == 0
     stale = tmp_path / f".res.tmp-{dead_pid()}-killed"
     shutil.copytree(out, stale)
-    _make_read_only(stale / "vtk")
-    try:
+    with read_only(stale / "vtk"):
         proc = cli(toml, out)
         assert proc.returncode == 0, proc.stderr
         assert "could not remove" in proc.stdout and stale.name in proc.stdout
         assert leftovers(out) == [stale.name]  # said, and no new copy per run
         proc = cli(toml, out, "", "--json")
         assert any(stale.name in w for w in json.loads(proc.stdout)["warnings"])
-    finally:
-        _make_writable(stale / "vtk")
     assert cli(toml, out).returncode == 0
     assert leftovers(out) == []
 
@@ -231,14 +215,10 @@ def test_read_only_parent_names_the_users_folder(tmp_path: Path) -> None:
     parent = tmp_path / "locked"
     parent.mkdir()
     out = parent / "res"
-    _make_read_only(parent)
-    try:
+    with read_only(parent):
         proc = cli(model(tmp_path / "m", -10.0), out)
-    finally:
-        _make_writable(parent)
-    assert proc.returncode == 2
-    lines = proc.stderr.strip().splitlines()
-    assert len(lines) == 1 and str(out) in lines[0] and ".tmp" not in lines[0]
+    line = refusal(proc)
+    assert str(out) in line and ".tmp" not in line
     assert "Traceback" not in proc.stderr
     assert list(parent.iterdir()) == []
 
@@ -254,11 +234,9 @@ def test_file_size_limit_names_the_users_folder(tmp_path: Path) -> None:
         ["bash", "-c", f'ulimit -f 8; exec "{sys.executable}" -m spaceframe run '
                        f'"{toml}" -o "{out}" --no-pictures'],
         capture_output=True, text=True, env=env(), timeout=300)
-    assert proc.returncode == 2, proc.stderr
-    lines = proc.stderr.strip().splitlines()
-    assert len(lines) == 1, proc.stderr
-    assert str(out) in lines[0] and "File too large" in lines[0]
-    assert ".tmp" not in lines[0] and ".res." not in lines[0]
+    line = refusal(proc)
+    assert str(out) in line and "File too large" in line
+    assert ".tmp" not in line and ".res." not in line
     assert applied_z(out) == pytest.approx(-10.0)
     assert leftovers(out) == []
 

@@ -10,6 +10,7 @@ from typing import Any
 
 import numpy as np
 import pytest
+from _model_files import drawing_model
 
 import spaceframe.io as sio
 from spaceframe.cli import main
@@ -22,16 +23,10 @@ EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
 # A drawing in metres with one member shorter than the tolerance, a circle the
 # reader skips and two separate parts: three reader warnings to replay.
-MODEL = """title = "cache test (invented data)"
-output = "out"
-[geometry]
-file = "frame.dxf"
-tolerance = "{tol}"
-[sections]
-s = {{ shape = "chs", diameter = 0.05, thickness = 0.004 }}
-[assign]
-default = {{ section = "s", material = "S355" }}
-"""
+def model_text(tol: str) -> str:
+    """The model file of the drawing, joints merged within ``tol``."""
+    return ('title = "cache test (invented data)"\noutput = "out"\n'
+            + drawing_model("frame.dxf", tol, 0.05, 0.004, section="s"))
 
 
 def _drawing(path: Path, x_end: float = 1.0) -> None:
@@ -50,7 +45,7 @@ def _drawing(path: Path, x_end: float = 1.0) -> None:
 def model_file(tmp_path: Path) -> Path:
     _drawing(tmp_path / "frame.dxf")
     path = tmp_path / "frame.toml"
-    path.write_text(MODEL.format(tol="1 mm"), encoding="utf-8")
+    path.write_text(model_text("1 mm"), encoding="utf-8")
     return path
 
 
@@ -143,10 +138,10 @@ def test_a_changed_tolerance_is_read_again(model_file: Path,
                                            monkeypatch: pytest.MonkeyPatch) -> None:
     spy = _Spy(monkeypatch)
     _load(model_file)
-    model_file.write_text(MODEL.format(tol="0.5 mm"), encoding="utf-8")
+    model_file.write_text(model_text("0.5 mm"), encoding="utf-8")
     _load(model_file)
     assert spy.calls == 2
-    model_file.write_text(MODEL.format(tol="1 mm"), encoding="utf-8")
+    model_file.write_text(model_text("1 mm"), encoding="utf-8")
     _load(model_file)  # the first entry is still there
     assert spy.calls == 2
 
@@ -200,7 +195,7 @@ def test_a_damaged_entry_is_ignored_and_rewritten(model_file: Path, damage: str,
 
 def test_the_cache_folder_holds_only_the_tools_files(model_file: Path) -> None:
     _load(model_file)
-    model_file.write_text(MODEL.format(tol="0.5 mm"), encoding="utf-8")
+    model_file.write_text(model_text("0.5 mm"), encoding="utf-8")
     _load(model_file)
     folder = model_file.parent / geometry_cache.FOLDER
     names = sorted(p.name for p in folder.iterdir())
@@ -229,7 +224,7 @@ def test_old_entries_beyond_the_limit_are_pruned_but_not_other_files(
     folder = model_file.parent / geometry_cache.FOLDER
     (folder / "notes.txt").write_text("user file", encoding="utf-8")
     for tol in ("0.5 mm", "0.25 mm"):
-        model_file.write_text(MODEL.format(tol=tol), encoding="utf-8")
+        model_file.write_text(model_text(tol), encoding="utf-8")
         _load(model_file)
     assert len(list(folder.glob("*.npz"))) == 2
     assert (folder / "notes.txt").read_text(encoding="utf-8") == "user file"

@@ -13,36 +13,16 @@ import sys
 from pathlib import Path
 
 import pytest
+from _model_files import tripod_file
 
 from spaceframe.cli import main
 from spaceframe.run.job import MARKER
 
 pytest.importorskip("ezdxf")
 
-TRIPOD = """title = "tripod"
-{output}
-[geometry]
-nodes = [[0,0,3],[2,0,0],[-1,1.732,0],[-1,-1.732,0]]
-members = [[0,1],[0,2],[0,3]]
-[sections]
-s = {{ shape = "bar", diameter = 0.02 }}
-[assign]
-default = {{ section = "s", material = "steel" }}
-[[supports]]
-nodes = [1, 2, 3]
-restrain = "pinned"
-[loads.snow]
-[[loads.snow.nodal]]
-nodes = [0]
-force = ["0 kN", "0 kN", "{load} kN"]
-"""
-
-
 def project(folder: Path, output: str = "", load: float = -30.0) -> Path:
     """The tripod model file in ``folder`` with the user's other files beside it."""
-    folder.mkdir(parents=True, exist_ok=True)
-    toml = folder / "tripod.toml"
-    toml.write_text(TRIPOD.format(output=f'output = "{output}"' if output else "", load=load))
+    toml = tripod_file(folder, load, output)
     (folder / "budget.xlsx").write_bytes(b"the user's spreadsheet")
     return toml
 

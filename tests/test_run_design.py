@@ -11,7 +11,9 @@ from __future__ import annotations
 import csv
 import json
 import math
+from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pytest
@@ -301,6 +303,25 @@ def test_deflection_of_an_unknown_result_names_the_key(tmp_path):
     assert not (tmp_path / "out").exists()  # nothing half-written
 
 
+def _flagged_by_the_library(tmp_path: Path, text: str, flagged: Callable[[Any], np.ndarray]
+                            ) -> tuple[job.RunOutcome, np.ndarray]:
+    """Run ``text``; the members the library's own check flags in any result (some must be).
+
+    The run's failing members are the library's (default partial factors).
+    """
+    out = job.run(_write(tmp_path, text), pictures=False)
+    model = out.results.model
+    proj = job.load(out.summary["source"]).project
+    pool = {**{n: out.results[n] for n in out.results}, **proj.envelope_results(out.results)}
+    ref = sf.check_results(model, pool, ["ULS", "SLS", "design"])
+    mask = np.zeros(model.n_members, dtype=bool)
+    for c in ref.checks.values():
+        mask |= flagged(c)
+    assert mask.any()
+    assert out.summary["design"]["failing_members"] == ref.failing.tolist()
+    return out, mask
+
+
 def test_members_without_a_second_moment_are_named_and_fail(tmp_path):
     # A user section given by its area only: no buckling check in compression
     # (EN 1993-1-1 §6.3.1 needs the radius of gyration), so those members fail.
@@ -308,15 +329,7 @@ def test_members_without_a_second_moment_are_named_and_fail(tmp_path):
         'brace = { shape = "chs", diameter = 60.3, thickness = 3.2 }',
         'brace = { shape = "user", area = 574 }',
     )
-    out = job.run(_write(tmp_path, text), pictures=False)
-    model = out.results.model
-    proj = job.load(out.summary["source"]).project
-    pool = {**{n: out.results[n] for n in out.results}, **proj.envelope_results(out.results)}
-    ref = sf.check_results(model, pool, ["ULS", "SLS", "design"])
-    bad = np.zeros(model.n_members, dtype=bool)
-    for c in ref.checks.values():
-        bad |= c.unchecked
-    assert bad.any()
+    out, bad = _flagged_by_the_library(tmp_path, text, lambda c: c.unchecked)
     d = out.summary["design"]
     assert d["buckling_not_checked"] == np.flatnonzero(bad).tolist()
     assert set(d["buckling_not_checked"]) <= set(d["failing_members"])
@@ -328,18 +341,10 @@ def test_too_slender_members_fail_and_are_counted(tmp_path):
     # A limit on L_cr/i of 20 for the TOP group (set per group; EN 1993-1-1 sets
     # none): the chords in compression (L = 2 m, i about 30 mm) exceed it.
     text = CANOPY + "\n[design]\n[design.groups.TOP]\nslenderness_limit = 20\n"
-    out = job.run(_write(tmp_path, text), pictures=False)
-    model = out.results.model
-    proj = job.load(out.summary["source"]).project
-    pool = {**{n: out.results[n] for n in out.results}, **proj.envelope_results(out.results)}
-    ref = sf.check_results(model, pool, ["ULS", "SLS", "design"])
-    slender = np.zeros(model.n_members, dtype=bool)
-    for c in ref.checks.values():
-        slender |= ~c.slenderness_ok
-    assert slender.any() and set(np.flatnonzero(slender)) <= set(model.groups["TOP"])
+    out, slender = _flagged_by_the_library(tmp_path, text, lambda c: ~c.slenderness_ok)
+    assert set(np.flatnonzero(slender)) <= set(out.results.model.groups["TOP"])
     d = out.summary["design"]
     assert d["too_slender_members"] == np.flatnonzero(slender).tolist()
-    assert d["failing_members"] == ref.failing.tolist()
     assert f"({slender.sum()} too slender" in out.design.line()
     rows = _rows(out.output / "member_design.csv")
     for j in np.flatnonzero(slender):

@@ -203,7 +203,7 @@ def test_load_arrows_thinned_on_large_models(monkeypatch: pytest.MonkeyPatch) ->
             scene.close()
 
     every = arrow_points()
-    monkeypatch.setattr(viewer, "MAX_ARROWS", 10)
+    monkeypatch.setattr(viewer.scene, "MAX_ARROWS", 10)
     thinned = arrow_points()
     # Every k-th loaded node with k = ceil(loaded / 10): ceil(loaded / k) arrows.
     k = -(-loaded // 10)
@@ -331,7 +331,7 @@ def test_one_render_per_picture(tmp_path: Path, results: sf.Results,
         built.append(scene)
         return scene
 
-    monkeypatch.setattr(viewer, "build_scene", counting)
+    monkeypatch.setattr(viewer.pictures, "build_scene", counting)
     seen: list[str] = []
     paths = viewer.screenshots(tmp_path, results, views=("iso", "top"), size=SIZE,
                                progress=seen.append)

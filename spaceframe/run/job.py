@@ -6,18 +6,12 @@ together.  It prints nothing; it returns what the command line shows.
 
 from __future__ import annotations
 
-import ctypes
-import errno
-import json
 import os
 import re
-import shutil
-import signal
-import sys
-import tempfile
 import time
 import warnings
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -25,12 +19,14 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.errors import MechanismError, SpaceframeWarning
+from spaceframe.run.folder import FAULT_ENV, MARKER, write_folder
+from spaceframe.run.outputs import write_outputs
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
     from spaceframe.results import Results
 
-__all__ = ["CheckReport", "Progress", "RunOutcome", "check", "load", "run"]
+__all__ = ["FAULT_ENV", "MARKER", "CheckReport", "Progress", "RunOutcome", "check", "load", "run"]
 
 #: Called with the name of each phase as it starts ("read", "solve", ...).
 Progress = Callable[[str], None]
@@ -264,339 +260,6 @@ class RunOutcome:
     design: Any = None  # spaceframe.run.design.DesignOutcome when checks ran
 
 
-#: Marker file the tool writes inside every results folder (and every temporary or old
-#: copy of one): a JSON list of the paths it wrote.  Only a folder with this marker
-#: is ever replaced, and only the paths it lists are ever removed.
-MARKER = ".spaceframe-results"
-
-#: Environment variable for the fault tests, a comma-separated list: a point of the
-#: writer ("after-mkdtemp", "after-write", "before-swap", "mid-swap", "after-swap",
-#: "mid-merge") makes the process kill itself there (SIGKILL); "disk-full" fails the
-#: writing as a full disk would; "no-exchange" takes the two-rename swap.
-FAULT_ENV = "SPACEFRAME_FAULT"
-
-
-def _faults() -> list[str]:
-    return os.environ.get(FAULT_ENV, "").split(",")
-
-
-def _fault(point: str) -> None:
-    if point in _faults():
-        os.kill(os.getpid(), getattr(signal, "SIGKILL", signal.SIGTERM))
-
-
-def _write_marker(folder: Path, paths: Any) -> None:
-    """Write the marker (atomically: a reader never sees half a list)."""
-    from spaceframe import __version__
-
-    text = json.dumps({"written_by": "spaceframe", "version": __version__,
-                       "paths": sorted(paths)}, indent=1)
-    tmp = folder / f"{MARKER}.{os.getpid()}.tmp"
-    tmp.write_text(text + "\n", encoding="utf-8")
-    os.replace(tmp, folder / MARKER)
-
-
-def _read_marker(folder: Path) -> set[str] | None:
-    """The paths the tool wrote in ``folder``, or None when it is not the tool's folder."""
-    try:
-        data = json.loads((folder / MARKER).read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return None
-    if not isinstance(data, dict) or data.get("written_by") != "spaceframe":
-        return None
-    paths = data.get("paths")
-    if not isinstance(paths, list) or not all(isinstance(x, str) for x in paths):
-        return None
-    return set(paths)
-
-
-def _tree(folder: Path) -> list[str]:
-    """Every path under ``folder`` (files, folders, links), relative, '/'-separated."""
-    out: list[str] = []
-    for root, dirs, files in os.walk(folder):
-        rel = Path(root).relative_to(folder)
-        for name in dirs + files:
-            out.append((rel / name).as_posix())
-    return sorted(p for p in out if Path(p).name != MARKER and not (
-        Path(p).name.startswith(MARKER + ".") and Path(p).suffix == ".tmp"))
-
-
-def _pid_alive(pid: int) -> bool:
-    if pid == os.getpid():
-        return True
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except OSError:  # another user's process (PermissionError): alive
-        return True
-    return True
-
-
-_LEFTOVER = re.compile(r"^\.(?P<name>.+)\.(?P<kind>tmp|old)-(?P<pid>\d+)(?:-[^/]*)?$")
-
-
-def _clean_leftovers(final: Path, notes: list[str]) -> None:
-    """Remove what killed runs of the tool left beside ``final``.
-
-    Only ``.NAME.tmp-PID-*`` and ``.NAME.old-PID`` folders of a process that no
-    longer runs, holding the tool's marker (or empty), are touched.  When the
-    results folder itself is missing (a run killed between the two renames of
-    the fallback swap), the old copy is put back instead of removed.
-    """
-    try:
-        entries = list(final.parent.iterdir())
-    except OSError:
-        return
-    for entry in sorted(entries):
-        m = _LEFTOVER.match(entry.name)
-        if m is None or m["name"] != final.name or _pid_alive(int(m["pid"])):
-            continue
-        if entry.is_symlink() or not entry.is_dir():
-            continue
-        if _read_marker(entry) is None:
-            try:
-                entry.rmdir()  # an empty folder made just before a kill; never a full one
-            except OSError:
-                pass
-            continue
-        try:
-            if m["kind"] == "old" and not os.path.lexists(final):
-                entry.rename(final)
-                notes.append(f"{final}: restored the results of an interrupted run")
-                continue
-            errors = _rmtree_marked(entry)
-        except OSError as exc:
-            errors = [str(exc.strerror or exc)]
-        if errors:
-            notes.append(f"{entry}: could not remove this leftover of an interrupted run "
-                         f"({errors[0]}); remove it by hand")
-
-
-@dataclass
-class _Target:
-    """Where results go and how: "new" (nothing there), "swap" (a results folder of
-    the tool, replaced whole) or "merge" (a folder that also holds other files,
-    which are kept: only the tool's own paths are replaced)."""
-
-    final: Path
-    mode: str
-    ours: set[str]
-    foreign: list[str]
-
-
-def _inputs(loaded: Loaded) -> list[Path]:
-    found = [loaded.path]
-    src = loaded.model.meta.get("source")
-    if src:
-        found.append(Path(str(src)))
-    return [Path(os.path.realpath(p)) for p in found]
-
-
-def _target(output: Path, loaded: Loaded, force: bool) -> _Target:
-    """Check the output folder and decide how to write it.
-
-    Raises
-    ------
-    ProjectError
-        For a folder that must never be written: the model file's own folder or
-        one above it, one that holds an input, one that is not a folder, or a
-        folder of other files (unless ``force``).
-    """
-    from spaceframe.errors import ProjectError, WriteError
-
-    # realpath: '-o .' gets its real name, and a symlinked folder is followed to
-    # its target (replacing the link itself would leave the target stale).
-    final = Path(os.path.realpath(output))
-    model_dir = Path(os.path.realpath(loaded.path)).parent
-    if final == model_dir or final in model_dir.parents:
-        raise ProjectError(
-            f"output folder {output}: is the model file's folder or one above it "
-            f"({final}); results need a folder of their own, e.g. {loaded.output.name}")
-    for inp in _inputs(loaded):
-        if final in inp.parents:
-            raise ProjectError(f"output folder {output}: holds the input {inp}; "
-                               "choose a folder of its own")
-    if os.path.lexists(final) and not final.is_dir():
-        raise ProjectError(f"output folder {output}: exists and is not a folder")
-    if not final.exists():
-        return _Target(final, "new", set(), [])
-    have = _tree(final)
-    ours = _read_marker(final)
-    if ours is None:
-        if not have and not (final / MARKER).exists():
-            return _Target(final, "new", set(), [])
-        if not force:
-            raise ProjectError(
-                f"output folder {output}: holds {len(have)} files or folders that spaceframe "
-                f"did not write (e.g. {have[0] if have else MARKER}); choose another folder, "
-                "or --force to add the results beside them (they are kept)")
-        ours = set()
-    foreign = [p for p in have if p not in ours]
-    mode = "merge" if foreign else "swap"
-    if mode == "merge":
-        tops = {p.split("/")[0] for p in ours}
-        nested = [p for p in foreign if "/" in p and p.split("/")[0] in tops]
-        if nested:
-            raise ProjectError(
-                f"output folder {output}: {nested[0]} was not written by spaceframe but is "
-                "inside a folder of its results; move it out first")
-    # A read-only old folder could be renamed but never removed: say so before
-    # anything changes (root is not stopped by permissions; then removal
-    # failures are reported after the run).
-    for d in [final, *(final / p for p in sorted(ours) if (final / p).is_dir())]:
-        if not os.access(d, os.W_OK | os.X_OK):
-            raise WriteError(f"output folder {output}: {d} is read-only, so the old results "
-                             "could not be replaced; make it writable or choose another folder")
-    return _Target(final, mode, ours, foreign)
-
-
-# Linux renameat2(2) flag swapping two paths in one step.  Python's os module has
-# no binding for it (os.rename/os.replace only), hence ctypes.
-_AT_FDCWD, _RENAME_EXCHANGE = -100, 2
-
-
-def _exchange(a: Path, b: Path) -> bool:
-    """Swap two existing paths atomically; False when the system cannot."""
-    if not sys.platform.startswith("linux") or "no-exchange" in _faults():
-        return False
-    try:
-        libc = ctypes.CDLL(None, use_errno=True)
-        fn = libc.renameat2
-    except (OSError, AttributeError):
-        return False
-    fn.argtypes = [ctypes.c_int, ctypes.c_char_p, ctypes.c_int, ctypes.c_char_p, ctypes.c_uint]
-    fn.restype = ctypes.c_int
-    if fn(_AT_FDCWD, os.fsencode(a), _AT_FDCWD, os.fsencode(b), _RENAME_EXCHANGE) == 0:
-        return True
-    err = ctypes.get_errno()
-    if err in (errno.ENOSYS, errno.EINVAL, errno.ENOTSUP):
-        return False
-    raise OSError(err, os.strerror(err), str(b))
-
-
-def _rmtree_marked(folder: Path) -> list[str]:
-    """Remove a folder of the tool's, its marker last (what cannot be removed stays
-    recognisable as the tool's, for a later run to try again); the errors."""
-    errors: list[str] = []
-
-    def onerror(_f: Any, path: str, exc: Any) -> None:
-        err = exc[1] if isinstance(exc, tuple) else exc
-        errors.append(f"{path}: {getattr(err, 'strerror', None) or err}")
-
-    for entry in sorted(folder.iterdir()):
-        if entry.name == MARKER:
-            continue
-        if entry.is_dir() and not entry.is_symlink():
-            shutil.rmtree(entry, onerror=onerror)
-        else:
-            try:
-                entry.unlink()
-            except OSError as exc:
-                onerror(None, str(entry), exc)
-    if not errors:
-        try:
-            (folder / MARKER).unlink(missing_ok=True)
-            folder.rmdir()
-        except OSError as exc:
-            onerror(None, str(folder), exc)
-    return errors
-
-
-def _remove(folder: Path, final: Path, notes: list[str]) -> None:
-    """Remove a copy of the tool's own results; a failure is reported, not ignored."""
-    errors = _rmtree_marked(folder)
-    if errors and folder.exists():
-        notes.append(f"{final}: the old results could not all be removed ({errors[0]}); "
-                     f"what is left is in {folder}: remove it by hand")
-
-
-def _replace_folder(tmp: Path, target: _Target, notes: list[str]) -> None:
-    """Put a finished folder in place so that the old or the new results are always there."""
-    final = target.final
-    # mkdtemp makes the folder private (0700); give it the mode a new folder
-    # gets under the user's umask, as a plain mkdir would.
-    mask = os.umask(0)
-    os.umask(mask)
-    os.chmod(tmp, 0o777 & ~mask)
-    _fault("before-swap")
-    if target.mode == "merge":
-        _merge(tmp, target, notes)
-        return
-    if target.mode == "new":
-        try:
-            tmp.rename(final)  # onto nothing, or onto an empty folder
-            return
-        except OSError as exc:
-            if exc.errno not in (errno.EEXIST, errno.ENOTEMPTY) or _read_marker(final) is None:
-                raise
-            # Another run got there first: its folder is the tool's; replace it.
-    if _exchange(tmp, final):
-        _fault("after-swap")
-        _remove(tmp, final, notes)  # tmp now holds the old results
-        return
-    old = final.with_name(f".{final.name}.old-{os.getpid()}")
-    final.rename(old)
-    _fault("mid-swap")  # a later run puts `old` back if this one dies here
-    tmp.rename(final)
-    _fault("after-swap")
-    _remove(old, final, notes)
-
-
-def _merge(tmp: Path, target: _Target, notes: list[str]) -> None:
-    """Replace only the tool's own entries of a folder that holds other files too."""
-    from spaceframe.errors import WriteError
-
-    final = target.final
-    new = [p.name for p in sorted(tmp.iterdir()) if p.name != MARKER]
-    foreign_tops = {p.split("/")[0] for p in target.foreign}
-    clash = [n for n in new if n in foreign_tops]
-    if clash:
-        raise WriteError(f"{final / clash[0]}: exists and was not written by spaceframe; "
-                         "move it or choose another folder")
-    old = final.with_name(f".{final.name}.old-{os.getpid()}")
-    old.mkdir()
-    _write_marker(old, [])
-    new_paths = _tree(tmp)
-    # The marker covers old and new paths while they move: whatever a kill leaves
-    # is still known to be the tool's.
-    _write_marker(final, target.ours | set(new_paths))
-    for name in sorted({p.split("/")[0] for p in target.ours}):
-        if os.path.lexists(final / name):
-            (final / name).rename(old / name)
-    _fault("mid-merge")
-    for name in new:
-        (tmp / name).rename(final / name)
-    _write_marker(final, new_paths)
-    _remove(old, final, notes)
-    _remove(tmp, final, notes)
-
-
-def _write_error(exc: OSError, tmp: Path, final: Path) -> Exception:
-    """The error of a failed write, naming the user's folder, never the temporary one."""
-    from spaceframe.errors import WriteError
-
-    what = ""
-    if getattr(exc, "filename", None):
-        try:
-            rel = Path(os.fsdecode(exc.filename)).relative_to(tmp)
-            # A hidden name is a writer's own temporary file: name its folder instead.
-            parts: list[str] = []
-            for part in rel.parts:
-                if part.startswith("."):
-                    break
-                parts.append(part)
-            what = f" (writing {Path(*parts).as_posix()})" if parts else ""
-        except ValueError:
-            what = ""
-    reason = exc.strerror or str(exc).replace(str(tmp), str(final))
-    if isinstance(exc, WriteError) or not exc.strerror:
-        reason = str(exc).replace(str(tmp), str(final))
-        return WriteError(reason if reason.startswith(str(final)) else f"{final}: {reason}")
-    return WriteError(f"{final}: could not write the results{what}: {reason}; "
-                      "the old results are kept")
-
-
 def run(
     path: str | os.PathLike[str],
     output: str | os.PathLike[str] | None = None,
@@ -629,36 +292,66 @@ def run(
     beside the folder are removed; removal failures are added to the warnings.
     """
     timings: dict[str, float] = {}
+    with _timed(timings, "read"):
+        progress("read")
+        loaded = load(path, cache=cache)
+    results, sizing, solve_notes = _solve(loaded, solver, progress, timings)
+    envelopes = loaded.project.envelope_results(results) if loaded.project is not None else {}
+    summ = _summary(loaded, results, envelopes, solve_notes)
+    design = _check_members(loaded, results, envelopes, sizing, summ, progress, timings)
+    modes = _analyses(loaded, results, solver, summ, progress, timings)
+
+    def fill(folder: Path) -> list[Path]:
+        with _timed(timings, "write"):
+            progress("write tables")
+            keys = ("source", "title", "warnings", "envelopes", "design", "analysis")
+            extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
+            return write_outputs(folder, results, loaded, pictures, progress, extra, design,
+                                 dxf_options={"requested": dxf, "deformed": dxf_deformed},
+                                 envelopes=envelopes, modes=modes)
+
+    final, files = write_folder(Path(output) if output is not None else loaded.output,
+                                loaded, force, fill, summ["warnings"])
+    return RunOutcome(results, summ, final, files, timings, design)
+
+
+@contextmanager
+def _timed(timings: dict[str, float], phase: str) -> Iterator[None]:
+    """Time the block into ``timings[phase]`` (seconds) when it completes."""
     t = time.perf_counter()
-    progress("read")
-    loaded = load(path, cache=cache)
-    timings["read"] = time.perf_counter() - t
+    yield
+    timings[phase] = time.perf_counter() - t
+
+
+def _solve(loaded: Loaded, solver: str, progress: Progress,
+           timings: dict[str, float]) -> tuple[Results, Any, list[str]]:
+    """Size the sections when the model file asks for it, then solve; with the warnings.
+
+    Warnings of the solves (a displacement beyond the linear range, ...) go
+    into the run's warning list, as the reader's do; those of sizing are
+    marked as said of a trial choice of sections.
+    """
     from spaceframe.run import design as run_design
 
     solve_notes: list[str] = []
     sizing = None
-    # Warnings of the solves (a displacement beyond the linear range, ...) go
-    # into the run's warning list, as the reader's do.
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", SpaceframeWarning)
         if loaded.project is not None and loaded.project.design is not None \
                 and loaded.project.design.sizing is not None:
             progress("size")
-            t = time.perf_counter()
-            with warnings.catch_warnings(record=True) as trial:
+            with _timed(timings, "size"), warnings.catch_warnings(record=True) as trial:
                 warnings.simplefilter("always", SpaceframeWarning)
                 sizing = run_design.run_sizing(loaded.model, loaded.project,
                                                lambda mm: mm.solve(solver=solver))
-            # Said of a trial choice of sections, not of the final model: marked so.
-            for w in trial:
-                text = f"during sizing: {w.message}"
-                if issubclass(w.category, SpaceframeWarning) and text not in solve_notes:
-                    solve_notes.append(text)
-            timings["size"] = time.perf_counter() - t
+                # Said of a trial choice of sections, not of the final model: marked so.
+                for w in trial:
+                    text = f"during sizing: {w.message}"
+                    if issubclass(w.category, SpaceframeWarning) and text not in solve_notes:
+                        solve_notes.append(text)
         progress("solve")
-        t = time.perf_counter()
-        results = loaded.solve(solver=solver)
-        timings["solve"] = time.perf_counter() - t
+        with _timed(timings, "solve"):
+            results = loaded.solve(solver=solver)
     for w in caught:
         if issubclass(w.category, SpaceframeWarning):
             text = str(w.message)
@@ -666,199 +359,83 @@ def run(
                 solve_notes.append(text)
         else:
             warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
-    from spaceframe.io import tables
+    return results, sizing, solve_notes
+
+
+def _summary(loaded: Loaded, results: Results, envelopes: dict[str, Any],
+             solve_notes: list[str]) -> dict[str, Any]:
+    """The run's summary: the results' figures, the envelopes, source, title, warnings."""
+    from spaceframe.io.tables import envelope_summary
     from spaceframe.results.summary import summary as make_summary
 
     summ = make_summary(results)
-    from spaceframe.io.tables import envelope_summary
-
-    envelopes = loaded.project.envelope_results(results) if loaded.project is not None else {}
     summ["envelopes"] = envelope_summary(results, envelopes)
     summ["source"] = str(loaded.path.resolve())
     summ["title"] = loaded.title
     summ["warnings"] = [*loaded.warnings, *solve_notes]
-    design = None
-    if loaded.model.n_members:
-        progress("check members")
-        t = time.perf_counter()
+    return summ
+
+
+def _check_members(loaded: Loaded, results: Results, envelopes: dict[str, Any], sizing: Any,
+                   summ: dict[str, Any], progress: Progress, timings: dict[str, float]) -> Any:
+    """The design checks (None when none could run), said in ``summ``."""
+    from spaceframe.run import design as run_design
+
+    if not loaded.model.n_members:
+        return None
+    progress("check members")
+    with _timed(timings, "design"):
         design = run_design.run_checks(loaded.model, results, envelopes, loaded.project,
                                        sizing=sizing)
-        timings["design"] = time.perf_counter() - t
-        if design is None:
-            _, reasons = run_design.checkable_members(loaded.model)
-            line = ("design checks not run: " + run_design.missing_text(
-                reasons, loaded.model.n_members)
-                    + "; give the materials a yield strength (cables a breaking force) "
-                    "or add a [design] table to check the others")
-            summ["warnings"].append(line)
-            summ["design"] = {"checked_members": 0, "not_checked": line}
-        else:
-            summ["design"] = design.summary(loaded.model)
-            if design.missing:
-                summ["warnings"].append("design checks: " + design.missing)
-            nb = design.buckling_not_checked
-            if nb.size:
-                summ["warnings"].append(
-                    f"design checks: {nb.size} members in compression have no second moment, "
-                    f"so their buckling is not checked and they count as failing (members "
-                    f"{run_design.ranges(nb)}); give their sections a second moment")
-            if sizing is not None and not sizing.converged:
-                summ["warnings"].append(
-                    f"design sizing did not settle in {len(sizing.iterations)} iterations; "
-                    "the last choice is used")
-            if sizing is not None and sizing.no_section:
-                g, n = next(iter(sizing.no_section.items()))
-                summ["warnings"].append(
-                    f"design sizing: no catalogue section makes every member of group {g!r} "
-                    f"pass ({n} members fail with the largest)")
-    analysis_spec = getattr(loaded.project, "analysis", None)
-    modes: list[Any] = []  # mode shapes of [analysis], written to vtk/modes
-    if analysis_spec is not None and (analysis_spec.buckling or analysis_spec.frequencies):
-        from spaceframe.project.analysis import run_analyses_with_modes
+    if design is None:
+        _, reasons = run_design.checkable_members(loaded.model)
+        line = ("design checks not run: " + run_design.missing_text(
+            reasons, loaded.model.n_members)
+                + "; give the materials a yield strength (cables a breaking force) "
+                "or add a [design] table to check the others")
+        summ["warnings"].append(line)
+        summ["design"] = {"checked_members": 0, "not_checked": line}
+        return None
+    summ["design"] = design.summary(loaded.model)
+    summ["warnings"] += _design_warnings(design, sizing)
+    return design
 
-        progress("buckling and frequencies")
-        t = time.perf_counter()
-        summ["analysis"], modes = run_analyses_with_modes(analysis_spec, loaded.model, results,
+
+def _design_warnings(design: Any, sizing: Any) -> list[str]:
+    """What the checks and the sizing could not do."""
+    from spaceframe.run import design as run_design
+
+    out = []
+    if design.missing:
+        out.append("design checks: " + design.missing)
+    nb = design.buckling_not_checked
+    if nb.size:
+        out.append(
+            f"design checks: {nb.size} members in compression have no second moment, "
+            f"so their buckling is not checked and they count as failing (members "
+            f"{run_design.ranges(nb)}); give their sections a second moment")
+    if sizing is not None and not sizing.converged:
+        out.append(
+            f"design sizing did not settle in {len(sizing.iterations)} iterations; "
+            "the last choice is used")
+    if sizing is not None and sizing.no_section:
+        g, n = next(iter(sizing.no_section.items()))
+        out.append(
+            f"design sizing: no catalogue section makes every member of group {g!r} "
+            f"pass ({n} members fail with the largest)")
+    return out
+
+
+def _analyses(loaded: Loaded, results: Results, solver: str, summ: dict[str, Any],
+              progress: Progress, timings: dict[str, float]) -> list[Any]:
+    """Buckling and frequencies of ``[analysis]`` into ``summ``; their mode shapes."""
+    spec = getattr(loaded.project, "analysis", None)
+    if spec is None or not (spec.buckling or spec.frequencies):
+        return []
+    from spaceframe.project.analysis import run_analyses_with_modes
+
+    progress("buckling and frequencies")
+    with _timed(timings, "analysis"):
+        summ["analysis"], modes = run_analyses_with_modes(spec, loaded.model, results,
                                                           solver=solver)
-        timings["analysis"] = time.perf_counter() - t
-    target = _target(Path(output) if output is not None else loaded.output, loaded, force)
-    final = target.final
-    notes: list[str] = []
-    _clean_leftovers(final, notes)
-    summ["warnings"] = [*summ["warnings"], *notes]
-    notes = []
-    if target.mode == "new" and final.exists():
-        target = _target(final, loaded, force)  # a leftover was put back
-    try:
-        final.parent.mkdir(parents=True, exist_ok=True)
-        tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.tmp-{os.getpid()}-",
-                                    dir=final.parent))
-    except OSError as exc:
-        from spaceframe.errors import WriteError
-
-        raise WriteError(f"{final}: cannot create the results folder in {final.parent}: "
-                         f"{exc.strerror or exc}") from None
-    files: list[Path] = []
-    try:
-        _write_marker(tmp, [])
-        _fault("after-mkdtemp")
-        progress("write tables")
-        t = time.perf_counter()
-        keys = ("source", "title", "warnings", "envelopes", "design", "analysis")
-        extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
-        files += _write_outputs(tmp, results, loaded, pictures, progress, extra, design,
-                                dxf_options={"requested": dxf, "deformed": dxf_deformed})
-        files += tables.write_envelopes(tmp, results, envelopes)
-        import importlib.util
-
-        if modes and importlib.util.find_spec("pyvista") is not None:
-            from spaceframe.io import vtk
-
-            progress("write mode shapes")
-            files += vtk.write_modes(tmp / "vtk" / "modes", results, modes)
-        _fault("after-write")
-        if "disk-full" in _faults():
-            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC),
-                          str(tmp / "vtk" / f".results.{os.getpid()}-0123456789ab.vtu"))
-        _write_marker(tmp, _tree(tmp))
-        timings["write"] = time.perf_counter() - t
-        _replace_folder(tmp, target, notes)
-    except OSError as exc:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise _write_error(exc, tmp, final) from None
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
-    summ["warnings"] = [*summ["warnings"], *notes]
-    files = [final / f.relative_to(tmp) for f in files]
-    return RunOutcome(results, summ, final, files, timings, design)
-
-
-def _write_outputs(
-    folder: Path,
-    results: Results,
-    loaded: Loaded,
-    pictures: bool | str,
-    progress: Progress,
-    extra: dict[str, Any],
-    design: Any = None,
-    dxf_options: dict[str, Any] | None = None,
-) -> list[Path]:
-    """Every writer that is installed; tables always."""
-    import importlib.util
-
-    from spaceframe.io import tables
-
-    dxf_opt = dxf_options or {}
-    if importlib.util.find_spec("ezdxf") is not None:
-        from spaceframe.io.dxf_results import dxf_wanted
-
-        note = dxf_wanted(results.model.n_members, "results.dxf", dxf_opt.get("requested"))[1]
-        if note is not None:  # said in the summary and by the command
-            extra["warnings"].append(note)
-    files = [Path(p) for p in tables.write(folder, results, extra=extra)]
-    if design is not None:
-        cols = design.columns()
-        checked = np.zeros(results.model.n_members, dtype=bool)
-        checked[design.members] = True
-        files += tables.write_member_design(folder, results, {
-            **cols, "section": design.sections, "material": design.materials,
-            "utilisation": design.utilisation, "passes": design.passes, "checked": checked})
-    if importlib.util.find_spec("ezdxf") is not None:
-        from spaceframe.io import dxf_results
-
-        progress("write DXF")
-        dxf_kw: dict[str, Any] = {"failing": design.failing} if design is not None else {}
-        if dxf_opt.get("deformed"):
-            dxf_kw["deformed_scale"] = "auto"
-        dxf, _ = dxf_results.write_if_wanted(folder / "results.dxf", results,
-                                             requested=dxf_opt.get("requested"), **dxf_kw)
-        if dxf is not None:
-            files.append(dxf)
-    if importlib.util.find_spec("pyvista") is not None:
-        from spaceframe.io import vtk
-
-        progress("write VTK")
-        vtk_kw = ({"utilisation": design.per_result, "governing_utilisation": design.utilisation}
-                  if design is not None else {})
-        files.append(Path(vtk.write(folder / "vtk", results, **vtk_kw)))
-        if pictures:
-            from spaceframe import viewer
-            from spaceframe.run import report
-
-            envelopes = (loaded.project.envelope_results(results)
-                         if loaded.project is not None else {})
-            drawable = viewer.with_envelopes(results, envelopes)
-            chosen = viewer.select_cases(drawable, "combinations" if pictures is True
-                                         else str(pictures))
-            progress("render pictures")
-            pics = [Path(p) for p in report.write_pictures(
-                folder / "pictures", drawable, cases=chosen, progress=progress)]
-            if design is not None and design.members.size:
-                # Utilisation of each checked result that gets pictures (iso view).
-                util = {n: u for n, u in design.per_result.items() if n in drawable}
-                shown = [n for n in chosen if n in util] or list(util)[:1]
-                pics += [Path(p) for p in report.write_pictures(
-                    folder / "pictures" / "utilisation", drawable, views=("iso",), cases=shown,
-                    color_by="utilisation", utilisation=util, prefix="utilisation_",
-                    progress=lambda text: progress("utilisation " + text))]
-            charts = [Path(p) for p in report.write_charts(folder / "pictures", drawable,
-                                                           cases=chosen)]
-            progress("write report")
-            files += pics + charts
-            files.append(
-                Path(
-                    report.write_report(
-                        folder / "report.html",
-                        results,
-                        title=loaded.title,
-                        heal_report=loaded.model.meta.get("heal:report"),
-                        warnings=extra.get("warnings", loaded.warnings),
-                        pictures=pics,
-                        charts=charts,
-                        design=extra.get("design"),
-                        analysis=extra.get("analysis"),
-                    )
-                )
-            )
-    return files
+    return list(modes)

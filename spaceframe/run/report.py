@@ -19,7 +19,6 @@ import datetime as _dt
 import html
 import os
 import re
-import uuid
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from pathlib import Path
 from string import Template
@@ -101,28 +100,34 @@ def _safe(name: str) -> str:
     return _SAFE.sub("_", name).strip("._") or "result"
 
 
-def _temp_name(path: Path) -> Path:
-    return path.with_name(f".{path.stem}.{os.getpid()}-{uuid.uuid4().hex[:12]}{path.suffix}")
-
-
 def _write_bytes(path: Path, data: bytes) -> Path:
-    tmp = _temp_name(path)
-    try:
+    from spaceframe.io._common import atomic_write
+
+    def save(tmp: Path) -> None:
         tmp.write_bytes(data)
-        os.replace(tmp, path)
-    finally:
-        tmp.unlink(missing_ok=True)
-    return path
+
+    return atomic_write(path, save)
 
 
 def _save_figure(fig: Any, path: Path) -> Path:
-    tmp = _temp_name(path)
-    try:
-        fig.savefig(tmp, format="png")
-        os.replace(tmp, path)
-    finally:
-        tmp.unlink(missing_ok=True)
-    return path
+    from spaceframe.io._common import atomic_write
+
+    return atomic_write(path, lambda tmp: fig.savefig(tmp, format="png"))
+
+
+def _chart(name: str, xlabel: str, ylabel: str, empty: str | None) -> tuple[Any, Any]:
+    """A figure and its axes, labelled; when ``empty`` is a note, titled "no member force"."""
+    from matplotlib.figure import Figure
+
+    # Figure() without pyplot: no global backend or window state (Agg canvas).
+    fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
+    ax = fig.add_subplot()
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    if empty is not None:
+        _no_force(ax, empty)
+        ax.set_title(f"{name}: no member force")
+    return fig, ax
 
 
 # ----------------------------------------------------------------- pictures
@@ -161,10 +166,11 @@ def write_pictures(
         By result, then by view.
     """
     from spaceframe import viewer
+    from spaceframe.io._common import atomic_write
 
     return viewer.screenshots(folder, results, cases=cases, views=views, size=size,
                               color_by=color_by, progress=progress, utilisation=utilisation,
-                              prefix=prefix)
+                              prefix=prefix, write=atomic_write)
 
 
 # ------------------------------------------------------------------- charts
@@ -190,7 +196,6 @@ def write_charts(
     list of Path
         By result: the bar chart, then the histogram.
     """
-    from matplotlib.figure import Figure
     from matplotlib.ticker import MaxNLocator
 
     out = Path(folder)
@@ -223,16 +228,9 @@ def write_charts(
         order = np.argsort(-np.abs(kn), kind="stable")[:k]
         none_note = (f"no member force (every |N| <= {format_number(zero / 1e3, 2)} kN, "
                      f"{ZERO_FORCE_FRACTION:.0e} of the model's force scale)")
-
-        # Figure() without pyplot: no global backend or window state (Agg canvas).
-        fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
-        ax = fig.add_subplot()
-        ax.set_xlabel("member")
-        ax.set_ylabel("axial force [kN] (tension +)")
-        if k == 0:
-            _no_force(ax, none_note)
-            ax.set_title(f"{name}: no member force")
-        else:
+        empty = none_note if k == 0 else None
+        fig, ax = _chart(name, "member", "axial force [kN] (tension +)", empty)
+        if k:
             colors = np.where(kn[order] >= 0, "#c8281e", "#2a4fbf")
             ax.bar(np.arange(k), kn[order], color=colors)
             ax.set_xticks(np.arange(k), [str(int(i)) for i in order], rotation=90, fontsize=8)
@@ -240,14 +238,8 @@ def write_charts(
             ax.set_title(f"{name}: {k} most loaded members")
         paths.append(_save_figure(fig, out / f"{stem}_members.png"))
 
-        fig = Figure(figsize=(8, 4.5), dpi=100, layout="constrained")
-        ax = fig.add_subplot()
-        ax.set_xlabel("axial force [kN] (tension +)")
-        ax.set_ylabel("members")
-        if k == 0:
-            _no_force(ax, none_note)
-            ax.set_title(f"{name}: no member force")
-        else:
+        fig, ax = _chart(name, "axial force [kN] (tension +)", "members", empty)
+        if k:
             lo, hi = float(kn.min(initial=0.0)), float(kn.max(initial=0.0))
             bins = np.linspace(lo, hi, 31).tolist()
             ax.hist([kn[ids] for _, ids in groups], bins=bins, stacked=True,

@@ -44,16 +44,10 @@ length = "m"
 section = "mm"
 force = "kN"
 
-[geometry]
-file = "grid.dxf"
-tolerance = "2 mm"
+"""
 
-[sections]
-tube = {{ shape = "chs", diameter = 114.3, thickness = 3.2 }}
-
-[assign]
-default = {{ section = "tube", material = "S355" }}
-
+#: The loads, combinations and envelope (formatted with the snow and wind totals, kN).
+LOADS = """
 [selections]
 top = {{ plane = "z", at = "max" }}
 
@@ -92,7 +86,11 @@ def build(folder: Path, target_members: int) -> tuple[Path, int]:
     sf.io.write(folder / "grid.dxf", model, units="mm")
     plan = (3.0 * nx) * (3.0 * ny)
     # 0.8 kN/m² of snow and 0.1 kN/m² of wind drag over the plan (invented).
-    text = MODEL_FILE.format(snow=-0.8 * plan, wind=0.1 * plan)
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+    from _model_files import drawing_model
+
+    text = (MODEL_FILE + drawing_model("grid.dxf", "2 mm", 114.3, 3.2)
+            + LOADS.format(snow=-0.8 * plan, wind=0.1 * plan))
     path = folder / "model.toml"
     path.write_text(text, encoding="utf-8")
     return path, int(model.n_members)

@@ -1,24 +1,15 @@
-"""A 3D view of the results with PyVista: coloured members, the deformed shape, supports, loads.
+"""The scene: PyVista meshes, colours, camera and one picture of a set of results.
 
-Members are drawn as tubes (plain lines beyond :data:`TUBE_LIMIT` members)
-coloured by axial force on a diverging map centred on zero (``coolwarm``:
-blue end compression, red end tension, the range symmetric), by
-displacement magnitude, by stress, by group, or by design utilisation (a
-sequential scale 0 to 1 in ten bands, everything above 1 in one distinct
-colour, members not checked grey; ``utilisation=`` gives the values).  The deformed shape is drawn
-with a scale factor, the undeformed shape faint beside it; supports are cones
-under the nodes and loads arrows pointing at them.
-
-In an interactive window, ``n`` / Right and ``b`` / Left step through the load
-cases and combinations (a slider does the same), and ``p`` over a member or
-node shows its figures.  Everything renders off-screen as well, for
-:func:`screenshot` and for tests; PyVista is imported inside the functions.
+:class:`FrameScene` builds the plotter once and updates it in place for each
+result; the keys, slider and picking of a window are in
+:mod:`spaceframe.viewer.interactive`, the picture files in
+:mod:`spaceframe.viewer.pictures`.
 """
 
 from __future__ import annotations
 
+import io
 import os
-import uuid
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -27,27 +18,16 @@ import numpy as np
 
 from spaceframe.errors import ModelError
 from spaceframe.results.summary import auto_scale, format_number, member_group_index
+from spaceframe.viewer.interactive import Interaction
 
 if TYPE_CHECKING:
     import pyvista
 
-    from spaceframe.results import Envelope, Results
+    from spaceframe.results import Results
 
-__all__ = [
-    "COLOR_BY",
-    "PICTURE_CHOICES",
-    "TUBE_LIMIT",
-    "VIEWS",
-    "FrameScene",
-    "auto_scale",
-    "build_plotter",
-    "build_scene",
-    "screenshot",
-    "screenshots",
-    "select_cases",
-    "show",
-    "with_envelopes",
-]
+#: Writes a file safely: ``write(path, save)`` calls ``save(temporary_path)`` and puts
+#: the result at ``path`` (the signature of ``spaceframe.io._common.atomic_write``).
+Writer = Callable[[Path, Callable[[Path], None]], Path]
 
 #: Above this many members the frame is drawn as plain lines: tube geometry
 #: for more costs seconds per picture in software rendering (10k members as
@@ -143,18 +123,6 @@ def _resolve_scale(scale: float | str, model: Any, displacements: np.ndarray) ->
     return value
 
 
-def _segment_distances(points_a: np.ndarray, points_b: np.ndarray, p: np.ndarray) -> np.ndarray:
-    """(b,) float: distance from ``p`` to each segment a-b."""
-    d = points_b - points_a
-    w = p - points_a
-    dd = np.einsum("ij,ij->i", d, d)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        s = np.clip(np.einsum("ij,ij->i", w, d) / dd, 0.0, 1.0)
-    s = np.where(dd > 0, s, 0.0)
-    closest = points_a + s[:, None] * d
-    return np.linalg.norm(p - closest, axis=1)
-
-
 def _quiet_vtk_warnings() -> None:
     """Keep VTK's "bad X server connection" warning off stderr when rendering off-screen.
 
@@ -167,7 +135,7 @@ def _quiet_vtk_warnings() -> None:
     vtkLogger.SetStderrVerbosity(vtkLogger.VERBOSITY_ERROR)
 
 
-class FrameScene:
+class FrameScene(Interaction):
     """A PyVista plotter showing one result at a time, with switching and picking.
 
     The scene is built once; :meth:`set_case` updates the member colours,
@@ -593,138 +561,46 @@ class FrameScene:
         ndc = hom[:, :2] / hom[:, 3:4]
         return (ndc + 1.0) / 2.0
 
-    @property
-    def slider(self) -> Any:
-        """The VTK slider widget that picks the result (None unless interactive)."""
-        return self._slider
-
-    def next_case(self, step: int = 1) -> str:
-        """Show the next (or, with ``step=-1``, previous) result, wrapping round."""
-        k = (self.names.index(self.case) + step) % len(self.names)
-        self.set_case(self.names[k])
-        self.plotter.render()
-        return self.case
-
-    # ---------------------------------------------------------------- picking
-    def pick(self, point: Sequence[float]) -> str:
-        """Describe the node or member drawn nearest to ``point`` (drawn coordinates).
-
-        A point within a few tube radii of a node describes the node
-        (position, displacement, reaction); otherwise the nearest member
-        (id, end nodes, groups, length, force, stress).
-        """
-        model = self.results.model
-        res = self.results[self.case]
-        p = np.asarray(point, dtype=float).reshape(3)
-        x = self.deformed_nodes()
-        dn = np.linalg.norm(x - p, axis=1)
-        i = int(np.argmin(dn))
-        dm = _segment_distances(x[model.members[:, 0]], x[model.members[:, 1]], p)
-        k = int(np.argmin(dm))
-        if dn[i] <= max(3.0 * self.radius, dm[k]):
-            u = res.displacements[i] * 1e3
-            r = res.reactions[i] / 1e3
-            lines = [
-                f"node {i} at ({', '.join(format_number(v) for v in model.nodes[i])}) m",
-                f"u = ({', '.join(format_number(v) for v in u)}) mm, "
-                f"|u| = {format_number(float(np.linalg.norm(u)))} mm",
-            ]
-            if model.restraint[i].any() or (model.springs[i] > 0).any():
-                lines.append(f"R = ({', '.join(format_number(v) for v in r)}) kN")
-            else:
-                lines.append("no support")
-            return "\n".join(lines)
-        n = float(res.axial_forces[k])
-        sense = "tension" if n > 0 else "compression" if n < 0 else "no force"
-        groups = ", ".join(model.groups_of(k)) or "none"
-        a, b = (int(v) for v in model.members[k])
-        return "\n".join([
-            f"member {k} (nodes {a}-{b}), group {groups}",
-            f"L = {format_number(float(model.lengths[k]))} m",
-            f"N = {format_number(n / 1e3)} kN ({sense})",
-            f"stress = {format_number(float(res.stress[k]) / 1e6)} MPa",
-            *([f"utilisation = {format_number(float(self.utilisation[self.case][k]))}"]
-              if self.case in self.utilisation else []),
-        ])
-
-    def _on_pick(self, point: Any, *args: Any) -> None:
-        if point is None:
-            return
-        self.plotter.add_text(self.pick(point), position="lower_left", font_size=10,
-                              color="black", name="pick")
-
-    def _enable_interaction(self) -> None:
-        p = self.plotter
-        # In a window the user's camera stays put when stepping through results.
-        self._fit_each_case = False
-        for key, step in (("n", 1), ("Right", 1), ("b", -1), ("Left", -1)):
-            p.add_key_event(key, lambda step=step: self.next_case(step))
-        if len(self.names) > 1:
-            self._slider = p.add_slider_widget(
-                lambda value: self._on_slider(value),
-                rng=[0, len(self.names) - 1],
-                value=self.names.index(self.case),
-                title="result (n / b)",
-                fmt="%.0f",
-                pointa=(0.55, 0.07),
-                pointb=(0.95, 0.07),
-                color="black",
-            )
-        p.enable_point_picking(callback=self._on_pick, show_message="p: pick member or node",
-                               picker="cell", font_size=10, color="black", show_point=False)
-
-    def _on_slider(self, value: float) -> None:
-        name = self.names[round(value)]
-        if name != self.case:
-            self.set_case(name)
-
     # -------------------------------------------------------------- pictures
-    def save(self, path: str | os.PathLike[str]) -> Path:
-        """Render to a PNG file, written under a temporary name and then renamed."""
+    def png(self) -> bytes:
+        """The picture on show, rendered once, as PNG bytes."""
+        buffer = io.BytesIO()
+        # One render per picture: the scene's updates never render, and the
+        # first screenshot of a plotter renders by itself.
+        if getattr(self.plotter, "_rendered", False):
+            self.plotter.render()
+        self.plotter.screenshot(buffer)
+        return buffer.getvalue()
+
+    def save(self, path: str | os.PathLike[str], write: Writer | None = None) -> Path:
+        """Render to a PNG file.
+
+        ``write`` puts the file in place (the run and the command line give
+        ``spaceframe.io._common.atomic_write``: a temporary file, then a
+        rename); without it the bytes are written to ``path`` in one call.
+        """
         final = Path(path)
-        tmp = final.with_name(f".{final.stem}.{os.getpid()}-{uuid.uuid4().hex[:12]}.png")
-        try:
-            # One render per picture: the scene's updates never render, and the
-            # first screenshot of a plotter renders by itself.
-            if getattr(self.plotter, "_rendered", False):
-                self.plotter.render()
-            self.plotter.screenshot(str(tmp))
-            os.replace(tmp, final)
-        finally:
-            tmp.unlink(missing_ok=True)
-        return final
+        data = self.png()
+        if write is None:
+            final.write_bytes(data)
+            return final
+
+        def save(tmp: Path) -> None:
+            tmp.write_bytes(data)
+
+        return write(final, save)
 
     def close(self) -> None:
         """Release the render window."""
         self.plotter.close()
 
 
-def build_scene(
-    results: Results,
-    case: str | None = None,
-    *,
-    color_by: str = "axial_force",
-    scale: float | str = "auto",
-    off_screen: bool = False,
-    window_size: Sequence[int] = (1600, 1000),
-    view: str = "iso",
-    utilisation: Mapping[str, Any] | None = None,
-) -> FrameScene:
-    """A :class:`FrameScene` (plotter plus case switching and picking); see there."""
-    return FrameScene(results, case, color_by=color_by, scale=scale, off_screen=off_screen,
-                      window_size=window_size, view=view, utilisation=utilisation)
+def build_scene(results: Results, case: str | None = None, **options: Any) -> FrameScene:
+    """A :class:`FrameScene` (plotter plus case switching and picking); options as there."""
+    return FrameScene(results, case, **options)
 
 
-def build_plotter(
-    results: Results,
-    case: str | None = None,
-    *,
-    color_by: str = "axial_force",
-    scale: float | str = "auto",
-    off_screen: bool = False,
-    window_size: Sequence[int] = (1600, 1000),
-    view: str = "iso",
-) -> pyvista.Plotter:
+def build_plotter(results: Results, case: str | None = None, **options: Any) -> pyvista.Plotter:
     """A PyVista plotter showing ``case`` of ``results``.
 
     Parameters
@@ -732,12 +608,10 @@ def build_plotter(
     results : Results
     case : str, optional
         Load case or combination shown first (default the first).
-    color_by : {"axial_force", "stress", "displacement", "group", "utilisation"}
-    scale : "auto" or float
-        Displacement scale; "auto" draws the largest at 5 % of the model size.
-    off_screen : bool
-    window_size : (2,) int
-    view : {"iso", "top", "front", "side"}
+    **options
+        As :class:`FrameScene`: ``color_by``, ``scale`` ("auto" draws the
+        largest displacement at 5 % of the model size), ``off_screen``,
+        ``window_size``, ``view``, ...
 
     Returns
     -------
@@ -745,8 +619,7 @@ def build_plotter(
         Ready to ``show()`` or ``screenshot()``; when on-screen, with keys,
         slider and picking wired to the scene.
     """
-    return build_scene(results, case, color_by=color_by, scale=scale, off_screen=off_screen,
-                       window_size=window_size, view=view).plotter
+    return build_scene(results, case, **options).plotter
 
 
 def show(results: Results, case: str | None = None, **options: Any) -> None:
@@ -755,152 +628,3 @@ def show(results: Results, case: str | None = None, **options: Any) -> None:
     scene.plotter.show(title=f"spaceframe: {scene.case}")
 
 
-def screenshot(
-    results: Results,
-    case: str,
-    path: str | os.PathLike[str],
-    *,
-    view: str = "iso",
-    size: Sequence[int] = (1200, 800),
-    color_by: str = "axial_force",
-    scale: float | str = "auto",
-    utilisation: Mapping[str, Any] | None = None,
-) -> Path:
-    """Render one result off-screen to a PNG file (no display needed).
-
-    Returns
-    -------
-    Path
-        The PNG written.
-    """
-    scene = build_scene(results, case, color_by=color_by, scale=scale, off_screen=True,
-                        window_size=size, view=view, utilisation=utilisation)
-    try:
-        return scene.save(path)
-    finally:
-        scene.close()
-
-
-def with_envelopes(results: Results, envelopes: Mapping[str, Envelope]) -> Results:
-    """``results`` plus one drawable entry per envelope (kind "envelope").
-
-    An envelope's entry carries, per member, the governing force of the
-    results it spans (the larger in magnitude of its maximum and minimum),
-    no displacements and no loads; ``factors`` lists the results spanned.
-    """
-    from spaceframe.results import CaseResult, Results
-
-    model = results.model
-    items = {name: results[name] for name in results}
-    zeros = np.zeros((model.n_nodes, 3))
-    for name, env in envelopes.items():
-        if name in items:
-            raise ModelError(f"envelope {name!r}: a load case or combination has that name")
-        governing = np.where(np.abs(env.axial_max) >= np.abs(env.axial_min),
-                             env.axial_max, env.axial_min)
-        items[name] = CaseResult(
-            name=name, kind="envelope", displacements=zeros, axial_forces=governing,
-            reactions=zeros, loads=zeros, elongations=np.zeros(model.n_members),
-            residual=0.0, area=model.area, factors={m: 1.0 for m in env.members},
-        )
-    return Results(model, items, results.solver, results.timings, results.info)
-
-
-#: What :func:`select_cases` accepts besides a list of names.
-PICTURE_CHOICES = ("combinations", "all", "none")
-
-
-def select_cases(results: Results, which: str | Sequence[str] = "combinations") -> list[str]:
-    """The results that get pictures.
-
-    Parameters
-    ----------
-    results : Results
-        Possibly with envelopes (:func:`with_envelopes`).
-    which : str or sequence of str
-        "combinations" (the default): combinations and envelopes, or every
-        load case when there are neither; "all"; "none"; or result names
-        (a sequence, or one string of names separated by commas).
-
-    Raises
-    ------
-    ModelError
-        Naming the first unknown result.
-    """
-    kinds = {name: results[name].kind for name in results}
-    if isinstance(which, str) and which in PICTURE_CHOICES:
-        if which == "none":
-            return []
-        if which == "all":
-            return list(kinds)
-        chosen = [n for n, k in kinds.items() if k in ("combination", "envelope")]
-        return chosen or [n for n, k in kinds.items() if k == "case"]
-    names = [t.strip() for t in which.split(",")] if isinstance(which, str) else list(which)
-    names = [n for n in names if n]
-    for n in names:
-        if n not in kinds:
-            raise ModelError(
-                f"pictures: no result named {n!r} (have: {', '.join(kinds)}; or one of "
-                f"{', '.join(PICTURE_CHOICES)})"
-            )
-    return names
-
-
-def screenshots(
-    folder: str | os.PathLike[str],
-    results: Results,
-    *,
-    cases: Sequence[str] | None = None,
-    views: Sequence[str] = ("iso", "top", "front"),
-    size: Sequence[int] = (1200, 800),
-    color_by: str = "axial_force",
-    scale: float | str = "auto",
-    prefix: str = "",
-    progress: Callable[[str], None] | None = None,
-    utilisation: Mapping[str, Any] | None = None,
-) -> list[Path]:
-    """One PNG per result and view, ``<prefix><case>_<view>.png``, from one off-screen scene.
-
-    The scene is built once; each result updates it in place and each
-    picture is one render.  ``progress`` is called before each picture
-    with "pictures k/n".
-
-    Returns
-    -------
-    list of Path
-        In the order of the results, then of ``views``.
-    """
-    import re
-
-    out_dir = Path(folder)
-    names = list(results) if cases is None else list(cases)
-    for v in views:
-        _check_options(color_by, v)
-    unknown = [name for name in names if name not in results]
-    if unknown:
-        raise KeyError(f"no result named {unknown[0]!r} (have: {', '.join(results)})")
-    if not names or not views:
-        return []
-    out_dir.mkdir(parents=True, exist_ok=True)
-    scene = build_scene(results, names[0], color_by=color_by, scale=scale, off_screen=True,
-                        window_size=size, view=views[0], utilisation=utilisation)
-    paths: list[Path] = []
-    used: set[str] = set()
-    total = len(names) * len(views)
-    try:
-        for name in names:
-            if name != scene.case:
-                scene.set_case(name)
-            safe = re.sub(r"[^A-Za-z0-9_.+-]+", "_", name).strip("._") or "result"
-            stem, k = f"{prefix}{safe}", 2
-            while stem.lower() in used:
-                stem, k = f"{prefix}{safe}_{k}", k + 1
-            used.add(stem.lower())
-            for v in views:
-                if progress is not None:
-                    progress(f"pictures {len(paths) + 1}/{total}")
-                scene.set_view(v)
-                paths.append(scene.save(out_dir / f"{stem}_{v}.png"))
-    finally:
-        scene.close()
-    return paths

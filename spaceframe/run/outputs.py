@@ -1,0 +1,131 @@
+"""What goes into a results folder: tables, member design, DXF, VTK, pictures, report.
+
+Each writer runs when its library is installed; the tables always.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from spaceframe.results import Results
+    from spaceframe.run.job import Loaded, Progress
+
+
+def write_outputs(
+    folder: Path,
+    results: Results,
+    loaded: Loaded,
+    pictures: bool | str,
+    progress: Progress,
+    extra: dict[str, Any],
+    design: Any = None,
+    dxf_options: dict[str, Any] | None = None,
+    *,
+    envelopes: dict[str, Any] | None = None,
+    modes: list[Any] | None = None,
+) -> list[Path]:
+    """Every writer that is installed into ``folder``; tables always; the paths written.
+
+    ``extra`` goes into the summary (its "warnings" list gets what the writers
+    say); ``dxf_options``: "requested" (None, True or False) and "deformed".
+    """
+    from spaceframe.io import tables
+
+    envelopes = envelopes or {}
+    dxf_opt = dxf_options or {}
+    has_ezdxf = importlib.util.find_spec("ezdxf") is not None
+    has_pyvista = importlib.util.find_spec("pyvista") is not None
+    if has_ezdxf:
+        from spaceframe.io.dxf_results import dxf_wanted
+
+        note = dxf_wanted(results.model.n_members, "results.dxf", dxf_opt.get("requested"))[1]
+        if note is not None:  # said in the summary and by the command
+            extra["warnings"].append(note)
+    files = [Path(p) for p in tables.write(folder, results, extra=extra)]
+    if design is not None:
+        files += _write_member_design(folder, results, design)
+    if has_ezdxf:
+        files += _write_dxf(folder, results, design, dxf_opt, progress)
+    if has_pyvista:
+        from spaceframe.io import vtk
+
+        progress("write VTK")
+        vtk_kw = ({"utilisation": design.per_result, "governing_utilisation": design.utilisation}
+                  if design is not None else {})
+        files.append(Path(vtk.write(folder / "vtk", results, **vtk_kw)))
+        if pictures:
+            files += _write_pictures_and_report(folder, results, loaded, pictures, progress,
+                                                extra, design, envelopes)
+    files += tables.write_envelopes(folder, results, envelopes)
+    if modes and has_pyvista:
+        from spaceframe.io import vtk
+
+        progress("write mode shapes")
+        files += vtk.write_modes(folder / "vtk" / "modes", results, modes)
+    return files
+
+
+def _write_member_design(folder: Path, results: Results, design: Any) -> list[Path]:
+    from spaceframe.io import tables
+
+    checked = np.zeros(results.model.n_members, dtype=bool)
+    checked[design.members] = True
+    return list(tables.write_member_design(folder, results, {
+        **design.columns(), "section": design.sections, "material": design.materials,
+        "utilisation": design.utilisation, "passes": design.passes, "checked": checked}))
+
+
+def _write_dxf(folder: Path, results: Results, design: Any, dxf_opt: dict[str, Any],
+               progress: Progress) -> list[Path]:
+    from spaceframe.io import dxf_results
+
+    progress("write DXF")
+    dxf_kw: dict[str, Any] = {"failing": design.failing} if design is not None else {}
+    if dxf_opt.get("deformed"):
+        dxf_kw["deformed_scale"] = "auto"
+    dxf, _ = dxf_results.write_if_wanted(folder / "results.dxf", results,
+                                         requested=dxf_opt.get("requested"), **dxf_kw)
+    return [dxf] if dxf is not None else []
+
+
+def _write_pictures_and_report(folder: Path, results: Results, loaded: Loaded,
+                               pictures: bool | str, progress: Progress, extra: dict[str, Any],
+                               design: Any, envelopes: dict[str, Any]) -> list[Path]:
+    """Pictures of the chosen results, utilisation pictures, charts, then the report."""
+    from spaceframe import viewer
+    from spaceframe.run import report
+
+    drawable = viewer.with_envelopes(results, envelopes)
+    chosen = viewer.select_cases(drawable, "combinations" if pictures is True
+                                 else str(pictures))
+    progress("render pictures")
+    pics = [Path(p) for p in report.write_pictures(
+        folder / "pictures", drawable, cases=chosen, progress=progress)]
+    if design is not None and design.members.size:
+        # Utilisation of each checked result that gets pictures (iso view).
+        util = {n: u for n, u in design.per_result.items() if n in drawable}
+        shown = [n for n in chosen if n in util] or list(util)[:1]
+        pics += [Path(p) for p in report.write_pictures(
+            folder / "pictures" / "utilisation", drawable, views=("iso",), cases=shown,
+            color_by="utilisation", utilisation=util, prefix="utilisation_",
+            progress=lambda text: progress("utilisation " + text))]
+    charts = [Path(p) for p in report.write_charts(folder / "pictures", drawable,
+                                                   cases=chosen)]
+    progress("write report")
+    page = report.write_report(
+        folder / "report.html",
+        results,
+        title=loaded.title,
+        heal_report=loaded.model.meta.get("heal:report"),
+        warnings=extra.get("warnings", loaded.warnings),
+        pictures=pics,
+        charts=charts,
+        design=extra.get("design"),
+        analysis=extra.get("analysis"),
+    )
+    return [*pics, *charts, Path(page)]
