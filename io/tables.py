@@ -12,7 +12,7 @@ for ids and text):
   restrained directions, then per result ``<result>: Rx [N]``, ``Ry``, ``Rz``
 - ``summary.json``: :func:`spaceframe.results.summary.summary`, plus ``"tables"``
   stating the precision of the CSV files
-- ``results.npz`` (:func:`write_arrays`, on request): the same numbers as
+- ``results.npz`` (:func:`write_arrays`; the run writes it): the same numbers as
   binary arrays, full float64 precision, for big runs and for scripts
 - ``member_design.csv`` (:func:`write_member_design`, when design checks ran):
   per member its section, material, governing force, resistance, utilisation,
@@ -283,8 +283,8 @@ def write_arrays(
     ``result_factors`` the combinations' case factors as JSON; ``units``
     holds this table as JSON.  :func:`read_arrays` turns the file back into
     :class:`~spaceframe.results.Results` of the model.
-    Full float64 precision, and about 30 times faster to write than the CSV
-    tables at a million members.
+    Full float64 precision, and about 6 times faster to write than the CSV
+    tables (a million members, 3 results: 0.43 s against 2.7 s).
 
     Returns
     -------

@@ -369,6 +369,23 @@ def _cmd_new(args: argparse.Namespace, out: _Printer) -> int:
     return 0
 
 
+def _folder_results(folder: Path, loaded: Any, out: _Printer) -> Any:
+    """The results a run wrote into ``folder`` (its ``results.npz``), not solved again.
+
+    A folder written before the tool wrote ``results.npz`` is solved again, and
+    the command says so; results of a model that changed since the run are
+    refused (ReadError: run it again).
+    """
+    from spaceframe.io import tables
+
+    arrays = folder / tables.ARRAYS_FILE
+    if not arrays.exists():
+        out.line(f"{folder}: no {tables.ARRAYS_FILE} (written by an older version): "
+                 "solving the model again")
+        return loaded.solve()
+    return tables.read_arrays(arrays, loaded.model)
+
+
 def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
     from spaceframe import viewer
     from spaceframe.errors import ProjectError
@@ -382,8 +399,9 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
     if args.screenshot and not args.screenshot.parent.is_dir():
         raise ProjectError(f"--screenshot {args.screenshot}: folder {args.screenshot.parent} "
                            "does not exist")
-    if path.is_dir():
-        summ = path / "summary.json"
+    folder = path if path.is_dir() else None
+    if folder is not None:
+        summ = folder / "summary.json"
         if not summ.exists():
             raise ProjectError(f"{path}: not a results folder (no summary.json)")
         path = Path(json.loads(summ.read_text())["source"])
@@ -392,7 +410,7 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
     except ValueError:
         raise ProjectError(f"--size {args.size!r}: expected WIDTHxHEIGHT, e.g. 1600x1000") from None
     loaded = job.load(path)
-    results = loaded.solve()
+    results = _folder_results(folder, loaded, out) if folder is not None else loaded.solve()
     if loaded.project is not None:  # envelopes too, as in the results folder's pictures
         results = viewer.with_envelopes(results, loaded.project.envelope_results(results))
     case = args.case or next(iter(results))

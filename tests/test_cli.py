@@ -231,3 +231,33 @@ def test_units_differing_from_the_drawing_are_refused(
     assert "--edges-as-members" in capsys.readouterr().err
     assert main(["check", str(face), "--edges-as-members", "--json"]) == 0
     assert json.loads(capsys.readouterr().out)["counts"]["members"] == 3
+
+
+def test_view_results_folder_reads_the_run_and_does_not_solve(
+    canopy: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    pytest.importorskip("pyvista")
+    out = tmp_path / "res"
+    assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 0
+    assert (out / "results.npz").exists()
+
+    def no_solve(*args: object, **kwargs: object) -> None:
+        raise AssertionError("view of a results folder solved the model again")
+
+    monkeypatch.setattr("spaceframe.model.core.Model.solve", no_solve)
+    monkeypatch.setattr("spaceframe.project.core.Project.solve", no_solve)
+    png = tmp_path / "shot.png"
+    assert main(["view", str(out), "--case", "snow", "--screenshot", str(png),
+                 "--size", "400x300", "-q"]) == 0
+    assert png.stat().st_size > 0
+    # The model file changed since the run (one more bar drawn inline): the folder's results
+    # are of another model and are refused, not drawn on it.
+    text = canopy.read_text()
+    canopy.write_text(text.replace('tolerance = "2 mm"', 'tolerance = "2 mm"\n'
+                                   'nodes = [[0, 0, -5], [0, 0, -6]]\nmembers = [[0, 1]]', 1))
+    capsys.readouterr()
+    assert main(["view", str(out), "--screenshot", str(png), "--size", "400x300"]) == 2
+    err = capsys.readouterr().err
+    assert "results.npz: the results are of another model" in err
+    assert "run it again" in err

@@ -47,6 +47,7 @@ def write_outputs(
         if note is not None:  # said in the summary and by the command
             extra["warnings"].append(note)
     files = [Path(p) for p in tables.write(folder, results, extra=extra)]
+    files += tables.write_arrays(folder, results)  # what `view RESULTS_DIR` reads back
     if design is not None:
         files += _write_member_design(folder, results, design)
     if has_ezdxf:
