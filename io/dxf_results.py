@@ -38,7 +38,6 @@ import io
 import math
 import os
 import re
-import uuid
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -47,6 +46,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 import numpy as np
 
 from spaceframe.errors import SpaceframeError, WriteError
+from spaceframe.files import atomic_write
 from spaceframe.results.summary import auto_scale, format_number, supported_nodes
 
 if TYPE_CHECKING:
@@ -622,8 +622,8 @@ def _save(final: Path, doc: Any, streamed: Sequence[LineLayer], box: _Extents) -
     cut = body.index("  0\nENDSEC\n", at)
 
     final.parent.mkdir(parents=True, exist_ok=True)
-    tmp = final.with_name(f".{final.stem}.{os.getpid()}-{uuid.uuid4().hex[:12]}.dxf")
-    try:
+
+    def save(tmp: Path) -> None:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(body[:cut])
             handle = first
@@ -631,6 +631,5 @@ def _save(final: Path, doc: Any, streamed: Sequence[LineLayer], box: _Extents) -
                 handle += stream_lines(fh, ll.segments, ll.name, handle, owner,
                                        aci=ll.aci, true_color=ll.true_color)
             fh.write(body[cut:])
-        os.replace(tmp, final)
-    finally:
-        tmp.unlink(missing_ok=True)
+
+    atomic_write(final, save)

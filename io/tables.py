@@ -41,6 +41,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.errors import WriteError
+from spaceframe.files import atomic_write
 from spaceframe.results.summary import member_group_labels, summary, supported_nodes
 
 if TYPE_CHECKING:
@@ -164,13 +165,7 @@ def _temp_name(final: Path) -> Path:
 
 def _write_one(final: Path, header: list[str], cols: list[_Col]) -> None:
     """One CSV table under a temporary name, renamed onto ``final`` when complete."""
-    tmp = _temp_name(final)
-    try:
-        _write_csv(tmp, header, cols)
-        _commit([(tmp, final)])
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
+    atomic_write(final, lambda tmp: _write_csv(tmp, header, cols))
 
 
 def _commit(pairs: Iterable[tuple[Path, Path]]) -> None:
@@ -297,8 +292,6 @@ def write_arrays(
         If there are no results or ``prefix`` holds a path separator, or the
         file cannot be written (nothing is left half-written).
     """
-    from spaceframe.io._common import atomic_write
-
     out = Path(folder)
     if Path(prefix).name != prefix and prefix:
         raise WriteError(f"{ARRAYS_FILE} in {out}: prefix {prefix!r} must not contain a folder")

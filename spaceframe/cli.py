@@ -429,10 +429,8 @@ def _cmd_view(args: argparse.Namespace, out: _Printer) -> int:
                 + (", ".join(design.per_result) if design else "none") + ")")
         options["utilisation"] = design.per_result
     if args.screenshot:
-        from spaceframe.io._common import atomic_write
-
         viewer.screenshot(results, case, args.screenshot, view=args.view, size=(w, h),
-                          color_by=args.color_by, write=atomic_write, **options)
+                          color_by=args.color_by, **options)
         out.line(f"wrote {args.screenshot}")
         return 0
     viewer.show(results, case, color_by=args.color_by, **options)

@@ -368,7 +368,7 @@ def write_demo(folder: str | os.PathLike[str], name: str = "canopy", *,
     """Write the demo's drawing and model file into ``folder``.
 
     Each file is written under a temporary name and renamed
-    (:func:`spaceframe.io._common.atomic_write`), so a failure leaves nothing
+    (:func:`spaceframe.files.atomic_write`), so a failure leaves nothing
     half-written.
 
     Raises
@@ -385,7 +385,7 @@ def write_demo(folder: str | os.PathLike[str], name: str = "canopy", *,
     existing = [str(p) for p in targets if p.exists()]
     if existing and not force:
         raise ProjectError(f"{', '.join(existing)} exists already (use --force to overwrite)")
-    from spaceframe.io._common import atomic_write
+    from spaceframe.files import atomic_write
 
     atomic_write(targets[0], writer)
     atomic_write(targets[1], lambda tmp: _write_text(tmp, CAUTION_TOML + text))

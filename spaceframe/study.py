@@ -248,7 +248,7 @@ class StudyTable:
         w.writerow(self.columns)
         for r in self.rows:
             w.writerow([_cell(r.get(c)) for c in self.columns])
-        from spaceframe.io._common import atomic_write
+        from spaceframe.files import atomic_write
 
         def save(tmp: Path) -> None:
             tmp.write_text(buf.getvalue(), encoding="utf-8")

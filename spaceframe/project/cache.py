@@ -184,7 +184,7 @@ def _report_dict(report: Any) -> dict[str, Any]:
 
 def _write(folder: Path, key: str, arrays: dict[str, np.ndarray], side: dict[str, Any],
            meta: dict[str, Any]) -> bool:
-    from spaceframe.io._common import atomic_write
+    from spaceframe.files import atomic_write
 
     try:
         text = json.dumps(side, allow_nan=True)

@@ -52,7 +52,7 @@ def _fault(point: str) -> None:
 def _write_marker(folder: Path, paths: Any) -> None:
     """Write the marker (atomically: a reader never sees half a list)."""
     from spaceframe import __version__
-    from spaceframe.io._common import atomic_write
+    from spaceframe.files import atomic_write
 
     text = json.dumps({"written_by": "spaceframe", "version": __version__,
                        "paths": sorted(paths)}, indent=1)

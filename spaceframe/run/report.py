@@ -101,7 +101,7 @@ def _safe(name: str) -> str:
 
 
 def _write_bytes(path: Path, data: bytes) -> Path:
-    from spaceframe.io._common import atomic_write
+    from spaceframe.files import atomic_write
 
     def save(tmp: Path) -> None:
         tmp.write_bytes(data)
@@ -110,7 +110,7 @@ def _write_bytes(path: Path, data: bytes) -> Path:
 
 
 def _save_figure(fig: Any, path: Path) -> Path:
-    from spaceframe.io._common import atomic_write
+    from spaceframe.files import atomic_write
 
     return atomic_write(path, lambda tmp: fig.savefig(tmp, format="png"))
 
@@ -166,11 +166,10 @@ def write_pictures(
         By result, then by view.
     """
     from spaceframe import viewer
-    from spaceframe.io._common import atomic_write
 
     return viewer.screenshots(folder, results, cases=cases, views=views, size=size,
                               color_by=color_by, progress=progress, utilisation=utilisation,
-                              prefix=prefix, write=atomic_write)
+                              prefix=prefix)
 
 
 # ------------------------------------------------------------------- charts

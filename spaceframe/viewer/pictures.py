@@ -2,7 +2,7 @@
 
 The scene is built once and updated in place for each result; the files are
 written through a ``write`` helper (the run and the command line give
-``spaceframe.io._common.atomic_write``).
+``spaceframe.files.atomic_write``).
 """
 
 from __future__ import annotations

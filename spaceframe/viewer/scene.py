@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.errors import ModelError
+from spaceframe.files import atomic_write
 from spaceframe.results.summary import auto_scale, format_number, member_group_index
 from spaceframe.viewer.interactive import Interaction
 
@@ -26,7 +27,7 @@ if TYPE_CHECKING:
     from spaceframe.results import Results
 
 #: Writes a file safely: ``write(path, save)`` calls ``save(temporary_path)`` and puts
-#: the result at ``path`` (the signature of ``spaceframe.io._common.atomic_write``).
+#: the result at ``path`` (the signature of ``spaceframe.files.atomic_write``).
 Writer = Callable[[Path, Callable[[Path], None]], Path]
 
 #: Above this many members the frame is drawn as plain lines: tube geometry
@@ -575,20 +576,16 @@ class FrameScene(Interaction):
     def save(self, path: str | os.PathLike[str], write: Writer | None = None) -> Path:
         """Render to a PNG file.
 
-        ``write`` puts the file in place (the run and the command line give
-        ``spaceframe.io._common.atomic_write``: a temporary file, then a
-        rename); without it the bytes are written to ``path`` in one call.
+        ``write`` puts the file in place; by default
+        :func:`spaceframe.files.atomic_write` (a temporary file, then a rename:
+        the picture appears whole or not at all).
         """
-        final = Path(path)
         data = self.png()
-        if write is None:
-            final.write_bytes(data)
-            return final
 
         def save(tmp: Path) -> None:
             tmp.write_bytes(data)
 
-        return write(final, save)
+        return (write or atomic_write)(Path(path), save)
 
     def close(self) -> None:
         """Release the render window."""
