@@ -1,4 +1,4 @@
-"""One atomic-write helper (io/_common.atomic_write) and the umask it reads."""
+"""One atomic-write helper (spaceframe.files.atomic_write) and the umask it reads."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 import spaceframe as sf
-from spaceframe.io import _common
+from spaceframe import files
 from spaceframe.study import StudyTable
 
 
@@ -22,7 +22,7 @@ def test_umask_is_read_without_setting_it(monkeypatch: pytest.MonkeyPatch) -> No
             raise AssertionError("os.umask called")
 
         monkeypatch.setattr(os, "umask", no_set)
-        assert _common._umask() == 0o027
+        assert files._umask() == 0o027
     finally:
         monkeypatch.undo()
         os.umask(old)
@@ -31,7 +31,7 @@ def test_umask_is_read_without_setting_it(monkeypatch: pytest.MonkeyPatch) -> No
 def test_atomic_write_gives_the_umask_mode(tmp_path: Path) -> None:
     old = os.umask(0o077)
     try:
-        _common.atomic_write(tmp_path / "a.txt", lambda p: p.write_text("x"))
+        files.atomic_write(tmp_path / "a.txt", lambda p: p.write_text("x"))
     finally:
         os.umask(old)
     assert stat.S_IMODE((tmp_path / "a.txt").stat().st_mode) == 0o600

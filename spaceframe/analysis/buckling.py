@@ -20,7 +20,6 @@ supports).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -34,45 +33,13 @@ from spaceframe.analysis.eigen import (
 from spaceframe.analysis.matrices import elastic_stiffness, free_dof_map, geometric_stiffness
 from spaceframe.analysis.stability import check_stability
 from spaceframe.errors import ModelError
+from spaceframe.results.modes import BucklingResult
 from spaceframe.solvers import resolve_backend
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
 
 __all__ = ["BucklingResult", "linear_buckling"]
-
-
-@dataclass
-class BucklingResult:
-    """Load factors and mode shapes of a linear buckling analysis.
-
-    Attributes
-    ----------
-    name : str
-        The static result (case or combination) whose forces were used.
-    factors : (k,) float
-        Positive load factors λ, ascending: the result's loads times λ make
-        the frame unstable.  k <= n_modes (fewer when fewer exist).
-    modes : (k, n_nodes, 3) float
-        Buckling mode shapes, each scaled to a largest nodal movement of 1.
-    negative_factors : (j,) float
-        Only with ``negative=True``: factors λ < 0 (the loads reversed),
-        nearest to zero first; empty otherwise.
-    negative_modes : (j, n_nodes, 3) float
-    notes : list of str
-        Plain-words remarks (fewer modes than asked, and why).
-    """
-
-    name: str
-    factors: np.ndarray
-    modes: np.ndarray
-    negative_factors: np.ndarray
-    negative_modes: np.ndarray
-    notes: list[str] = field(default_factory=list)
-
-    def __repr__(self) -> str:
-        f = ", ".join(f"{x:.4g}" for x in self.factors)
-        return f"BucklingResult({self.name!r}: factors [{f}])"
 
 
 def axial_forces_of(

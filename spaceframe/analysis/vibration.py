@@ -24,7 +24,6 @@ depend on joints, cladding and mass not modelled here.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -46,6 +45,7 @@ from spaceframe.analysis.matrices import (
 from spaceframe.analysis.stability import check_stability, describe_dofs
 from spaceframe.errors import MechanismError, ModelError
 from spaceframe.model import STANDARD_GRAVITY
+from spaceframe.results.modes import VibrationResult
 from spaceframe.solvers import resolve_backend
 
 if TYPE_CHECKING:
@@ -60,46 +60,6 @@ __all__ = ["VibrationResult", "natural_frequencies"]
 #: pivot tolerance (spaceframe.solvers, 1e-11) lets through near-mechanisms
 #: near 1e-11.
 MECHANISM_RATIO = 1.0e-10
-
-
-@dataclass
-class VibrationResult:
-    """Natural frequencies and mode shapes.
-
-    Attributes
-    ----------
-    frequencies : (k,) float
-        Natural frequencies, Hz, ascending; k <= n_modes (fewer when fewer
-        directions carry mass).
-    modes : (k, n_nodes, 3) float
-        Mode shapes, each scaled to a largest nodal movement of 1.
-    mass : {"consistent", "lumped"}
-    total_mass : float
-        Mass of the model, kg: members (if counted), added and from loads,
-        including what sits on supports.
-    notes : list of str
-        Plain-words remarks (mass from loads, fewer modes than asked).
-    """
-
-    frequencies: np.ndarray
-    modes: np.ndarray
-    mass: str
-    total_mass: float
-    notes: list[str] = field(default_factory=list)
-
-    @property
-    def periods(self) -> np.ndarray:
-        """(k,) float: periods 1/f, s."""
-        return 1.0 / self.frequencies
-
-    @property
-    def angular_frequencies(self) -> np.ndarray:
-        """(k,) float: ω = 2πf, rad/s."""
-        return 2.0 * np.pi * self.frequencies
-
-    def __repr__(self) -> str:
-        f = ", ".join(f"{x:.4g}" for x in self.frequencies)
-        return f"VibrationResult({self.mass} mass {self.total_mass:.4g} kg: [{f}] Hz)"
 
 
 def _added_mass(model: Model, added_mass: Any) -> np.ndarray:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
@@ -40,6 +40,9 @@ class CaseResult:
         Tension-only members carrying no force in this result (None when the
         model has none).
     """
+
+    #: The analysis that made the result (every result kind has one).
+    analysis: ClassVar[str] = "static"
 
     name: str
     kind: str
