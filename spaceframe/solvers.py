@@ -312,8 +312,20 @@ def factorize(K: sp.spmatrix, backend: str = "auto") -> Factor:
     """
     name = resolve_backend(backend)
     if name == "pardiso":
-        return _PardisoFactor(sp.triu(K, format="csr"))
+        return _PardisoFactor(K if _is_upper_csr(K) else sp.triu(K, format="csr"))
     return _SuperLUFactor(K)
+
+
+def _is_upper_csr(K: sp.spmatrix) -> bool:
+    """True when K is CSR with sorted indices and nothing below the diagonal.
+
+    What the assembly gives PARDISO already; then ``sp.triu`` (a copy, about
+    10 ms at 100k members) is skipped.
+    """
+    if not (sp.isspmatrix_csr(K) or isinstance(K, sp.csr_array)) or not K.has_sorted_indices:
+        return False
+    rows = np.flatnonzero(np.diff(K.indptr))
+    return bool(np.all(K.indices[K.indptr[rows]] >= rows))
 
 
 class LDLFactor:
