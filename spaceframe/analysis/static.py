@@ -77,7 +77,7 @@ def _check_finite(names: list[str], uf: np.ndarray, what: str = "displacements")
 
 
 def _symmetric_products(K: sp.spmatrix, upper: bool) -> tuple[Any, Any]:
-    """x -> K x and x -> |K| x for K stored whole or as its upper triangle U.
+    """The products K x and |K| x, for K stored whole or as its upper triangle U.
 
     With the upper triangle, K x = U x + Uᵀ x − diag(U) x: two products on
     the stored triangle instead of building the full matrix (which costs more
