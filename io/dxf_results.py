@@ -232,12 +232,6 @@ class LineLayer:
     on: bool = True
 
 
-def _format_float(values: np.ndarray) -> list[str]:
-    # repr(float) is the shortest string that reads back to the same double,
-    # as ezdxf writes coordinates.
-    return [repr(v) for v in values.tolist()]
-
-
 def stream_lines(stream: TextIO, segments: np.ndarray, layer: str, first_handle: int,
                  owner: str, aci: np.ndarray | None = None,
                  true_color: np.ndarray | None = None, chunk: int = CHUNK) -> int:
@@ -277,7 +271,9 @@ def stream_lines(stream: TextIO, segments: np.ndarray, layer: str, first_handle:
         colour += " 62\n%d\n"
     if true_color is not None:
         colour += "420\n%d\n"
-    fmt = head + colour + "100\nAcDbLine\n 10\n%s\n 20\n%s\n 30\n%s\n 11\n%s\n 21\n%s\n 31\n%s\n"
+    # %r: repr(float), the shortest text that reads back to the same double (as
+    # ezdxf writes coordinates), formatted inside the one %-operation below.
+    fmt = head + colour + "100\nAcDbLine\n 10\n%r\n 20\n%r\n 30\n%r\n 11\n%r\n 21\n%r\n 31\n%r\n"
     columns: list[np.ndarray] = [np.arange(first_handle, first_handle + k, dtype=np.int64)]
     if aci is not None:
         columns.append(np.broadcast_to(np.asarray(aci, dtype=np.int64), (k,)))
@@ -286,7 +282,7 @@ def stream_lines(stream: TextIO, segments: np.ndarray, layer: str, first_handle:
     for lo in range(0, k, chunk):
         hi = min(k, lo + chunk)
         fields: list[list[Any]] = [c[lo:hi].tolist() for c in columns]
-        fields += [_format_float(seg[lo:hi, j]) for j in range(6)]
+        fields += [seg[lo:hi, j].tolist() for j in range(6)]
         # One %-format over the whole chunk: rows interleaved column by column.
         flat = [v for row in zip(*fields, strict=True) for v in row]
         stream.write((fmt * (hi - lo)) % tuple(flat))

@@ -72,6 +72,8 @@ class _Col:
         self.values: np.ndarray
         if kind == "int":
             self.values, self.code = arr.astype(np.int64), "%d"
+        elif kind == "formatted":  # text already formatted that needs no quoting (numbers)
+            self.values, self.code = arr.astype(object), "%s"
         elif kind == "float":
             # + 0.0 turns -0.0 into 0.0: no "-0" in a table.
             self.values, self.code = arr.astype(np.float64) + 0.0, f"%.{int(digits)}g"
@@ -446,9 +448,12 @@ DESIGN_FILE = "member_design.csv"
 
 def _maybe(values: Any, digits: int) -> _Col:
     """A float column printed with ``digits`` significant digits, empty where NaN."""
-    v = np.asarray(values, dtype=np.float64) + 0.0
-    text = np.char.mod(f"%.{int(digits)}g", v)
-    return _Col(np.where(np.isfinite(v), text, ""), "text")
+    v = np.asarray(values, dtype=np.float64).ravel() + 0.0
+    # One %-format over the column (numpy's char.mod loops in Python: 4x slower).
+    code = f"%.{int(digits)}g\x00"
+    text = np.array(((code * v.size) % tuple(v.tolist())).split("\x00")[:-1], dtype=object)
+    text[~np.isfinite(v)] = ""
+    return _Col(text, "formatted")
 
 
 def write_member_design(
