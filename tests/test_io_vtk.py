@@ -235,3 +235,17 @@ def test_group_legend_read_by_vtk_and_meshio(tmp_path: Path) -> None:
     assert sfvtk.group_legend(by_vtk.field_data) == want
     assert by_vtk.cell_data["group"].tolist() == [0, 1, 1]
     assert sfvtk.group_legend(meshio.read(vtu).field_data) == want
+
+
+def test_a_failed_vtu_write_is_one_oserror_and_silent(tmp_path: Path, results: sf.Results,
+                                                      capfd: pytest.CaptureFixture[str]) -> None:
+    grid = sfvtk.member_grid(results, next(iter(results)))
+    with pytest.raises(OSError, match=r"x\.vtu: Error opening output file"):
+        sfvtk._save(grid, tmp_path / "missing" / "x.vtu", True)
+    assert capfd.readouterr().err == ""  # VTK's own multi-line log is not let through
+    # Written with zlib at level 1: meshio (an independent reader) reads every array.
+    sfvtk._save(grid, tmp_path / "x.vtu", True)
+    back = meshio.read(tmp_path / "x.vtu")
+    np.testing.assert_array_equal(back.cell_data["axial_force"][0],
+                                  results[next(iter(results))].axial_forces)
+    assert b'compressor="vtkZLibDataCompressor"' in (tmp_path / "x.vtu").read_bytes()[:2000]
