@@ -46,6 +46,9 @@ LARGE_DISPLACEMENT_FRACTION = 0.02
 #: Gaussian elimination", Math. Comp. 35, 1980).
 REFINE_ABOVE = 1.0e-14
 _REFINE_STEPS = 3
+#: Results recovered and checked together: the temporaries of the checks are a
+#: few arrays of (model rows x this many columns), whatever the number of cases.
+_RECOVER_BLOCK = 64
 
 #: Relative size, against the magnitudes a member force is computed from,
 #: below which the force is round-off: 64 units of float64 round-off (2**-52),
@@ -64,6 +67,20 @@ def _norm(x: np.ndarray) -> float:
     if big == 0.0 or not np.isfinite(big):
         return big
     return big * float(np.linalg.norm(x / big))
+
+
+def _column_norms(X: np.ndarray) -> np.ndarray:
+    """:func:`_norm` of every column of X (rows x columns) at once, on rows laid out in memory.
+
+    ``X`` is given transposed-contiguous or not; the work is a few passes
+    over the whole block instead of one strided pass per column.
+    """
+    big = np.abs(X).max(axis=0, initial=0.0)
+    ok = (big > 0) & np.isfinite(big)
+    safe = np.where(ok, big, 1.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        out = np.sqrt(((X / safe) ** 2).sum(axis=0)) * safe
+    return np.where(ok, out, big)
 
 
 def _check_finite(names: list[str], uf: np.ndarray, what: str = "displacements") -> None:
@@ -102,15 +119,24 @@ def _refine(factor: Factor, K: sp.spmatrix, upper: bool, rhs: np.ndarray,
             sol: np.ndarray) -> np.ndarray:
     """Iterative refinement in working precision until the backward error is small."""
     dot, absdot = _symmetric_products(K, upper)
+    if sol.ndim == 1:
+        return _refine(factor, K, upper, rhs[:, None], sol[:, None])[:, 0]
+    sol = sol.copy()
+    cols = np.arange(sol.shape[1])  # the columns still refined
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         for _ in range(_REFINE_STEPS):
-            r = rhs - dot(sol)
-            denom = absdot(np.abs(sol)) + np.abs(rhs)
+            x, b = sol[:, cols], rhs[:, cols]
+            r = b - dot(x)
+            denom = absdot(np.abs(x)) + np.abs(b)
             omega = np.where(denom > 0, np.abs(r) / np.where(denom > 0, denom, 1.0), 0.0)
-            worst = float(omega.max(initial=0.0))
-            if not np.isfinite(worst) or worst <= REFINE_ABOVE:
+            worst = omega.max(axis=0, initial=0.0)
+            # Only the columns whose backward error is still above the bar are
+            # solved again (with many cases, most need no second solve).
+            again = ~(worst <= REFINE_ABOVE) & np.isfinite(worst)
+            if not np.any(again):
                 break
-            sol = sol + factor.solve(r).reshape(sol.shape)
+            cols, r = cols[again], r[:, again]
+            sol[:, cols] = sol[:, cols] + factor.solve(r).reshape(r.shape)
     return sol
 
 
@@ -119,21 +145,25 @@ def full_matrix(K: sp.spmatrix, backend: str) -> sp.spmatrix:
     return full_symmetric(K, "upper" if needs_upper(backend) else "full")
 
 
-def _warn_large(model: Model, names: list[str], U: np.ndarray) -> None:
+def _warn_large(model: Model, names: list[str], items: dict[str, CaseResult]) -> None:
     """One SpaceframeWarning when displacements exceed the linear range."""
-    if U.size == 0:
+    if not items or model.n_nodes == 0:
         return
-    big = np.abs(U).max(axis=0)
-    big = np.where((big > 0) & np.isfinite(big), big, 1.0)
-    V = (U / big).reshape(model.n_nodes, 3, -1)
-    mag = np.sqrt((V**2).sum(axis=1)) * big  # (n, results), no overflow in the squares
-    peak = mag.max(axis=0)
+    peaks, nodes = [], []
+    for name in names:
+        u = items[name].displacements
+        big = float(np.abs(u).max(initial=0.0))
+        big = big if big > 0 and np.isfinite(big) else 1.0
+        mag = np.sqrt(((u / big) ** 2).sum(axis=1)) * big  # no overflow in the squares
+        nodes.append(int(np.argmax(mag)))
+        peaks.append(float(mag[nodes[-1]]))
+    peak = np.array(peaks)
     limit = LARGE_DISPLACEMENT_FRACTION * model.size
     over = np.flatnonzero(peak > limit)
     if not over.size:
         return
     j = int(over[np.argmax(peak[over])])
-    node = int(np.argmax(mag[:, j]))
+    node = nodes[j]
     others = f" ({over.size} results in all)" if over.size > 1 else ""
     warnings.warn(
         f"result {names[j]!r}: largest displacement {peak[j]:.3g} m at node {node} is "
@@ -168,20 +198,29 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     timings["assemble"] = time.perf_counter() - t
 
     # Loads as columns: applied forces, free elongations, prescribed displacements.
+    # Free elongations and settlements are rare: their arrays exist only when
+    # some case has them (at 1000 cases of a 100k-member model each would be
+    # 0.6-0.8 GB of zeros).
     F = np.zeros((3 * n, m))
-    E0 = np.zeros((b, m))
-    UP = np.zeros((3 * n, m))
     for j, name in enumerate(names):
-        lc = model.cases[name]
-        F[:, j] = lc.forces.ravel()
-        E0[:, j] = model.lengths * (model.alpha * lc.temperature + lc.initial_strain)
-        UP[:, j] = np.where(lc.settlement_mask, lc.settlement, 0.0).ravel()
+        F[:, j] = model.cases[name].forces.ravel()
     restrained = model.restraint.ravel()
-    UP[~restrained] = 0.0
-    # Free elongations and settlements are rare; skip their two products with
-    # A when every case is free of them.
-    if np.any(E0) or np.any(UP):
-        rhs = (F + A @ (k[:, None] * (E0 - A.T @ UP)))[free]
+    E0 = UP = None
+    if any(np.any(lc.temperature) or np.any(lc.initial_strain) for lc in model.cases.values()):
+        E0 = np.zeros((b, m))
+        for j, name in enumerate(names):
+            lc = model.cases[name]
+            E0[:, j] = model.lengths * (model.alpha * lc.temperature + lc.initial_strain)
+    if any(np.any(lc.settlement_mask) for lc in model.cases.values()):
+        UP = np.zeros((3 * n, m))
+        for j, name in enumerate(names):
+            lc = model.cases[name]
+            UP[:, j] = np.where(lc.settlement_mask, lc.settlement, 0.0).ravel()
+        UP[~restrained] = 0.0
+    if E0 is not None or UP is not None:
+        e0 = np.zeros((b, m)) if E0 is None else E0
+        up_e = 0.0 if UP is None else A.T @ UP
+        rhs = (F + A @ (k[:, None] * (e0 - up_e)))[free]
     else:
         rhs = F[free]
 
@@ -191,7 +230,6 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
         # the prescribed displacements and free strains alone.
         solver_name = "none"
         uf = np.zeros((0, m))
-        sol = uf
     else:
         try:
             factor = factorize(K, backend)
@@ -207,41 +245,55 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
         sol = _refine(factor, K, needs_upper(backend), rhs, sol)
         _check_finite(names, sol)
         uf = sol
+    del rhs
     timings["solve"] = time.perf_counter() - t
 
     t = time.perf_counter()
-    U = UP.copy()
+    U = np.zeros((3 * n, m)) if UP is None else UP
     U[free] = uf
-    elong = A.T @ U
-    T = k[:, None] * (elong - E0)
-    P = A @ T  # external force each node needs for equilibrium
-    spring = model.springs.ravel()
-    held = restrained | (spring > 0)
-    R = np.where(held[:, None], P - F, 0.0)
-    absA = abs(A)  # once: the residual's scale for every result
-    # Every result as a column, cases then combinations; a combination's
-    # column is U @ w as for one vector, so each result is what it would be
-    # on its own.
-    cols: list[tuple[np.ndarray, ...]] = []
-    for factors in model.combinations.values():
-        w = np.zeros(m)
-        for case, f in factors.items():
-            w[names.index(case)] += f
-        with np.errstate(over="ignore", invalid="ignore"):  # checked in _make_results
-            cols.append((U @ w, T @ w, R @ w, F @ w, elong @ w, E0 @ w))
-    stacked = [np.column_stack([base, *(c[i] for c in cols)])
-               for i, base in enumerate((U, T, R, F, elong, E0))]
+    del uf
     labels: list[tuple[str, str, dict[str, float] | None]] = [
         ("case", name, None) for name in names]
     labels += [("combination", cname, factors)
                for cname, factors in model.combinations.items()]
-    su, st, sr, sf_, se, se0 = stacked
-    items = _make_results(model, labels, su, st, sr, sf_, se, se0, A, absA, spring, restrained)
-    _warn_large(model, names + list(model.combinations), stacked[0])
+    # Every result as a column, cases then combinations; a combination's
+    # column is U @ w, solved as one load vector, so each result is what it
+    # would be on its own.
+    weights = np.zeros((m, len(model.combinations)))
+    for i, factors in enumerate(model.combinations.values()):
+        for case, f in factors.items():
+            weights[names.index(case), i] += f
+    absA = abs(A)  # once: the residual's scale for every result
+    spring = model.springs.ravel()
+    held = restrained | (spring > 0)
+    area = np.array(model.area, dtype=float)
+    area.flags.writeable = False  # one snapshot, shared by every result of this solve
+    items: dict[str, CaseResult] = {}
+    # Recovery and self-checks a block of columns at a time: the temporaries
+    # of the checks stay bounded however many cases there are.
+    for lo in range(0, len(labels), _RECOVER_BLOCK):
+        cols = np.arange(lo, min(lo + _RECOVER_BLOCK, len(labels)))
+        UJ, FJ = _columns(U, cols, weights), _columns(F, cols, weights)
+        E0J = np.zeros((b, cols.size)) if E0 is None else _columns(E0, cols, weights)
+        elongJ = A.T @ UJ
+        with np.errstate(over="ignore", invalid="ignore"):
+            TJ = k[:, None] * (elongJ - E0J)
+            RJ = np.where(held[:, None], A @ TJ - FJ, 0.0)
+        items.update(_make_results(model, [labels[j] for j in cols], UJ, TJ, RJ, FJ, elongJ,
+                                   E0J, A, absA, spring, restrained, area=area))
+    _warn_large(model, names + list(model.combinations), items)
     timings["recover"] = time.perf_counter() - t
     timings["total"] = time.perf_counter() - t0
     return Results(model, items, solver=solver_name, timings=timings,
                    info={"dofs": int(free.size), "nnz": int(K.nnz)})
+
+
+def _columns(X: np.ndarray, cols: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """Result columns ``cols`` of case columns X: a case's own, a combination's X @ w."""
+    m = X.shape[1]
+    case_cols, comb_cols = cols[cols < m], cols[cols >= m] - m
+    with np.errstate(over="ignore", invalid="ignore"):  # checked in _make_results
+        return np.column_stack([X[:, case_cols], X @ weights[:, comb_cols]])
 
 
 def check_equilibrium(
@@ -259,7 +311,20 @@ def check_equilibrium(
         One line naming the result and the check.
     """
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        num = _norm(res_free)
+        imbalance = np.abs(f3.sum(axis=0) + r3.sum(axis=0))
+        ref = max(float(np.abs(f3).sum(axis=0).max(initial=0.0)),
+                  float(np.abs(r3).sum(axis=0).max(initial=0.0)))
+    return _check_numbers(label, _norm(res_free), scale, imbalance, ref)
+
+
+def _check_numbers(label: str, num: float, scale: float, imbalance: np.ndarray,
+                   ref: float) -> float:
+    """The checks of :func:`check_equilibrium` on the numbers it computes.
+
+    ``num`` is the residual's norm, ``imbalance`` the (3,) sum of loads and
+    reactions, ``ref`` the larger of their totals.
+    """
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         residual = num / scale if scale > 0 else (0.0 if num == 0 else float("inf"))
         if not (np.isfinite(scale) and np.isfinite(residual)):
             raise SolverError(
@@ -272,9 +337,7 @@ def check_equilibrium(
                 f"{label}: relative equilibrium residual {residual:.2e} exceeds "
                 f"{RESIDUAL_TOLERANCE:.0e}; the result is not trustworthy"
             )
-        imbalance = np.abs(f3.sum(axis=0) + r3.sum(axis=0))
-        ref = max(float(np.abs(f3).sum(axis=0).max(initial=0.0)),
-                  float(np.abs(r3).sum(axis=0).max(initial=0.0)), float(scale))
+        ref = max(float(ref), float(scale))
         worst = float(imbalance.max(initial=0.0))
         if not (np.isfinite(ref) and np.isfinite(worst)):
             raise SolverError(
@@ -377,6 +440,8 @@ def _make_results(
     absA: sp.spmatrix,
     spring: np.ndarray,
     restrained: np.ndarray,
+    *,
+    area: np.ndarray | None = None,
 ) -> dict[str, CaseResult]:
     """Every result's self-checks, with the sparse products over all columns at once.
 
@@ -412,23 +477,30 @@ def _make_results(
         res_free = np.where(restrained[:, None], 0.0, out_of_balance - R)
         res_free[sprung] = out_of_balance[sprung] + spring[sprung, None] * U[sprung]
         scale_terms = absA @ member_scale
+    with np.errstate(over="ignore", invalid="ignore"):
+        scale = _column_norms(scale_terms) + _column_norms(F) + _column_norms(R)
+        num = _column_norms(res_free)
+        F3, R3 = F.reshape(n, 3, -1), R.reshape(n, 3, -1)
+        imbalance = np.abs(F3.sum(axis=0) + R3.sum(axis=0))  # (3, columns)
+        ref = np.maximum(np.abs(F3).sum(axis=0).max(axis=0, initial=0.0),
+                         np.abs(R3).sum(axis=0).max(axis=0, initial=0.0))
+    # Each result's arrays are rows of one transposed copy of the block:
+    # contiguous, owned by the results, no copy per result.
+    Ut, Tt, Rt, Ft, Et = (np.ascontiguousarray(X.T) for X in (U, T, R, F, elong))
     items: dict[str, CaseResult] = {}
     for j, (kind, name, factors) in enumerate(labels):
-        with np.errstate(over="ignore", invalid="ignore"):
-            scale = _norm(scale_terms[:, j]) + _norm(F[:, j]) + _norm(R[:, j])
-        f3 = F[:, j].reshape(n, 3)
-        r3 = R[:, j].reshape(n, 3)
-        residual = check_equilibrium(f"{kind} {name!r}", res_free[:, j], scale, f3, r3)
+        residual = _check_numbers(f"{kind} {name!r}", float(num[j]), float(scale[j]),
+                                  imbalance[:, j], float(ref[j]))
         items[name] = CaseResult(
             name=name,
             kind=kind,
-            displacements=U[:, j].reshape(n, 3),
-            axial_forces=T[:, j],
-            reactions=r3,
-            loads=f3,
-            elongations=elong[:, j],
+            displacements=Ut[j].reshape(n, 3),
+            axial_forces=Tt[j],
+            reactions=Rt[j].reshape(n, 3),
+            loads=Ft[j].reshape(n, 3),
+            elongations=Et[j],
             residual=residual,
-            area=model.area,
+            area=model.area if area is None else area,
             factors=dict(factors or {}),
         )
     return items

@@ -58,8 +58,12 @@ class CaseResult:
 
     def __post_init__(self) -> None:
         # The result owns its areas: changing the model's after a solve must
-        # not change the stresses of an earlier result.
-        self.area = np.array(self.area, dtype=float, copy=True)
+        # not change the stresses of an earlier result.  A read-only float
+        # array is already a snapshot nobody can change (the solve shares one
+        # among all its results): kept as it is.
+        a = self.area
+        if not (isinstance(a, np.ndarray) and a.dtype == np.float64 and not a.flags.writeable):
+            self.area = np.array(a, dtype=float, copy=True)
 
     @property
     def stress(self) -> np.ndarray:
