@@ -33,8 +33,9 @@ from typing import Any
 from spaceframe.errors import SpaceframeError, one_line
 from spaceframe.project.schema import _MISSING
 
-__all__ = ["AnalysisSpec", "Mode", "NonlinearSpec", "TensionOnlySpec", "apply_analysis",
-           "parse_analysis", "run_analyses", "run_analyses_with_modes"]
+__all__ = ["NONLINEAR_METHOD", "AnalysisSpec", "Mode", "NonlinearSpec", "TensionOnlySpec",
+           "TracedPath", "apply_analysis", "parse_analysis", "run_analyses",
+           "run_analyses_with_modes", "run_nonlinear"]
 
 
 @dataclass
@@ -332,3 +333,107 @@ def run_analyses_with_modes(spec: AnalysisSpec, model: Any, results: Any,
             entry = {"frequencies_hz": [], "note": one_line(exc)}
         out["frequencies"] = entry
     return out, found
+
+
+#: Said of every load path in the summary and the report.
+NONLINEAR_METHOD = ("co-rotational bar analysis with engineering strain N = EA (l - L0)/L0, "
+                    "followed by the cylindrical arc-length method; results must be checked "
+                    "by a qualified engineer")
+
+#: Slack members listed by id in the summary (the count is always given).
+SLACK_SHOWN = 10
+
+
+@dataclass
+class TracedPath:
+    """One load path of [analysis.nonlinear] with what the outputs need.
+
+    ``path`` is None when the analysis could not start; ``nodes`` are the
+    nodes whose load-displacement curve is drawn; ``stopped`` is the one-line
+    reason the path ended early ("" when it reached ``max_load_factor``).
+    """
+
+    name: str
+    path: Any
+    nodes: Any
+    stopped: str = ""
+
+
+def _path_entry(t: TracedPath, chosen: str) -> dict[str, Any]:
+    """The summary of one traced path: plain numbers, SI units."""
+    import numpy as np
+
+    p = t.path
+    last = np.linalg.norm(p.displacements[-1], axis=1)
+    peak = int(np.argmax(last)) if last.size else 0
+    slack = np.flatnonzero(p.slack[-1]) if p.slack.size else np.zeros(0, dtype=int)
+    return {
+        "kind": p.kind,
+        "strain_measure": p.strain_measure,
+        "steps": p.n_steps - 1,
+        "max_load_factor": float(p.max_load_factor),
+        "final_load_factor": float(p.load_factors[-1]),
+        "limit_points": [{"step": int(k), "load_factor": float(p.load_factors[k])}
+                         for k in p.limit_points],
+        "bifurcation_points": [{"step": int(k), "load_factor": float(p.load_factors[k])}
+                               for k in p.bifurcation_points],
+        "nodes": [int(i) for i in t.nodes],
+        "nodes_chosen": chosen,
+        "max_displacement": {"value": float(last[peak]) if last.size else 0.0, "node": peak},
+        "slack": {"count": int(slack.size), "members": [int(i) for i in slack[:SLACK_SHOWN]]},
+        "cutbacks": int(p.cutbacks),
+        "max_residual": float(np.max(p.residuals)) if p.residuals.size else 0.0,
+        "stopped": t.stopped,
+    }
+
+
+def run_nonlinear(spec: AnalysisSpec, model: Any,
+                  progress: Any = None) -> tuple[dict[str, Any], list[TracedPath]]:
+    """Trace the load paths of [analysis.nonlinear]; the summary block and the paths.
+
+    ``progress(text)`` is told every converged step ("nonlinear ULS: step
+    12, load factor 0.84").  A path that stops early (``PathError``) keeps
+    the steps converged up to there, with the one-line reason; one that
+    cannot start (a mechanism, a refused load case) is reported with its
+    reason and no path.  Neither stops the run.
+    """
+    import numpy as np
+
+    from spaceframe.analysis.nonlinear import PathError, solve_nonlinear
+
+    n = spec.nonlinear
+    if n is None:
+        return {}, []
+    options: dict[str, Any] = {"max_steps": n.steps}
+    if n.initial_increment is not None:
+        options["initial_increment"] = n.initial_increment
+    if n.tolerance is not None:
+        options["tolerance"] = n.tolerance
+    block: dict[str, Any] = {}
+    traced: list[TracedPath] = []
+    path: Any
+    for name in n.results:
+        def told(step: int, lam: float, name: str = name) -> None:
+            if progress is not None:
+                progress(f"nonlinear {name}: step {step}, load factor {lam:.3g}")
+
+        stopped = ""
+        try:
+            path = solve_nonlinear(model, name, n.max_load_factor, progress=told, **options)
+        except PathError as exc:
+            path, stopped = exc.path, one_line(exc)
+        except SpaceframeError as exc:
+            path, stopped = None, one_line(exc)
+        if path is None:
+            block[name] = {"steps": 0, "stopped": stopped}
+            continue
+        if n.node_ids is not None:
+            nodes, chosen = np.asarray(n.node_ids, dtype=np.int64), "given"
+        else:
+            moved = np.linalg.norm(path.displacements[-1], axis=1)
+            nodes = np.array([int(np.argmax(moved))] if moved.size else [], dtype=np.int64)
+            chosen = "largest displacement at the last step"
+        t = TracedPath(name, path, nodes, stopped)
+        block[name] = _path_entry(t, chosen)
+        traced.append(t)
+    return {"method": NONLINEAR_METHOD, "results": block}, traced
