@@ -23,20 +23,29 @@ A_HALF, RISE = 1.0, 0.1
 E, AREA = 210e9, 100e-6  # steel preset (EN 1993-1-1 §3.2.6), 100 mm²
 LOAD = 12.0  # kN, downward at the apex: above the limit load, so the path snaps through
 
-TWO_BAR = f"""
-title = "two-bar truss"
+
+def _model_file(title: str, nodes: str, members: str, area_mm2: float, rest: str) -> str:
+    """A model file in m, mm (sections) and kN; members of one user section of steel."""
+    return f"""
+title = "{title}"
 output = "out"
 [units]
 length = "m"
 section = "mm"
 force = "kN"
 [geometry]
-nodes = [[{-A_HALF}, 0, 0], [0, 0, {RISE}], [{A_HALF}, 0, 0]]
-members = [[0, 1], [1, 2]]
+nodes = {nodes}
+members = {members}
 [sections]
-bar = {{ shape = "user", area = 100 }}
+bar = {{ shape = "user", area = {area_mm2} }}
 [assign]
 default = {{ section = "bar", material = "steel" }}
+""" + rest
+
+
+# Apex (node 1) held out of plane only.
+TWO_BAR = _model_file("two-bar truss", f"[[{-A_HALF}, 0, 0], [0, 0, {RISE}], [{A_HALF}, 0, 0]]",
+                      "[[0, 1], [1, 2]]", AREA * 1e6, f"""
 [[supports]]
 nodes = [0, 2]
 restrain = "pinned"
@@ -50,7 +59,7 @@ force = [0, 0, {-LOAD}]
 [analysis.nonlinear]
 results = ["P"]
 max_load_factor = 1.0
-"""
+""")
 
 
 def limit_load() -> float:
@@ -126,23 +135,12 @@ def test_two_bar_series_csv_and_plot_hold_the_path(tmp_path):
 
 
 H = 10.0  # kN, horizontal at the top left of the panel
-PANEL = f"""
-title = "braced panel"
-output = "out"
-[units]
-length = "m"
-section = "mm"
-force = "kN"
-[geometry]
-nodes = [[0, 0, 0], [3, 0, 0], [0, 0, 3], [3, 0, 3]]
-members = [[0, 2], [1, 3], [2, 3], [0, 3], [1, 2]]
+# A 3 m square panel in the x-z plane: posts, top beam, two diagonals (BRACING).
+PANEL = _model_file("braced panel", "[[0, 0, 0], [3, 0, 0], [0, 0, 3], [3, 0, 3]]",
+                    "[[0, 2], [1, 3], [2, 3], [0, 3], [1, 2]]", 1000, f"""
 [geometry.groups]
 FRAME = [0, 1, 2]
 BRACING = [3, 4]
-[sections]
-bar = {{ shape = "user", area = 1000 }}
-[assign]
-default = {{ section = "bar", material = "steel" }}
 [[supports]]
 nodes = [0, 1]
 restrain = "pinned"
@@ -158,7 +156,7 @@ groups = ["BRACING"]
 [analysis.nonlinear]
 results = ["H"]
 nodes = [2]
-"""
+""")
 
 
 def test_tension_only_panel_leaves_the_compression_diagonal_slack(tmp_path):
