@@ -340,7 +340,7 @@ NONLINEAR_METHOD = ("co-rotational bar analysis with engineering strain N = EA (
                     "followed by the cylindrical arc-length method; results must be checked "
                     "by a qualified engineer")
 
-#: Slack members listed by id in the summary (the count is always given).
+#: Slack members and curve nodes listed by id in the summary (the counts are always given).
 SLACK_SHOWN = 10
 
 
@@ -377,7 +377,8 @@ def _path_entry(t: TracedPath, chosen: str) -> dict[str, Any]:
                          for k in p.limit_points],
         "bifurcation_points": [{"step": int(k), "load_factor": float(p.load_factors[k])}
                                for k in p.bifurcation_points],
-        "nodes": [int(i) for i in t.nodes],
+        "nodes": [int(i) for i in t.nodes[:SLACK_SHOWN]],
+        "node_count": len(t.nodes),
         "nodes_chosen": chosen,
         "max_displacement": {"value": float(last[peak]) if last.size else 0.0, "node": peak},
         "slack": {"count": int(slack.size), "members": [int(i) for i in slack[:SLACK_SHOWN]]},
