@@ -34,7 +34,7 @@ from __future__ import annotations
 import json
 import os
 import uuid
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -49,7 +49,7 @@ if TYPE_CHECKING:
     from spaceframe.results import Envelope, Results
 
 __all__ = ["ARRAYS_FILE", "FILES", "INPUT_DIGITS", "RESULT_DIGITS", "read_arrays", "write",
-           "write_arrays"]
+           "write_arrays", "write_path"]
 
 #: Names of the files written, in the order returned by :func:`write`.
 FILES = ("nodes.csv", "members.csv", "reactions.csv", "summary.json")
@@ -511,3 +511,54 @@ def write_member_design(
     final = Path(folder) / DESIGN_FILE
     _write_one(final, header, cols)
     return [final]
+
+
+def write_path(
+    path: str | os.PathLike[str],
+    load_path: Any,
+    nodes: Sequence[int],
+    *,
+    digits: int = RESULT_DIGITS,
+) -> Path:
+    """Write a load path's curve as CSV: one row per step.
+
+    Columns: step [-], load factor [-], ux, uy, uz [m] of each node in
+    ``nodes`` (headed ``ux node 3 [m]``, ...), residual [-] (the relative
+    equilibrium residual of the step, :class:`spaceframe.results.LoadPath`).
+
+    Parameters
+    ----------
+    path : path-like
+        The ``.csv`` file (its folder must exist).
+    load_path : LoadPath
+        From :func:`spaceframe.solve_nonlinear`.
+    nodes : sequence of int
+        Nodes of the curve.
+
+    Returns
+    -------
+    Path
+
+    Raises
+    ------
+    WriteError
+        On a node id the path does not have.
+    """
+    final = Path(path)
+    disp = np.asarray(load_path.displacements, dtype=float)
+    ids = np.asarray(nodes, dtype=np.int64).reshape(-1)
+    bad = ids[(ids < 0) | (ids >= disp.shape[1])]
+    if bad.size:
+        raise WriteError(f"{final}: node {int(bad[0])} is not in the model "
+                         f"({disp.shape[1]} nodes)")
+    steps = disp.shape[0]
+    header = ["step [-]", "load factor [-]"]
+    cols = [_ints(np.arange(steps)), _Col(load_path.load_factors, "float", digits)]
+    for i in ids.tolist():
+        for axis, label in enumerate(("ux", "uy", "uz")):
+            header.append(f"{label} node {i} [m]")
+            cols.append(_Col(disp[:, i, axis], "float", digits))
+    header.append("residual [-]")
+    cols.append(_Col(load_path.residuals, "float", 3))
+    _write_one(final, header, cols)
+    return final

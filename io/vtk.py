@@ -51,10 +51,11 @@ from spaceframe.results.summary import auto_scale, member_group_index, panel_gro
 if TYPE_CHECKING:
     import pyvista
 
+    from spaceframe.model import Model
     from spaceframe.results import Results
 
 __all__ = ["UNITS", "decode_text", "encode_text", "group_legend", "member_grid", "panel_grid",
-           "write", "write_modes"]
+           "write", "write_modes", "write_path"]
 
 #: Units of the arrays written, also stored in each file's field data.
 UNITS: dict[str, str] = {
@@ -148,17 +149,10 @@ def member_grid(results: Results, name: str) -> pyvista.UnstructuredGrid:
         One line cell per member (cell k is member k, point i is node i) with
         the point, cell and field data listed in the module docstring.
     """
-    import pyvista as pv
-
     model = results.model
     res = results[name]
     b = model.n_members
-    cells = np.empty((b, 3), dtype=np.int64)
-    cells[:, 0] = 2
-    cells[:, 1:] = model.members
-    grid = pv.UnstructuredGrid(
-        cells.ravel(), np.full(b, pv.CellType.LINE, dtype=np.uint8), model.nodes.astype(float)
-    )
+    grid = _line_grid(model)
     _add_point_data(grid, results, name)
     group, group_names = member_group_index(model)
     grid.cell_data["member_id"] = np.arange(b, dtype=np.int64)
@@ -169,6 +163,19 @@ def member_grid(results: Results, name: str) -> pyvista.UnstructuredGrid:
     grid.cell_data["length"] = model.lengths
     _set_legend(grid, "group", group_names)
     return grid
+
+
+def _line_grid(model: Model) -> pyvista.UnstructuredGrid:
+    """One line cell per member (cell k is member k) over the drawn nodes (point i is node i)."""
+    import pyvista as pv
+
+    b = model.n_members
+    cells = np.empty((b, 3), dtype=np.int64)
+    cells[:, 0] = 2
+    cells[:, 1:] = model.members
+    return pv.UnstructuredGrid(
+        cells.ravel(), np.full(b, pv.CellType.LINE, dtype=np.uint8), model.nodes.astype(float)
+    )
 
 
 def panel_grid(results: Results, name: str) -> pyvista.UnstructuredGrid:
@@ -508,3 +515,74 @@ def write_modes(
             series.entries.append((len(series.entries), 0, file,
                                    f"{m.kind} {m.result} mode {m.number}".strip()))
     return [final for _, final in series.done]
+
+
+def write_path(
+    path: str | os.PathLike[str],
+    model: Model,
+    load_path: Any,
+    *,
+    binary: bool = True,
+) -> Path:
+    """Write a load path as a VTK series: one ``.vtu`` per step and a ``.pvd`` over them.
+
+    Parameters
+    ----------
+    path : path-like
+        The ``.pvd`` file (its folder is created if missing); the steps go
+        beside it as ``<stem>_step<k>.vtu``.
+    model : Model
+        The model the path was traced on (members and drawn nodes).
+    load_path : LoadPath
+        From :func:`spaceframe.solve_nonlinear`: step 0 is the unloaded state.
+
+    Returns
+    -------
+    Path
+        The ``.pvd`` file; the series' time step k is step k of the path.
+
+    Raises
+    ------
+    WriteError
+        If the path does not fit the model or ``path`` is not a ``.pvd``.
+
+    Notes
+    -----
+    Each step's grid is drawn on the undeformed nodes with point data
+    ``displacement`` (m) and ``node_id``, cell data ``member_id``,
+    ``axial_force`` (N, tension positive) and ``slack`` (1 where a
+    tension-only member is slack), field data ``load_factor``, ``step`` and
+    ``case_name`` (text, :func:`decode_text`).  Staged and renamed as
+    :func:`write` does: a failure leaves no partial series.
+    """
+    pvd = Path(path)
+    if pvd.suffix.lower() != ".pvd":
+        raise WriteError(f"VTK output {pvd}: a load path is written as a .pvd series")
+    lam = np.asarray(load_path.load_factors, dtype=float)
+    disp = np.asarray(load_path.displacements, dtype=float)
+    forces = np.asarray(load_path.axial_forces, dtype=float)
+    s, n, b = lam.shape[0], model.n_nodes, model.n_members
+    if disp.shape != (s, n, 3) or forces.shape != (s, b):
+        raise WriteError(f"VTK output {pvd}: the path of {load_path.name!r} has "
+                         f"{disp.shape[1:2]} nodes and {forces.shape[1:2]} members per step, "
+                         f"the model {n} nodes and {b} members")
+    slack = np.asarray(load_path.slack, dtype=bool)
+    if slack.shape != (s, b):
+        slack = np.zeros((s, b), dtype=bool)
+    pvd.parent.mkdir(parents=True, exist_ok=True)
+    grid = _line_grid(model)
+    grid.point_data["node_id"] = np.arange(n, dtype=np.int64)
+    grid.cell_data["member_id"] = np.arange(b, dtype=np.int64)
+    _set_text(grid, "case_name", load_path.name)
+    with _Series(pvd) as series:
+        for k in range(s):
+            file = series.unique(f"{pvd.stem}_step{k}")
+            tmp = series.stage(pvd.parent / file)
+            grid.point_data["displacement"] = disp[k]
+            grid.cell_data["axial_force"] = forces[k]
+            grid.cell_data["slack"] = slack[k].astype(np.int8)
+            grid.field_data["load_factor"] = np.array([lam[k]])
+            grid.field_data["step"] = np.array([k], dtype=np.int64)
+            _save(grid, tmp, binary)
+            series.entries.append((k, 0, file, f"{load_path.name} step {k}"))
+    return pvd

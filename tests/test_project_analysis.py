@@ -64,10 +64,55 @@ def test_a_result_without_compression_is_reported_not_fatal(tmp_path):
         ('[analysis.frequencies]\nmin_frequency = "3 kN"\n', "frequency"),
         ('[analysis.frequencies]\nmass = "heavy"\n', "analysis.frequencies.mass"),
         ("[analysis.modal]\nmodes = 3\n", "analysis.modal"),
+        ("[analysis.nonlinear]\nsteps = 10\n", "analysis.nonlinear.results: missing"),
+        ('[analysis.nonlinear]\nresults = ["NOPE"]\n', "analysis.nonlinear.results = 'NOPE'"),
+        ('[analysis.nonlinear]\nresults = "ULS"\n', "analysis.nonlinear.results = 'ULS'"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\nsteps = 0\n', "analysis.nonlinear.steps"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\nsteps = 2.5\n', "analysis.nonlinear.steps"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\nmax_load_factor = -1\n',
+         "analysis.nonlinear.max_load_factor = -1: must be positive"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\ninitial_increment = 2\n',
+         "analysis.nonlinear.initial_increment = 2: must not exceed max_load_factor"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\ntolerance = 0.5\n',
+         "analysis.nonlinear.tolerance = 0.5"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\nnodes = "nowhere"\n',
+         "analysis.nonlinear.nodes"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\nnodes = [999]\n', "analysis.nonlinear.nodes"),
+        ('[analysis.nonlinear]\nresults = ["ULS"]\nstep = 5\n', "analysis.nonlinear.step"),
+        ("[analysis.tension_only]\n", "analysis.tension_only.groups: missing"),
+        ('[analysis.tension_only]\ngroups = "TOP"\n', "analysis.tension_only.groups = 'TOP'"),
+        ('[analysis.tension_only]\ngroups = ["NOPE"]\n',
+         "analysis.tension_only.groups: 'NOPE': no member group"),
+        ('[analysis.tension_only]\npretension = { NOPE = "1 kN" }\n',
+         "analysis.tension_only.pretension: 'NOPE': no member group"),
+        ('[analysis.tension_only]\npretension = { TOP = "-1 kN" }\n',
+         "analysis.tension_only.pretension.TOP = '-1 kN': a pretension must not be negative"),
+        ('[analysis.tension_only]\npretension = { TOP = "2 m" }\n',
+         "analysis.tension_only.pretension.TOP = '2 m'"),
+        ('[analysis.tension_only]\ngroups = ["TOP"]\nslack = true\n',
+         "analysis.tension_only.slack"),
     ],
 )
 def test_analysis_errors_name_the_key(tmp_path, extra, fragment):
     assert fragment in project_error(tmp_path, CANOPY + extra)
+
+
+def test_tension_only_groups_and_pretension_reach_the_model(tmp_path):
+    import numpy as np
+
+    p = _project(tmp_path, '[analysis.tension_only]\ngroups = ["BOTTOM"]\n'
+                           'pretension = { BOTTOM = "5 kN", TOP = 2 }\n'
+                           '[analysis.nonlinear]\nresults = ["ULS"]\nnodes = "top"\n')
+    m = p.model
+    bottom, top = m.groups["BOTTOM"], m.groups["TOP"]
+    assert m.tension_only[bottom].all() and np.count_nonzero(m.tension_only) == bottom.size
+    # The file's force unit is kN (units.force): 5 kN and a plain 2 are 5000 N and 2000 N.
+    assert m.pretension[bottom] == pytest.approx(5000.0)
+    assert m.pretension[top] == pytest.approx(2000.0)
+    spec = p.analysis.nonlinear
+    assert (spec.max_load_factor, spec.steps, spec.tolerance) == (1.0, 500, None)
+    # "top" is the plane z = max: nodes 0-8 of the canopy lie at z = 1.
+    assert spec.node_ids.tolist() == list(range(9))
 
 
 def test_run_writes_and_prints_the_analysis_block(tmp_path, capsys):

@@ -260,7 +260,8 @@ def _assign(spec: _Spec, model: Model, pick: _Pick, warnings_out: list[str]) -> 
         )
     from spaceframe.project.design import member_design_properties
 
-    member_design_properties(model, sections, sec_of, materials, mat_of, spec.section_extras)
+    member_design_properties(model, sections, sec_of, materials, mat_of, spec.section_extras,
+                             analysis=spec.analysis, pick=pick, file=spec.path.name)
     model.meta["project:sections"] = sections
     model.meta["project:section_index"] = sec_of
     model.meta["project:materials"] = materials

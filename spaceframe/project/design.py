@@ -232,11 +232,14 @@ def apply_design(spec: DesignSpec, model: Model, file: str) -> list[str]:
 
 def member_design_properties(model: Model, sections: list[Any], sec_of: np.ndarray,
                              materials: list[Any], mat_of: np.ndarray,
-                             extras: dict[str, dict[str, Any]]) -> None:
+                             extras: dict[str, dict[str, Any]], *, analysis: Any = None,
+                             pick: Any = None, file: str = "") -> None:
     """Second moment, strengths, buckling curve and cable data per member.
 
     The buckling curve follows EN 1993-1-1 Table 6.2 from the section's shape
-    and fabrication unless the section states one.
+    and fabrication unless the section states one.  Cable sections are
+    tension-only; so are the groups of ``analysis`` ([analysis.tension_only],
+    with their pretension), applied after them.
     """
     from spaceframe.design.steel import buckling_curve_for
 
@@ -275,3 +278,6 @@ def member_design_properties(model: Model, sections: list[Any], sec_of: np.ndarr
     model.buckling_curve = curves
     model.tension_only = t_only
     model.breaking_force = breaking
+    from spaceframe.project.analysis import apply_analysis
+
+    apply_analysis(analysis, model, pick, file)

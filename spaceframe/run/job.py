@@ -300,15 +300,17 @@ def run(
     summ = _summary(loaded, results, envelopes, solve_notes)
     design = _check_members(loaded, results, envelopes, sizing, summ, progress, timings)
     modes = _analyses(loaded, results, solver, summ, progress, timings)
+    paths = _load_paths(loaded, summ, progress, timings)
 
     def fill(folder: Path) -> list[Path]:
         with _timed(timings, "write"):
             progress("write tables")
-            keys = ("source", "title", "warnings", "envelopes", "design", "analysis")
+            keys = ("source", "title", "warnings", "envelopes", "design", "analysis",
+                    "nonlinear")
             extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
             return write_outputs(folder, results, loaded, pictures, progress, extra, design,
                                  dxf_options={"requested": dxf, "deformed": dxf_deformed},
-                                 envelopes=envelopes, modes=modes)
+                                 envelopes=envelopes, modes=modes, paths=paths)
 
     final, files = write_folder(Path(output) if output is not None else loaded.output,
                                 loaded, force, fill, summ["warnings"])
@@ -439,3 +441,21 @@ def _analyses(loaded: Loaded, results: Results, solver: str, summ: dict[str, Any
         summ["analysis"], modes = run_analyses_with_modes(spec, loaded.model, results,
                                                           solver=solver)
     return list(modes)
+
+
+def _load_paths(loaded: Loaded, summ: dict[str, Any], progress: Progress,
+                timings: dict[str, float]) -> list[Any]:
+    """The load paths of ``[analysis.nonlinear]``, said in ``summ["nonlinear"]``."""
+    spec = getattr(loaded.project, "analysis", None)
+    if spec is None or spec.nonlinear is None:
+        return []
+    from spaceframe.project.analysis import run_nonlinear
+
+    progress("nonlinear")
+    with _timed(timings, "nonlinear"):
+        summ["nonlinear"], paths = run_nonlinear(spec, loaded.model, progress)
+    for name, entry in summ["nonlinear"]["results"].items():
+        if entry.get("stopped"):
+            summ["warnings"].append(f"nonlinear {name}: the path stopped early: "
+                                    f"{entry['stopped']}")
+    return list(paths)

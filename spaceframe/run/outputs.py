@@ -28,11 +28,16 @@ def write_outputs(
     *,
     envelopes: dict[str, Any] | None = None,
     modes: list[Any] | None = None,
+    paths: list[Any] | None = None,
 ) -> list[Path]:
     """Every writer that is installed into ``folder``; tables always; the paths written.
 
     ``extra`` goes into the summary (its "warnings" list gets what the writers
-    say); ``dxf_options``: "requested" (None, True or False) and "deformed".
+    say); ``dxf_options``: "requested" (None, True or False) and "deformed";
+    ``paths``: the load paths of [analysis.nonlinear]
+    (:class:`spaceframe.project.analysis.TracedPath`), written as
+    ``paths/<result>.csv``, ``vtk/paths/<result>.pvd`` and, with pictures,
+    ``pictures/paths/<result>.png``.
     """
     from spaceframe.io import tables
 
@@ -52,6 +57,10 @@ def write_outputs(
         files += _write_member_design(folder, results, design)
     if has_ezdxf:
         files += _write_dxf(folder, results, design, dxf_opt, progress)
+    path_files = _write_paths(folder, results.model, paths or [], pictures, progress,
+                              has_pyvista)
+    files += path_files
+    plots = [f for f in path_files if f.suffix == ".png"]
     if has_pyvista:
         from spaceframe.io import vtk
 
@@ -61,7 +70,7 @@ def write_outputs(
         files.append(Path(vtk.write(folder / "vtk", results, **vtk_kw)))
         if pictures:
             files += _write_pictures_and_report(folder, results, loaded, pictures, progress,
-                                                extra, design, envelopes)
+                                                extra, design, envelopes, plots)
     files += tables.write_envelopes(folder, results, envelopes)
     if modes and has_pyvista:
         from spaceframe.io import vtk
@@ -96,7 +105,8 @@ def _write_dxf(folder: Path, results: Results, design: Any, dxf_opt: dict[str, A
 
 def _write_pictures_and_report(folder: Path, results: Results, loaded: Loaded,
                                pictures: bool | str, progress: Progress, extra: dict[str, Any],
-                               design: Any, envelopes: dict[str, Any]) -> list[Path]:
+                               design: Any, envelopes: dict[str, Any],
+                               plots: list[Path]) -> list[Path]:
     """Pictures of the chosen results, utilisation pictures, charts, then the report."""
     from spaceframe import viewer
     from spaceframe.run import report
@@ -128,5 +138,67 @@ def _write_pictures_and_report(folder: Path, results: Results, loaded: Loaded,
         charts=charts,
         design=extra.get("design"),
         analysis=extra.get("analysis"),
+        nonlinear=extra.get("nonlinear"),
+        path_plots=plots,
     )
     return [*pics, *charts, Path(page)]
+
+
+def _write_paths(folder: Path, model: Any, paths: list[Any], pictures: bool | str,
+                 progress: Progress, has_pyvista: bool) -> list[Path]:
+    """Each load path as CSV, as a VTK series (with pyvista) and a plot (with pictures)."""
+    from spaceframe.io import tables
+    from spaceframe.run.report import _safe
+
+    out: list[Path] = []
+    drawn = bool(pictures) and importlib.util.find_spec("matplotlib") is not None
+    for t in paths:
+        progress(f"write load path {t.name}")
+        stem = _safe(t.name)
+        (folder / "paths").mkdir(parents=True, exist_ok=True)
+        out.append(tables.write_path(folder / "paths" / f"{stem}.csv", t.path, t.nodes))
+        if has_pyvista:
+            from spaceframe.io import vtk
+
+            out.append(vtk.write_path(folder / "vtk" / "paths" / f"{stem}.pvd", model, t.path))
+        if drawn:
+            (folder / "pictures" / "paths").mkdir(parents=True, exist_ok=True)
+            out.append(path_plot(folder / "pictures" / "paths" / f"{stem}.png", t))
+    return out
+
+
+#: Curves drawn in one load-displacement plot (the CSV has every node given).
+PLOTTED_NODES = 8
+
+
+def path_plot(png: Path, traced: Any) -> Path:
+    """The load-displacement curve of a traced path, limit points marked; the PNG written.
+
+    Each node's displacement is drawn along the direction in which it moved
+    most at the last step (so that the curve runs to the right), in mm,
+    against the load factor.
+    """
+    from spaceframe.run.report import _chart, _save_figure
+
+    p = traced.path
+    lam = np.asarray(p.load_factors)
+    nodes = [int(i) for i in traced.nodes][:PLOTTED_NODES]
+    title = f"{traced.name}: load factor against displacement"
+    fig, ax = _chart(title, "displacement [mm]", "load factor [-]", None)
+    ax.set_title(title + (" (stopped early)" if traced.stopped else ""))
+    for i in nodes:
+        u = np.asarray(p.displacements[:, i, :])
+        axis = int(np.argmax(np.abs(u[-1])))
+        sign = -1.0 if u[-1, axis] < 0 else 1.0
+        x = sign * u[:, axis] * 1e3
+        ax.plot(x, lam, marker=".", markersize=3,
+                label=f"node {i}, {'-' if sign < 0 else '+'}{'xyz'[axis]}")
+        for k in p.limit_points:
+            ax.plot(x[k], lam[k], "o", color="tab:red", markersize=7, fillstyle="none")
+            ax.annotate(f"limit {lam[k]:.4g} (step {int(k)})", (x[k], lam[k]),
+                        textcoords="offset points", xytext=(6, 6), fontsize=8)
+    ax.axhline(0.0, color="0.6", linewidth=0.8)
+    ax.grid(True, alpha=0.3)
+    if nodes:
+        ax.legend(fontsize=8)
+    return _save_figure(fig, png)

@@ -392,6 +392,25 @@ def _analysis_section(a: Mapping[str, Any]) -> str:
     return "\n".join(p for p in parts if p)
 
 
+def _nonlinear_section(block: Mapping[str, Any], figures: list[str]) -> str:
+    """The load paths of [analysis.nonlinear]: limit points in words, the plots, the caution."""
+    parts = ["<h2>Nonlinear analysis</h2>", f"<p>Large displacements: a {_e(block['method'])}.</p>"]
+    for name, r in block["results"].items():
+        if "limit_points" not in r:
+            parts.append(f"<p>{_e(name)}: no load path: {_e(r['stopped'])}.</p>")
+            continue
+        said = "; then ".join(f"{format_number(x['load_factor'])} at step {x['step']}"
+                              for x in r["limit_points"])
+        said = f"a limit load factor of {said}" if said else "no limit point"
+        at = f"load factor {format_number(r['final_load_factor'])}"
+        end = f"stopped early at {at}: {r['stopped']}" if r["stopped"] else f"reached {at}"
+        u, slack = r["max_displacement"], r["slack"]["count"]
+        parts.append(f"<p>{_e(name)}: {_e(said)}; {r['steps']} steps, {_e(end)}. Largest "
+                     f"displacement at the last step {format_number(u['value'] * 1e3)} mm (node "
+                     f"{u['node']}); {slack} members slack there; {r['cutbacks']} cut-backs.</p>")
+    return "\n".join([*parts, *figures, f"<p>{_e(CAUTION)}</p>"])
+
+
 def _e(value: Any) -> str:
     return html.escape(str(value), quote=True)
 
@@ -432,6 +451,12 @@ def _image_src(path: Path, folder: Path, embed: bool, what: str) -> str:
     return quote(rel)
 
 
+def _figure(p: Path, folder: Path, embed: bool, what: str) -> str:
+    src = _image_src(p, folder, embed, what)
+    return (f'<figure><img src="{_e(src)}" alt="{_e(p.stem)}">'
+            f"<figcaption>{_e(p.stem)}</figcaption></figure>")
+
+
 def _heal_section(heal: Any, unit: str, scale: float) -> str:
     """The healing steps as a table, locations in the report's length unit."""
     if heal is None:
@@ -461,6 +486,8 @@ def write_report(
     n_critical: int = 10,
     design: Mapping[str, Any] | None = None,
     analysis: Mapping[str, Any] | None = None,
+    nonlinear: Mapping[str, Any] | None = None,
+    path_plots: Sequence[str | os.PathLike[str]] = (),
 ) -> Path:
     """Write a self-contained HTML report of the run.
 
@@ -492,6 +519,8 @@ def write_report(
         The "analysis" block of ``summary.json`` ([analysis] buckling and
         frequencies): a "Buckling and frequencies" section after the
         equilibrium check.
+    nonlinear, path_plots : mapping, sequence of path-like, optional
+        The "nonlinear" block of ``summary.json`` and its plots (PNG).
 
     Returns
     -------
@@ -639,6 +668,9 @@ def write_report(
     ]
     if analysis:
         sections.append(_analysis_section(analysis))
+    if nonlinear:
+        sections.append(_nonlinear_section(nonlinear, [_figure(Path(f), folder, embed_images,
+                                                               "plot") for f in path_plots]))
 
     sections.append(
         "<h2>Critical members</h2>\n<p>Members with the largest absolute axial force over "
@@ -657,12 +689,7 @@ def write_report(
     for heading, files, what in (("Pictures", pictures, "picture"), ("Charts", charts, "chart")):
         if not files:
             continue
-        figs = []
-        for f in files:
-            p = Path(f)
-            src = _image_src(p, folder, embed_images, what)
-            figs.append(f'<figure><img src="{_e(src)}" alt="{_e(p.stem)}">'
-                        f"<figcaption>{_e(p.stem)}</figcaption></figure>")
+        figs = [_figure(Path(f), folder, embed_images, what) for f in files]
         sections.append(f"<h2>{heading}</h2>\n" + "\n".join(figs))
 
     caution = _e(CAUTION)
