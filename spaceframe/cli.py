@@ -316,7 +316,8 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
         )
     if outcome.design is not None:
         out.line(outcome.design.line())
-    for text in _analysis_lines(outcome.summary.get("analysis", {})):
+    for text in (_analysis_lines(outcome.summary.get("analysis", {}))
+                 + _nonlinear_lines(outcome.summary.get("nonlinear", {}))):
         out.line(text)
     for w in outcome.summary.get("warnings", []):
         out.line(f"warning: {w}")
@@ -353,6 +354,23 @@ def _analysis_lines(block: dict[str, Any]) -> list[str]:
             lines.append(f"frequencies: {hz} Hz{verdict}")
         else:
             lines.append(f"frequencies: none ({f['note']})")
+    return lines
+
+
+def _nonlinear_lines(block: dict[str, Any]) -> list[str]:
+    """One line per load path of a run: limit points, where it ended, slack members."""
+    lines = []
+    for name, r in block.get("results", {}).items():
+        if "limit_points" not in r:
+            lines.append(f"nonlinear {name}: no load path ({r['stopped']})")
+            continue
+        limits = ", ".join(f"{x['load_factor']:.4g} (step {x['step']})"
+                           for x in r["limit_points"])
+        said = f"limit load factor {limits}" if limits else "no limit point"
+        end = (f"stopped at load factor {r['final_load_factor']:.4g}: {r['stopped']}"
+               if r["stopped"] else f"reached load factor {r['final_load_factor']:.4g}")
+        lines.append(f"nonlinear {name}: {said}; {end} in {r['steps']} steps; "
+                     f"{r['slack']['count']} members slack at the end")
     return lines
 
 

@@ -187,3 +187,16 @@ def test_a_path_stopped_early_is_reported_and_still_written(tmp_path):
     assert len(rows) == 1 + 4  # header and steps 0-3
     files = list(ET.parse(out.output / "vtk" / "paths" / "P.pvd").getroot().iter("DataSet"))
     assert len(files) == 4
+
+
+def test_the_command_line_says_the_limit_load_factor(tmp_path, capsys):
+    from spaceframe.cli import main
+
+    (tmp_path / "m.toml").write_text(TWO_BAR, encoding="utf-8")
+    assert main(["run", str(tmp_path / "m.toml"), "-o", str(tmp_path / "out"),
+                 "--no-pictures"]) == 0
+    line = next(t for t in capsys.readouterr().out.splitlines() if t.startswith("nonlinear P:"))
+    # The closed-form limit load (limit_load() above) as a factor on the case's load.
+    lam = float(line.split("limit load factor ")[1].split(" ")[0])
+    assert lam == pytest.approx(limit_load() / (LOAD * 1e3), rel=1e-3)
+    assert "reached load factor 1" in line
