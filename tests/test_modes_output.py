@@ -146,3 +146,12 @@ def test_run_with_pictures_reports_the_lowest_factor_and_pyvista_reads_the_modes
     page = (out / "report.html").read_text(encoding="utf-8")
     assert (f"Lowest buckling load factor: {sf.results.summary.format_number(low['factor'])} "
             f"({low['result']})") in page
+    # Pictures of the lowest modes (up to three of each buckling result and of the
+    # frequencies), listed with the VTK files in the summary.
+    listed = json.loads((out / "summary.json").read_text())["mode_files"]
+    assert sorted(listed["vtk"]) == sorted(  # every mode file and the series over them
+        f"vtk/modes/{q.name}" for q in (out / "vtk" / "modes").iterdir())
+    pics = sorted(q.name for q in (out / "pictures" / "modes").iterdir())
+    assert len(pics) == 2 + 2 + 3 and all(q.endswith("_iso.png") for q in pics)
+    assert sorted(listed["pictures"]) == [f"pictures/modes/{q}" for q in pics]
+    assert any(q.startswith("buckling_ULS_mode_1_factor_") for q in pics)

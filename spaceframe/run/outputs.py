@@ -51,7 +51,9 @@ def write_outputs(
         note = dxf_wanted(results.model.n_members, "results.dxf", dxf_opt.get("requested"))[1]
         if note is not None:  # said in the summary and by the command
             extra["warnings"].append(note)
-    files = [Path(p) for p in tables.write(folder, results, extra=extra)]
+    # Mode shapes first, so that summary.json can list their files.
+    files = _write_modes(folder, results, modes or [], pictures, progress, has_pyvista, extra)
+    files += [Path(p) for p in tables.write(folder, results, extra=extra)]
     files += tables.write_arrays(folder, results)  # what `view RESULTS_DIR` reads back
     if design is not None:
         files += _write_member_design(folder, results, design)
@@ -72,12 +74,44 @@ def write_outputs(
             files += _write_pictures_and_report(folder, results, loaded, pictures, progress,
                                                 extra, design, envelopes, plots)
     files += tables.write_envelopes(folder, results, envelopes)
-    if modes and has_pyvista:
-        from spaceframe.io import vtk
-
-        progress("write mode shapes")
-        files += vtk.write_modes(folder / "vtk" / "modes", results, modes)
     return files
+
+
+#: Mode shapes pictured per buckling result and for the frequencies: the lowest few.
+PICTURED_MODES = 3
+
+
+def _mode_label(mode: Any) -> str:
+    if mode.kind == "buckling":
+        return f"buckling {mode.result} mode {mode.number} (factor {mode.value:.3g})"
+    return f"frequency mode {mode.number} ({mode.value:.3g} Hz)"
+
+
+def _write_modes(folder: Path, results: Results, modes: list[Any], pictures: bool | str,
+                 progress: Progress, has_pyvista: bool, extra: dict[str, Any]) -> list[Path]:
+    """``vtk/modes/`` and, with pictures, ``pictures/modes/`` (the lowest few of each kind).
+
+    Their paths, relative to the folder, go into the summary as ``"mode_files"``.
+    """
+    if not modes or not has_pyvista:
+        return []
+    from spaceframe.io import vtk
+
+    progress("write mode shapes")
+    files = [Path(p) for p in vtk.write_modes(folder / "vtk" / "modes", results, modes)]
+    shown = [m for m in modes if m.number <= PICTURED_MODES]
+    pics: list[Path] = []
+    if pictures and shown:
+        from spaceframe import viewer
+
+        pics = viewer.mode_pictures(folder / "pictures" / "modes", results,
+                                    [(_mode_label(m), m.shape) for m in shown],
+                                    progress=progress)
+    extra["mode_files"] = {
+        "vtk": [p.relative_to(folder).as_posix() for p in files],
+        "pictures": [p.relative_to(folder).as_posix() for p in pics],
+    }
+    return files + pics
 
 
 def _write_member_design(folder: Path, results: Results, design: Any) -> list[Path]:

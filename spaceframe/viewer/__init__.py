@@ -11,11 +11,14 @@ under the nodes and loads arrows pointing at them.
 
 In an interactive window, ``n`` / Right and ``b`` / Left step through the load
 cases and combinations (a slider does the same), and ``p`` over a member or
-node shows its figures.  Everything renders off-screen as well, for
+node shows its figures.  Mode shapes (buckling, vibration) are shown by
+:func:`show_modes` with a second slider for their amplitude, and pictured by
+:func:`mode_pictures`.  Everything renders off-screen as well, for
 :func:`screenshot` and for tests; PyVista is imported inside the functions.
 """
 
 from spaceframe.results.summary import auto_scale
+from spaceframe.viewer.modes import ModeScene, mode_pictures, mode_results, show_modes
 from spaceframe.viewer.pictures import (
     PICTURE_CHOICES,
     screenshot,
@@ -50,13 +53,17 @@ __all__ = [
     "UTILISATION_STOPS",
     "VIEWS",
     "FrameScene",
+    "ModeScene",
     "Writer",
     "auto_scale",
     "build_plotter",
     "build_scene",
+    "mode_pictures",
+    "mode_results",
     "screenshot",
     "screenshots",
     "select_cases",
     "show",
+    "show_modes",
     "with_envelopes",
 ]

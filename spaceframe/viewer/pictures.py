@@ -51,6 +51,16 @@ def screenshot(
         scene.close()
 
 
+def picture_stem(name: str, prefix: str, used: set[str]) -> str:
+    """A file-safe stem for a result's pictures, unique (case-insensitively) within ``used``."""
+    safe = re.sub(r"[^A-Za-z0-9_.+-]+", "_", name).strip("._") or "result"
+    stem, k = f"{prefix}{safe}", 2
+    while stem.lower() in used:
+        stem, k = f"{prefix}{safe}_{k}", k + 1
+    used.add(stem.lower())
+    return stem
+
+
 def with_envelopes(results: Results, envelopes: Mapping[str, Envelope]) -> Results:
     """``results`` plus one drawable entry per envelope (kind "envelope").
 
@@ -154,6 +164,18 @@ def screenshots(
     out_dir.mkdir(parents=True, exist_ok=True)
     scene = build_scene(results, names[0], color_by=color_by, scale=scale, off_screen=True,
                         window_size=size, view=views[0], utilisation=utilisation)
+    return render_all(scene, names, views, out_dir, prefix=prefix, progress=progress,
+                      write=write)
+
+
+def render_all(scene: Any, names: Sequence[str], views: Sequence[str], folder: Path, *,
+               prefix: str = "", progress: Callable[[str], None] | None = None,
+               write: Writer | None = None, counted: str = "pictures") -> list[Path]:
+    """Save one PNG per result and view from a built scene, then close it.
+
+    Files are ``<prefix><name>_<view>.png`` (names made safe and unique);
+    ``progress`` hears "<counted> k/n" before each picture.
+    """
     paths: list[Path] = []
     used: set[str] = set()
     total = len(names) * len(views)
@@ -161,16 +183,12 @@ def screenshots(
         for name in names:
             if name != scene.case:
                 scene.set_case(name)
-            safe = re.sub(r"[^A-Za-z0-9_.+-]+", "_", name).strip("._") or "result"
-            stem, k = f"{prefix}{safe}", 2
-            while stem.lower() in used:
-                stem, k = f"{prefix}{safe}_{k}", k + 1
-            used.add(stem.lower())
+            stem = picture_stem(name, prefix, used)
             for v in views:
                 if progress is not None:
-                    progress(f"pictures {len(paths) + 1}/{total}")
+                    progress(f"{counted} {len(paths) + 1}/{total}")
                 scene.set_view(v)
-                paths.append(scene.save(out_dir / f"{stem}_{v}.png", write))
+                paths.append(scene.save(folder / f"{stem}_{v}.png", write))
     finally:
         scene.close()
     return paths

@@ -260,6 +260,10 @@ class FrameScene(Interaction):
         res = self.results[self.case]
         return self.results.model.nodes + self.scale * res.displacements
 
+    def _bar_title(self) -> tuple[str, str]:
+        """Colour-bar title and colour map of ``color_by``."""
+        return COLOR_BY[self.color_by]
+
     def _member_scalars(self, name: str) -> tuple[np.ndarray, tuple[float, float]]:
         res = self.results[name]
         if self.color_by in ("axial_force", "stress"):
@@ -297,7 +301,7 @@ class FrameScene(Interaction):
         where = "point" if self.color_by == "displacement" else "cell"
         (lines.point_data if where == "point" else lines.cell_data)["value"] = values
         self._lines = lines
-        title, cmap = COLOR_BY[self.color_by]
+        title, cmap = self._bar_title()
         mesh_kw: dict[str, Any] = {
             "scalars": "value",
             "preference": where,
@@ -414,8 +418,11 @@ class FrameScene(Interaction):
             self._hide("undeformed")
         self._draw_supports()
         self._draw_loads()
-        kind = {"combination": "combination", "envelope": "envelope"}.get(res.kind, "load case")
+        kind = {"combination": "combination", "envelope": "envelope",
+                "mode": "mode shape"}.get(res.kind, "load case")
         shape = f"deformed x{format_number(self.scale, 3)}" if self.scale > 0 else "undeformed"
+        if res.kind == "mode":
+            shape = f"amplitude {format_number(self.scale, 3)} m"
         if res.kind == "envelope":
             shape = "governing force of " + ", ".join(res.factors)
         if self.color_by == "utilisation":

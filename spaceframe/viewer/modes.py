@@ -1,0 +1,156 @@
+"""Mode shapes in the viewer: buckling modes and vibration modes drawn as deformed shapes.
+
+A mode shape has no size of its own (each is scaled to a largest nodal
+movement of 1), so it is drawn at an amplitude: by default 5 % of the model
+size, and in a window a slider sets it.  Members are coloured by their
+stretch in the mode, ``c · (φ_j − φ_i)`` (dimensionless, per unit of the
+largest movement; the sign shows which members lengthen and which shorten),
+so the members that take part in the mode stand out.  Pictures of the first
+modes come from :func:`mode_pictures`.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from spaceframe.errors import ModelError
+from spaceframe.viewer.scene import FrameScene, Writer
+
+if TYPE_CHECKING:
+    from spaceframe.results import Results
+
+__all__ = ["DEFAULT_AMPLITUDE", "ModeScene", "mode_pictures", "mode_results", "show_modes"]
+
+#: Drawn amplitude of a mode, as a fraction of the model size, until the slider moves it.
+DEFAULT_AMPLITUDE = 0.05
+
+
+def mode_results(results: Results, modes: Sequence[tuple[str, Any]]) -> Results:
+    """Mode shapes as drawable results of kind "mode", one per ``(label, shape)``.
+
+    ``shape`` is (n_nodes, 3), scaled to a largest movement of 1 (as
+    :func:`spaceframe.linear_buckling` and :func:`spaceframe.natural_frequencies`
+    give them).  Each entry's displacements are the shape; its "axial forces"
+    are the members' stretch in the mode (module notes), with no loads and
+    no reactions.
+    """
+    from spaceframe.results import CaseResult, Results
+
+    model = results.model
+    if not modes:
+        raise ModelError("viewer: there are no mode shapes to show")
+    zeros = np.zeros((model.n_nodes, 3))
+    ends = model.members
+    items = {}
+    for label, shape in modes:
+        phi = np.asarray(shape, dtype=float)
+        if phi.shape != (model.n_nodes, 3) or not np.all(np.isfinite(phi)):
+            raise ModelError(f"viewer: mode {label!r} has shape {phi.shape} or values that are "
+                             f"not finite; expected ({model.n_nodes}, 3) numbers")
+        if label in items:
+            raise ModelError(f"viewer: two modes are labelled {label!r}")
+        stretch = np.einsum("ij,ij->i", model.directions, phi[ends[:, 1]] - phi[ends[:, 0]])
+        items[label] = CaseResult(
+            name=label, kind="mode", displacements=phi, axial_forces=stretch,
+            reactions=zeros, loads=zeros, elongations=stretch, residual=0.0,
+            area=np.ones(model.n_members),
+        )
+    return Results(model, items, results.solver, results.timings, results.info)
+
+
+class ModeScene(FrameScene):
+    """A :class:`FrameScene` of mode shapes, drawn at an amplitude (metres).
+
+    ``amplitude`` is the drawn largest movement (default
+    :data:`DEFAULT_AMPLITUDE` of the model size); :meth:`set_amplitude`
+    changes it in place.  In a window a second slider sets it, from 0 to 4
+    times the default.
+    """
+
+    def __init__(self, results: Results, case: str | None = None, *,
+                 amplitude: float | None = None, **options: Any) -> None:
+        size = results.model.size or 1.0
+        self.default_amplitude = DEFAULT_AMPLITUDE * size
+        amp = self.default_amplitude if amplitude is None else float(amplitude)
+        if not (np.isfinite(amp) and amp >= 0):
+            raise ModelError(f"viewer: amplitude={amplitude!r} must be a length >= 0, m")
+        self._amplitude_slider: Any = None
+        options.setdefault("color_by", "axial_force")
+        super().__init__(results, case, scale=amp, **options)
+
+    def _bar_title(self) -> tuple[str, str]:
+        if self.color_by == "axial_force":
+            return "Stretch in the mode [-] (lengthens +)", "coolwarm"
+        return super()._bar_title()
+
+    def _member_scalars(self, name: str) -> tuple[np.ndarray, tuple[float, float]]:
+        if self.color_by != "axial_force":
+            return super()._member_scalars(name)
+        values = self.results[name].axial_forces  # the stretch: no unit to convert
+        top = float(np.abs(values).max(initial=0.0)) or 1.0
+        return values, (-top, top)
+
+    @property
+    def amplitude(self) -> float:
+        """The drawn largest movement of the mode, m."""
+        return float(self.scale)
+
+    def set_amplitude(self, amplitude: float) -> None:
+        """Draw the mode on show with this largest movement (m), without rendering."""
+        amp = float(amplitude)
+        if not (np.isfinite(amp) and amp >= 0):
+            raise ModelError(f"viewer: amplitude={amplitude!r} must be a length >= 0, m")
+        self.scale_option = amp
+        self.set_case(self.case)
+
+    def _enable_interaction(self) -> None:
+        super()._enable_interaction()
+        self._amplitude_slider = self.plotter.add_slider_widget(
+            lambda value: self.set_amplitude(value),
+            rng=[0.0, 4.0 * self.default_amplitude],
+            value=self.amplitude,
+            title="amplitude [m]",
+            fmt="%.3g",
+            pointa=(0.05, 0.07),
+            pointb=(0.45, 0.07),
+            color="black",
+        )
+
+
+def show_modes(results: Results, modes: Sequence[tuple[str, Any]], **options: Any) -> None:
+    """Open a window on the mode shapes, with a slider for their amplitude.
+
+    Keys and the result slider step through the modes as through results.
+    """
+    scene = ModeScene(mode_results(results, modes), **options)
+    scene.plotter.show()
+
+
+def mode_pictures(
+    folder: str | os.PathLike[str],
+    results: Results,
+    modes: Sequence[tuple[str, Any]],
+    *,
+    views: Sequence[str] = ("iso",),
+    size: Sequence[int] = (1200, 800),
+    amplitude: float | None = None,
+    prefix: str = "",
+    progress: Callable[[str], None] | None = None,
+    write: Writer | None = None,
+) -> list[Path]:
+    """One PNG per mode and view, ``<prefix><label>_<view>.png``, from one off-screen scene."""
+    from spaceframe.viewer.pictures import render_all
+
+    shown = mode_results(results, modes)
+    names = list(shown)
+    out = Path(folder)
+    out.mkdir(parents=True, exist_ok=True)
+    scene = ModeScene(shown, names[0], amplitude=amplitude, off_screen=True,
+                      window_size=size, view=views[0])
+    return render_all(scene, names, views, out, prefix=prefix, progress=progress, write=write,
+                      counted="mode pictures")

@@ -1,0 +1,83 @@
+"""Mode shapes in the viewer: drawn at an amplitude set by a slider, and pictured off-screen."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import matplotlib.image as mpimg
+import numpy as np
+import pytest
+import pyvista as pv
+from conftest import loaded_tripod
+
+import spaceframe as sf
+from spaceframe import viewer
+
+pv.OFF_SCREEN = True
+SIZE = (400, 300)
+
+
+@pytest.fixture
+def modes() -> tuple[sf.Results, list[tuple[str, np.ndarray]]]:
+    m = loaded_tripod(density=7850.0)
+    res = m.solve()
+    f = sf.natural_frequencies(m, n_modes=3)
+    return res, [(f"frequency mode {k + 1} ({hz:.3g} Hz)", f.modes[k])
+                 for k, hz in enumerate(f.frequencies)]
+
+
+def test_mode_results_carry_the_shape_and_the_members_stretch(modes) -> None:
+    res, shapes = modes
+    shown = viewer.mode_results(res, shapes)
+    m = res.model
+    for label, phi in shapes:
+        r = shown[label]
+        assert r.kind == "mode"
+        np.testing.assert_array_equal(r.displacements, phi)
+        # Stretch of member k in the mode: c_k · (φ_j − φ_i), written out member by member.
+        for k, (i, j) in enumerate(m.members):
+            assert r.axial_forces[k] == pytest.approx(float(m.directions[k] @ (phi[j] - phi[i])))
+        # Scaled by the analysis to a largest nodal movement of 1.
+        assert np.linalg.norm(phi, axis=1).max() == pytest.approx(1.0)
+
+
+def test_amplitude_sets_the_drawn_movement_and_the_slider_moves_it(modes) -> None:
+    res, shapes = modes
+    scene = viewer.ModeScene(viewer.mode_results(res, shapes), off_screen=True,
+                             window_size=SIZE, interactive=True)
+    try:
+        m = res.model
+        phi = shapes[0][1]
+        # Default: 5 % of the model size (viewer.modes.DEFAULT_AMPLITUDE) as the largest move.
+        assert scene.amplitude == pytest.approx(0.05 * m.size)
+        np.testing.assert_allclose(scene.deformed_nodes(), m.nodes + 0.05 * m.size * phi)
+        scene.set_amplitude(0.2)
+        np.testing.assert_allclose(scene.deformed_nodes(), m.nodes + 0.2 * phi)
+        slider = scene._amplitude_slider
+        slider.GetRepresentation().SetValue(0.1)
+        slider.InvokeEvent("EndInteractionEvent")  # PyVista acts when the drag ends
+        assert scene.amplitude == pytest.approx(0.1)
+        scene.next_case(1)  # the modes step like results, at the amplitude set
+        assert scene.case == shapes[1][0] and scene.amplitude == pytest.approx(0.1)
+        with pytest.raises(sf.ModelError, match="amplitude"):
+            scene.set_amplitude(-1.0)
+    finally:
+        scene.close()
+
+
+def test_mode_pictures_show_the_mode(tmp_path: Path, modes) -> None:
+    res, shapes = modes
+    moved = viewer.mode_pictures(tmp_path / "a", res, shapes[:2], size=SIZE)
+    flat = viewer.mode_pictures(tmp_path / "b", res, shapes[:1], size=SIZE, amplitude=0.0)
+    assert len(moved) == 2 and moved[0].name.startswith("frequency_mode_1_")
+    assert all(p.exists() and p.suffix == ".png" for p in moved)
+    a, b = mpimg.imread(moved[0]), mpimg.imread(flat[0])
+    assert a.shape == b.shape and not np.array_equal(a, b)  # the shape is drawn moved
+
+
+def test_bad_modes_are_refused(modes) -> None:
+    res, _ = modes
+    with pytest.raises(sf.ModelError, match="no mode shapes"):
+        viewer.mode_results(res, [])
+    with pytest.raises(sf.ModelError, match=r"expected \(4, 3\)"):
+        viewer.mode_results(res, [("bad", np.zeros((3, 3)))])
