@@ -39,7 +39,7 @@ import os
 import re
 import sys
 import uuid
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -378,6 +378,7 @@ def write(
     binary: bool = True,
     utilisation: Mapping[str, Any] | None = None,
     governing_utilisation: Any = None,
+    progress: Callable[[str], Any] | None = None,
 ) -> Path:
     """Write every load case and combination as VTK files plus a ``.pvd`` series.
 
@@ -400,6 +401,8 @@ def write(
     governing_utilisation : (b,) float, optional
         The largest utilisation over every result checked: cell data
         ``utilisation_governing`` of every file.
+    progress : callable, optional
+        Told "writing VTK k/n results" before each result.
 
     Returns
     -------
@@ -434,6 +437,8 @@ def write(
     with_panels = panels and results.model.n_panels > 0
     with _Series(pvd) as series:
         for step, name in enumerate(names):
+            if progress is not None:
+                progress(f"writing VTK {step + 1}/{len(names)} results")
             base = f"{stem}_{_safe_name(name)}"
             jobs = [(0, series.unique(base), member_grid)]
             if with_panels:

@@ -249,3 +249,10 @@ def test_a_failed_vtu_write_is_one_oserror_and_silent(tmp_path: Path, results: s
     np.testing.assert_array_equal(back.cell_data["axial_force"][0],
                                   results[next(iter(results))].axial_forces)
     assert b'compressor="vtkZLibDataCompressor"' in (tmp_path / "x.vtu").read_bytes()[:2000]
+
+
+def test_progress_counts_the_results_written(tmp_path: Path, results: sf.Results) -> None:
+    told: list[str] = []
+    sfvtk.write(tmp_path / "vtk", results, progress=told.append)
+    n = len(results)
+    assert told == [f"writing VTK {k}/{n} results" for k in range(1, n + 1)]

@@ -66,10 +66,9 @@ def write_outputs(
     if has_pyvista:
         from spaceframe.io import vtk
 
-        progress("write VTK")
         vtk_kw = ({"utilisation": design.per_result, "governing_utilisation": design.utilisation}
                   if design is not None else {})
-        files.append(Path(vtk.write(folder / "vtk", results, **vtk_kw)))
+        files.append(Path(vtk.write(folder / "vtk", results, progress=progress, **vtk_kw)))
         if pictures:
             files += _write_pictures_and_report(folder, results, loaded, pictures, progress,
                                                 extra, design, envelopes, plots)
