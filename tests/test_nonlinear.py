@@ -291,9 +291,9 @@ def test_bad_requests_are_refused_in_one_line() -> None:
         sf.solve_nonlinear(m, "Q")
     with pytest.raises(sf.ModelError, match="max_load_factor"):
         sf.solve_nonlinear(m, "P", max_load_factor=0.0)
-    m.add_temperature("hot", [0], 30.0)
-    with pytest.raises(sf.ModelError, match="'hot' has temperature changes"):
-        sf.solve_nonlinear(m, "hot")
+    m.add_initial_strain("crush", [0], -1.0)
+    with pytest.raises(sf.ModelError, match="'crush': member 0 has a free strain -1 <= -1"):
+        sf.solve_nonlinear(m, "crush")
 
 
 def test_a_step_that_cannot_converge_fails_closed_with_the_path_so_far(dome: sf.Model) -> None:

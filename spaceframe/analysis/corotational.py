@@ -9,6 +9,15 @@ acting along c.  A pretension P (tension in the drawn, straight geometry of
 drawn length L) makes the unstressed length L0 = L EA/(EA + P), i.e. shorter
 than L by P L/(EA + P), so that N = P at l = L.
 
+Imposed strains and settlements (both scaled by the load factor lambda): a
+free strain eps = alpha dT + eps0 of the load set lengthens the unstressed
+length to L0(lambda) = L0 (1 + lambda eps); a settlement moves the restrained
+directions to lambda u_p.  The internal forces then depend on lambda too, and
+the path's load vector is the full derivative of the out-of-balance force,
+h = q - d f_int/d lambda (:meth:`Bars.load_rate`), with per member
+dN/dlambda = -EA l L0 eps / L0(lambda)^2 along c and k_t (u_p,j - u_p,i) from
+the settlement.  Without either, h = q exactly.
+
 Tension-only members: where N would be negative the member is slack, its
 force and both tangent terms are zero.  The internal force stays continuous
 (N -> 0 from either side) but its derivative jumps at N = 0, so Newton on it
@@ -97,7 +106,10 @@ class Bars:
     only sums the member values into it (one bincount, no sparse build).
     """
 
-    def __init__(self, model: Model, f: np.ndarray) -> None:
+    def __init__(
+        self, model: Model, f: np.ndarray, strain: np.ndarray | None = None,
+        settlement: np.ndarray | None = None,
+    ) -> None:
         self.n = model.n_nodes
         self.X = model.nodes.astype(float).copy()
         self.members = model.members.astype(np.int64).copy()
@@ -115,6 +127,11 @@ class Bars:
         self.L0 = self.L - self.shorten
         self.f = f
         self.restrained = model.restraint.ravel().copy()
+        # Free strain (b,) and settlement (3n,) at load factor 1 (module notes);
+        # None when absent, so that the plain path keeps its arithmetic.
+        self.strain = strain if strain is not None and np.any(strain) else None
+        up = None if settlement is None else np.where(self.restrained, settlement, 0.0)
+        self.settlement = up if up is not None and np.any(up) else None
         dof_map, self.free = free_dof_map(model.restraint)
         self.spring_all = model.springs.ravel().copy()
         self.spring = self.spring_all[self.free]
@@ -136,10 +153,20 @@ class Bars:
         self._indices = uniq % max(nf, 1)
         self._indptr = np.searchsorted(uniq // max(nf, 1), np.arange(nf + 1))
 
+    @property
+    def imposed(self) -> bool:
+        """Whether the load set has free strains or settlements (scaled by lambda)."""
+        return self.strain is not None or self.settlement is not None
+
+    def displacements(self, uf: np.ndarray, lam: float) -> np.ndarray:
+        """(3n,) all nodal displacements: ``uf`` on the free directions, settlements held."""
+        u = np.zeros(3 * self.n) if self.settlement is None else lam * self.settlement
+        u[self.free] = uf
+        return u
+
     def state(self, uf: np.ndarray, lam: float) -> State:
         """Member forces and nodal internal forces at free displacements ``uf``."""
-        u = np.zeros(3 * self.n)
-        u[self.free] = uf
+        u = self.displacements(uf, lam)
         u3 = u.reshape(self.n, 3)
         i, j = self.members[:, 0], self.members[:, 1]
         delta = u3[j] - u3[i]
@@ -151,7 +178,12 @@ class Bars:
         # no cancellation when the elongation is tiny beside the length, so
         # small loads keep full relative accuracy; l - L0 = (l - L) + (L - L0).
         grow = 2.0 * np.einsum("ij,ij->i", self.D, delta) + np.einsum("ij,ij->i", delta, delta)
-        N = self.EA * (grow / (length + self.L) + self.shorten) / self.L0
+        if self.strain is None:
+            N = self.EA * (grow / (length + self.L) + self.shorten) / self.L0
+        else:
+            # L0(lambda) = L0 (1 + lambda eps): l - L0(lambda) = (l - L) + (L - L0) - lambda eps L0.
+            extra = lam * self.strain * self.L0
+            N = self.EA * (grow / (length + self.L) + self.shorten - extra) / (self.L0 + extra)
         slack = self.tension_only & (N < 0)
         N = np.where(slack, 0.0, N)
         Nc = N[:, None] * c
@@ -159,6 +191,28 @@ class Bars:
             self.dofs.ravel(), np.concatenate([-Nc, Nc], axis=1).ravel(), 3 * self.n
         )
         return State(uf=uf, lam=lam, N=N, length=length, c=c, fint=fint, slack=slack)
+
+    def load_rate(self, s: State) -> np.ndarray:
+        """(nf,) h = q - d f_int/d lambda at ``s``: the load vector of the path (module notes)."""
+        if not self.imposed:
+            return self.q
+        taut = ~s.slack if s.slack is not None else np.ones(s.N.shape, bool)
+        t = np.zeros_like(s.c)
+        if self.strain is not None:
+            L0 = self.L0 * (1.0 + s.lam * self.strain)
+            dN = np.where(taut, -self.EA * s.length * self.L0 * self.strain / (L0 * L0), 0.0)
+            t += dN[:, None] * s.c
+        if self.settlement is not None:
+            up = self.settlement.reshape(self.n, 3)
+            delta = up[self.members[:, 1]] - up[self.members[:, 0]]
+            along = np.einsum("ij,ij->i", s.c, delta)
+            L0 = self.L0 if self.strain is None else self.L0 * (1.0 + s.lam * self.strain)
+            ka = np.where(taut, self.EA / L0, 0.0)
+            t += (ka * along)[:, None] * s.c + (s.N / s.length)[:, None] * (
+                delta - along[:, None] * s.c
+            )
+        rate = np.bincount(self.dofs.ravel(), np.concatenate([-t, t], axis=1).ravel(), 3 * self.n)
+        return self.q - rate[self.free]
 
     def out_of_balance(self, s: State) -> tuple[np.ndarray, float]:
         """Free-dof residual f_int - lambda q and its relative size."""
@@ -181,7 +235,9 @@ class Bars:
         """
         c = s.c
         cc = c[:, :, None] * c[:, None, :]
-        ka = self.EA / self.L0
+        ka = self.EA / self.L0 if self.strain is None else self.EA / (
+            self.L0 * (1.0 + s.lam * self.strain)
+        )
         if s.slack is not None:
             ka = np.where(s.slack, 0.0, ka)
         k = ka[:, None, None] * cc + (s.N / s.length)[:, None, None] * (

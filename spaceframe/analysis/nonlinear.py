@@ -47,6 +47,20 @@ cable node on a straight line between supports) is accepted when it has
 pretension and its prestressed tangent stiffness at step 0 is positive
 definite.
 
+Temperature, initial strain and settlement
+------------------------------------------
+They are loads of the case or combination like its forces, scaled by the
+load factor: a free strain eps = alpha dT + eps0 lengthens a member's
+unstressed length to L0 (1 + lambda eps), and a settlement moves its
+restrained directions to lambda u_p (analysis.corotational).  The internal
+forces then depend on lambda, and the arc-length method uses the full
+derivative h = q - d f_int/d lambda of the out-of-balance force in place of
+the reference load q.  When such a load moves no free direction at step 0
+(every direction held, or held by symmetry, as for a bar heated between two
+supports), the arc length in displacements is not defined: the path then
+takes equal load increments (``initial_increment``) with Newton at each, and
+cannot pass a limit point.
+
 Results must be checked by a qualified engineer.
 """
 
@@ -99,7 +113,7 @@ class _Control:
 def _rate(bars: Bars, s: State, direction: np.ndarray | None) -> float:
     """Factorise the tangent at ``s`` and return d lambda/d s oriented along ``direction``."""
     s.tangent = bars.tangent(s)
-    dut = s.tangent.solve(bars.q)
+    dut = s.tangent.solve(bars.load_rate(s))
     norm = float(np.linalg.norm(dut))
     if not np.isfinite(norm) or norm == 0.0:
         raise RuntimeError("tangent solve failed")
@@ -117,7 +131,7 @@ def _arc_step(
     """
     try:
         assert start.tangent is not None
-        dut = start.tangent.solve(bars.q)
+        dut = start.tangent.solve(bars.load_rate(start))
         du = dut * (dl / np.linalg.norm(dut))
         dlam = start.rate * dl
         if start.rate < 0:
@@ -134,7 +148,7 @@ def _arc_step(
             if it == ctl.max_iterations:
                 return None
             tan = bars.tangent(s)
-            sol = tan.solve(np.column_stack([-g, bars.q]))
+            sol = tan.solve(np.column_stack([-g, bars.load_rate(s)]))
             dur, dut = sol[:, 0], sol[:, 1]
             w = du + dur
             a1 = float(dut @ dut)
@@ -156,14 +170,8 @@ def _arc_step(
     return None
 
 
-def _land(
-    bars: Bars, a: State, b: State, target: float, ctl: _Control
-) -> State | None:
-    """Load-controlled Newton at ``target`` from the state interpolated between a and b."""
-    t = (target - a.lam) / (b.lam - a.lam)
-    guess = a.uf + t * (b.uf - a.uf)
-    reach = float(np.linalg.norm(b.uf - a.uf))
-    uf = guess
+def _newton(bars: Bars, uf: np.ndarray, target: float, ctl: _Control) -> State | None:
+    """Load-controlled Newton at load factor ``target`` from ``uf`` (None: no convergence)."""
     try:
         for it in range(ctl.max_iterations + 1):
             s = bars.state(uf, target)
@@ -171,11 +179,7 @@ def _land(
             if not np.isfinite(res):
                 return None
             if res <= ctl.tolerance:
-                # Must be the crossing on this stretch, not another equilibrium.
-                if np.linalg.norm(uf - guess) > reach + 1e-12 * (1.0 + reach):
-                    return None
                 s.residual, s.iterations = res, it
-                s.tangent = bars.tangent(s)
                 return s
             if it == ctl.max_iterations:
                 return None
@@ -183,6 +187,24 @@ def _land(
     except (RuntimeError, FloatingPointError, ZeroDivisionError):
         return None
     return None
+
+
+def _land(
+    bars: Bars, a: State, b: State, target: float, ctl: _Control
+) -> State | None:
+    """Load-controlled Newton at ``target`` from the state interpolated between a and b."""
+    t = (target - a.lam) / (b.lam - a.lam)
+    guess = a.uf + t * (b.uf - a.uf)
+    reach = float(np.linalg.norm(b.uf - a.uf))
+    s = _newton(bars, guess, target, ctl)
+    # Must be the crossing on this stretch, not another equilibrium.
+    if s is None or np.linalg.norm(s.uf - guess) > reach + 1e-12 * (1.0 + reach):
+        return None
+    try:
+        s.tangent = bars.tangent(s)
+    except (RuntimeError, FloatingPointError, ZeroDivisionError):
+        return None
+    return s
 
 
 def _negative(s: State) -> int:
@@ -292,8 +314,14 @@ def _advance(
 
 
 # -------------------------------------------------------------------- driver
-def _reference_load(model: Model, name: str) -> tuple[str, np.ndarray, dict[str, float]]:
-    """Kind, (3n,) reference force vector and factors of a case or combination."""
+def _reference_load(
+    model: Model, name: str
+) -> tuple[str, np.ndarray, dict[str, float], np.ndarray, np.ndarray]:
+    """Kind, (3n,) reference forces, factors, (b,) free strains and (3n,) settlements.
+
+    The free strain alpha dT + eps0 and the settlements are those of load
+    factor 1, summed over the factored cases like the forces.
+    """
     n, b = model.n_nodes, model.n_members
     if name in model.cases:
         kind, factors = "case", {name: 1.0}
@@ -303,23 +331,25 @@ def _reference_load(model: Model, name: str) -> tuple[str, np.ndarray, dict[str,
         known = ", ".join(sorted([*model.cases, *model.combinations])) or "none defined"
         raise ModelError(f"solve_nonlinear: no load case or combination {name!r} (known: {known})")
     f = np.zeros(3 * n)
+    strain = np.zeros(b)
+    up = np.zeros(3 * n)
     for case, factor in factors.items():
         lc = model.cases[case]
         lc.resize(n, b)
-        for what, arr in (
-            ("temperature changes", lc.temperature),
-            ("initial strains", lc.initial_strain),
-            ("settlements", lc.settlement_mask),
-        ):
-            if np.any(arr):
-                raise ModelError(
-                    f"solve_nonlinear: load case {case!r} has {what}; the nonlinear analysis "
-                    "takes nodal forces only"
-                )
         f += factor * lc.forces.ravel()
-    if not np.all(np.isfinite(f)):
-        raise ModelError(f"solve_nonlinear: {kind} {name!r} has non-finite loads")
-    return kind, f, factors
+        strain += factor * (model.alpha * lc.temperature + lc.initial_strain)
+        up += factor * np.where(lc.settlement_mask, lc.settlement, 0.0).ravel()
+    for what, arr in (("loads", f), ("temperature changes or initial strains", strain),
+                      ("settlements", up)):
+        if not np.all(np.isfinite(arr)):
+            raise ModelError(f"solve_nonlinear: {kind} {name!r} has non-finite {what}")
+    bad = np.flatnonzero(strain <= -1.0)
+    if bad.size:
+        raise ModelError(
+            f"solve_nonlinear: {kind} {name!r}: member {int(bad[0])} has a free strain "
+            f"{strain[bad[0]]:.6g} <= -1 (alpha dT + eps0), which leaves it no unstressed length"
+        )
+    return kind, f, factors, strain, up
 
 
 def _check_options(max_load_factor: float, initial_increment: float | None, **kw: float) -> None:
@@ -359,8 +389,8 @@ def solve_nonlinear(
     Parameters
     ----------
     model : Model
-        Nodal forces only (temperature, initial strain or settlement in the
-        chosen cases raise ModelError).  Its ``pretension`` and
+        Nodal forces, temperature, initial strain and settlement of the
+        chosen cases are all scaled by the load factor (module notes).  Its ``pretension`` and
         ``tension_only`` member arrays are honoured (module notes).  Supports and springs as in the
         linear analysis; springs keep their global directions.
     case_or_combination : str
@@ -406,25 +436,27 @@ def solve_nonlinear(
         max_steps=max_steps, max_iterations=max_iterations, max_cutbacks=max_cutbacks,
     )
     model.validate()
-    kind, f, factors = _reference_load(model, case_or_combination)
-    bars = Bars(model, f)
+    kind, f, factors, strain, up = _reference_load(model, case_or_combination)
+    bars = Bars(model, f, strain, up)
     first = _first_state(model, bars, tolerance)
     ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations),
                    limit_tolerance=limit_tolerance)
     trace = _Trace(bars, kind, case_or_combination, factors, max_load_factor, progress, [first])
+    incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
     try:
-        if not np.any(bars.q):
+        if not (np.any(bars.q) or bars.imposed):
             # No load on a free direction: equilibrium stays at the drawn shape.
             first.tangent = bars.tangent(first)
             end = bars.state(np.zeros(bars.nf), max_load_factor)
             end.tangent = first.tangent
             trace.steps.append(end)
             return trace.path()
+        if bars.imposed and _locked(bars, first):
+            return _load_control(bars, trace, incr0, ctl)
         first.rate = _rate(bars, first, None)
     except RuntimeError as exc:
         raise trace.fail(f"could not factorise the unloaded tangent stiffness ({exc})") from exc
 
-    incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
     dl0 = incr0 / abs(first.rate)
     # Longest arc: a few default first steps, however small the first one was.
     dl_max = _MAX_GROWTH * max(dl0, max_load_factor / 20.0 / abs(first.rate))
@@ -447,6 +479,38 @@ def solve_nonlinear(
             return trace.path()
         direction = pieces[-1].uf - start.uf
         arc.adapt(pieces[-1].iterations)
+
+
+def _locked(bars: Bars, first: State) -> bool:
+    """Whether the load set moves no free direction at step 0 (none free, or all held)."""
+    if bars.nf == 0:
+        return True
+    first.tangent = bars.tangent(first)
+    moves = float(np.linalg.norm(first.tangent.solve(bars.load_rate(first))))
+    ref = float(np.linalg.norm(first.tangent.solve(bars.q))) if np.any(bars.q) else 0.0
+    if bars.strain is not None:
+        ref += float(np.abs(bars.strain * bars.L0).max())
+    if bars.settlement is not None:
+        ref += float(np.abs(bars.settlement).max())
+    return moves <= 1e-10 * ref
+
+
+def _load_control(bars: Bars, trace: _Trace, incr: float, ctl: _Control) -> LoadPath:
+    """Equal load increments to ``max_load_factor``, Newton at each (module notes)."""
+    target = trace.max_load_factor
+    count = max(1, int(np.ceil(target / incr - 1e-9)))
+    for k in range(1, count + 1):
+        lam = target if k == count else k * incr
+        s = _newton(bars, trace.steps[-1].uf, lam, ctl)
+        if s is None:
+            raise trace.fail(f"did not converge at load factor {lam:.6g} (load control)")
+        if bars.nf:
+            try:
+                s.tangent = bars.tangent(s)
+            except RuntimeError as exc:
+                raise trace.fail(f"could not factorise the tangent stiffness ({exc})") from exc
+        trace.accept([s])
+    return trace.path()
 
 
 def _first_state(model: Model, bars: Bars, tolerance: float) -> State:
@@ -567,8 +631,7 @@ def _make_path(
 ) -> LoadPath:
     n = bars.n
     lam = np.array([s.lam for s in steps])
-    U = np.zeros((len(steps), 3 * n))
-    U[:, bars.free] = np.array([s.uf for s in steps]).reshape(len(steps), bars.nf)
+    U = np.array([bars.displacements(s.uf, s.lam) for s in steps]).reshape(len(steps), 3 * n)
     N = np.array([s.N for s in steps])
     R = np.array([bars.reactions(s) for s in steps])
     for what, arr in (("load factors", lam), ("displacements", U), ("axial forces", N),
