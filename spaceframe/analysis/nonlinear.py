@@ -27,7 +27,14 @@ and that point is inserted into the path.  Where the count of negative
 pivots of the tangent (from its factorisation, analysis.corotational)
 changes with no such sign change, a branch point (bifurcation) is passed; it
 is located by bisection in the arc length to the same tolerance and inserted
-too.  Branches are reported, not followed.  The path stops with a step that
+too.  On the perfect geometry branches are reported, not followed; with
+``imperfection=`` the nodes are first moved by that amplitude times a linear
+buckling mode of the case or combination (analysis.buckling on its linear
+static result, mode peak 1), so that the bifurcation becomes a smooth path
+along the branch, with a limit point just below the bifurcation load of an
+unstable (imperfection-sensitive) branch.  The imperfect geometry is the
+unstressed one (member lengths follow the moved nodes; a pretension must
+balance on it), and displacements are measured from it.  The path stops with a step that
 lands exactly on ``max_load_factor`` (load-controlled Newton from the
 interpolated state) the first time the load factor rises through it.
 
@@ -66,6 +73,7 @@ Results must be checked by a qualified engineer.
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -379,6 +387,8 @@ def solve_nonlinear(
     max_cutbacks: int = 12,
     limit_tolerance: float = 1.0e-9,
     progress: Callable[[int, float], Any] | None = None,
+    imperfection: float | None = None,
+    imperfection_mode: int = 1,
 ) -> LoadPath:
     """Trace the large-displacement equilibrium path of one case or combination.
 
@@ -414,6 +424,17 @@ def solve_nonlinear(
         branch point.
     progress : callable, optional
         Called as ``progress(step, load_factor)`` after each converged step.
+    imperfection : float, optional
+        Amplitude, m: trace the path on a geometry whose nodes are moved by
+        this times linear buckling mode ``imperfection_mode`` of the case or
+        combination (``linear_buckling`` of its linear static result; the
+        mode's largest nodal movement is 1, its sign as that analysis gives
+        it: a negative amplitude reverses it).  The path then follows the
+        branch that grows from the bifurcation instead of only detecting it
+        (module notes).  The result says so in ``notes`` and its
+        ``imperfection*`` attributes.
+    imperfection_mode : int
+        Which mode, 1 = the lowest.
 
     Returns
     -------
@@ -437,11 +458,16 @@ def solve_nonlinear(
     )
     model.validate()
     kind, f, factors, strain, up = _reference_load(model, case_or_combination)
+    extra: dict[str, Any] = {}
+    if imperfection is not None:
+        model, extra = _imperfect(model, case_or_combination, kind, imperfection,
+                                  imperfection_mode)
     bars = Bars(model, f, strain, up)
     first = _first_state(model, bars, tolerance)
     ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations),
                    limit_tolerance=limit_tolerance)
-    trace = _Trace(bars, kind, case_or_combination, factors, max_load_factor, progress, [first])
+    trace = _Trace(bars, kind, case_or_combination, factors, max_load_factor, progress, [first],
+                   extra=extra)
     incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
     try:
         if not (np.any(bars.q) or bars.imposed):
@@ -479,6 +505,38 @@ def solve_nonlinear(
             return trace.path()
         direction = pieces[-1].uf - start.uf
         arc.adapt(pieces[-1].iterations)
+
+
+def _imperfect(
+    model: Model, name: str, kind: str, amplitude: float, mode: Any
+) -> tuple[Model, dict[str, Any]]:
+    """The model on imperfect geometry: nodes + amplitude x buckling mode (module notes)."""
+    from spaceframe.analysis.buckling import linear_buckling
+
+    amplitude = float(amplitude)
+    if not np.isfinite(amplitude):
+        raise ModelError(f"solve_nonlinear: imperfection = {amplitude!r}: must be a finite "
+                         "length in m")
+    if isinstance(mode, bool) or not isinstance(mode, (int, np.integer)) or mode < 1:
+        raise ModelError(f"solve_nonlinear: imperfection_mode = {mode!r}: must be an integer "
+                         ">= 1 (1 = the lowest buckling mode)")
+    mode = int(mode)
+    buckling = linear_buckling(model, model.solve()[name], n_modes=mode)
+    if buckling.factors.size < mode:
+        raise ModelError(
+            f"solve_nonlinear: imperfection_mode = {mode}: {kind} {name!r} has only "
+            f"{buckling.factors.size} linear buckling mode(s)"
+        )
+    shape = amplitude * buckling.modes[mode - 1]
+    imperfect = copy.copy(model)
+    imperfect.nodes = model.nodes + shape
+    note = (
+        f"traced on imperfect geometry: nodes moved by {amplitude:.6g} m times linear "
+        f"buckling mode {mode} of {kind} {name!r} (load factor "
+        f"{float(buckling.factors[mode - 1]):.6g}); displacements are measured from it"
+    )
+    return imperfect, {"imperfection": shape, "imperfection_amplitude": amplitude,
+                       "imperfection_mode": mode, "notes": [note]}
 
 
 def _locked(bars: Bars, first: State) -> bool:
@@ -582,11 +640,12 @@ class _Trace:
     progress: Callable[[int, float], Any] | None
     steps: list[State]
     cutbacks: int = 0
+    extra: dict[str, Any] = field(default_factory=dict)
 
     def path(self) -> LoadPath:
         """The steps so far as a LoadPath."""
         return _make_path(self.bars, self.steps, self.kind, self.name, self.factors,
-                          self.max_load_factor, self.cutbacks)
+                          self.max_load_factor, self.cutbacks, self.extra)
 
     def fail(self, text: str) -> PathError:
         """A PathError for the step after the last converged one, holding the path so far."""
@@ -628,6 +687,7 @@ def _make_path(
     factors: dict[str, float],
     max_load_factor: float,
     cutbacks: int,
+    extra: dict[str, Any],
 ) -> LoadPath:
     n = bars.n
     lam = np.array([s.lam for s in steps])
@@ -663,4 +723,5 @@ def _make_path(
              for s in steps], dtype=bool,
         ).reshape(len(steps), bars.members.shape[0]),
         factors=dict(factors),
+        **{"imperfection": np.zeros((n, 3)), **copy.deepcopy(extra)},
     )
