@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import scipy.optimize as so
+from test_nonlinear import braced_strut
 
 import spaceframe as sf
 from spaceframe.analysis.nonlinear import PathError
@@ -19,19 +20,8 @@ ELL, K, P0 = 1.0, 1.0e5, 1.0e5  # bar length, lateral spring, reference load
 
 
 def strut() -> sf.Model:
-    """Two collinear bars 0-1-2 along z, a lateral spring k at node 1, P down at node 2.
-
-    Node 0 pinned, node 1 free in x and z, node 2 free in z only.
-    """
-    m = sf.Model()
-    m.add_nodes([[0, 0, 0], [0, 0, ELL], [0, 0, 2 * ELL]])
-    m.add_members([[0, 1], [1, 2]], area=AREA, E=E)
-    m.add_support([0])
-    m.add_support([1], x=False, y=True, z=False)
-    m.add_support([2], x=True, y=True, z=False)
-    m.add_spring([1], kx=K)
-    m.add_load("P", [2], (0.0, 0.0, -P0))
-    return m
+    """The spring-braced strut of test_nonlinear's branch-point test (P down at node 2)."""
+    return braced_strut(ELL, K, P0)
 
 
 def p_cr() -> float:

@@ -80,7 +80,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from spaceframe.analysis.corotational import Bars, State
+from spaceframe.analysis.corotational import Bars, State, reference_load
 from spaceframe.analysis.stability import check_stability
 from spaceframe.errors import MechanismError, ModelError, SolverError
 from spaceframe.results.path import STRAIN_MEASURE, LoadPath
@@ -122,6 +122,7 @@ def _rate(bars: Bars, s: State, direction: np.ndarray | None) -> float:
     """Factorise the tangent at ``s`` and return d lambda/d s oriented along ``direction``."""
     s.tangent = bars.tangent(s)
     dut = s.tangent.solve(bars.load_rate(s))
+    s.dut = dut
     norm = float(np.linalg.norm(dut))
     if not np.isfinite(norm) or norm == 0.0:
         raise RuntimeError("tangent solve failed")
@@ -138,8 +139,11 @@ def _arc_step(
     None when the step fails (the caller cuts back).
     """
     try:
-        assert start.tangent is not None
-        dut = start.tangent.solve(bars.load_rate(start))
+        # Solved when the start's tangent was factorised (_rate): that
+        # factorisation need not be alive any more (analysis.corotational).
+        dut = start.dut
+        if dut is None:
+            raise RuntimeError("no tangent at the start of the step")
         du = dut * (dl / np.linalg.norm(dut))
         dlam = start.rate * dl
         if start.rate < 0:
@@ -322,44 +326,6 @@ def _advance(
 
 
 # -------------------------------------------------------------------- driver
-def _reference_load(
-    model: Model, name: str
-) -> tuple[str, np.ndarray, dict[str, float], np.ndarray, np.ndarray]:
-    """Kind, (3n,) reference forces, factors, (b,) free strains and (3n,) settlements.
-
-    The free strain alpha dT + eps0 and the settlements are those of load
-    factor 1, summed over the factored cases like the forces.
-    """
-    n, b = model.n_nodes, model.n_members
-    if name in model.cases:
-        kind, factors = "case", {name: 1.0}
-    elif name in model.combinations:
-        kind, factors = "combination", dict(model.combinations[name])
-    else:
-        known = ", ".join(sorted([*model.cases, *model.combinations])) or "none defined"
-        raise ModelError(f"solve_nonlinear: no load case or combination {name!r} (known: {known})")
-    f = np.zeros(3 * n)
-    strain = np.zeros(b)
-    up = np.zeros(3 * n)
-    for case, factor in factors.items():
-        lc = model.cases[case]
-        lc.resize(n, b)
-        f += factor * lc.forces.ravel()
-        strain += factor * (model.alpha * lc.temperature + lc.initial_strain)
-        up += factor * np.where(lc.settlement_mask, lc.settlement, 0.0).ravel()
-    for what, arr in (("loads", f), ("temperature changes or initial strains", strain),
-                      ("settlements", up)):
-        if not np.all(np.isfinite(arr)):
-            raise ModelError(f"solve_nonlinear: {kind} {name!r} has non-finite {what}")
-    bad = np.flatnonzero(strain <= -1.0)
-    if bad.size:
-        raise ModelError(
-            f"solve_nonlinear: {kind} {name!r}: member {int(bad[0])} has a free strain "
-            f"{strain[bad[0]]:.6g} <= -1 (alpha dT + eps0), which leaves it no unstressed length"
-        )
-    return kind, f, factors, strain, up
-
-
 def _check_options(max_load_factor: float, initial_increment: float | None, **kw: float) -> None:
     if not (np.isfinite(max_load_factor) and max_load_factor > 0):
         raise ModelError(f"solve_nonlinear: max_load_factor = {max_load_factor!r}: must be > 0")
@@ -389,6 +355,7 @@ def solve_nonlinear(
     progress: Callable[[int, float], Any] | None = None,
     imperfection: float | None = None,
     imperfection_mode: int = 1,
+    solver: str = "auto",
 ) -> LoadPath:
     """Trace the large-displacement equilibrium path of one case or combination.
 
@@ -435,6 +402,10 @@ def solve_nonlinear(
         ``imperfection*`` attributes.
     imperfection_mode : int
         Which mode, 1 = the lowest.
+    solver : {"auto", "scipy", "pardiso"}
+        "auto" and "pardiso" factorise a positive definite tangent by
+        PARDISO's Cholesky where installed, any other by the symmetric sparse
+        LU that counts its negative pivots; "scipy" always uses that LU.
 
     Returns
     -------
@@ -457,12 +428,12 @@ def solve_nonlinear(
         max_steps=max_steps, max_iterations=max_iterations, max_cutbacks=max_cutbacks,
     )
     model.validate()
-    kind, f, factors, strain, up = _reference_load(model, case_or_combination)
+    kind, f, factors, strain, up = reference_load(model, case_or_combination)
     extra: dict[str, Any] = {}
     if imperfection is not None:
         model, extra = _imperfect(model, case_or_combination, kind, imperfection,
                                   imperfection_mode)
-    bars = Bars(model, f, strain, up)
+    bars = Bars(model, f, strain, up, solver)
     first = _first_state(model, bars, tolerance)
     ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations),
                    limit_tolerance=limit_tolerance)
@@ -477,7 +448,7 @@ def solve_nonlinear(
             end.tangent = first.tangent
             trace.steps.append(end)
             return trace.path()
-        if bars.imposed and _locked(bars, first):
+        if bars.imposed and bars.locked(first):
             return _load_control(bars, trace, incr0, ctl)
         first.rate = _rate(bars, first, None)
     except RuntimeError as exc:
@@ -537,20 +508,6 @@ def _imperfect(
     )
     return imperfect, {"imperfection": shape, "imperfection_amplitude": amplitude,
                        "imperfection_mode": mode, "notes": [note]}
-
-
-def _locked(bars: Bars, first: State) -> bool:
-    """Whether the load set moves no free direction at step 0 (none free, or all held)."""
-    if bars.nf == 0:
-        return True
-    first.tangent = bars.tangent(first)
-    moves = float(np.linalg.norm(first.tangent.solve(bars.load_rate(first))))
-    ref = float(np.linalg.norm(first.tangent.solve(bars.q))) if np.any(bars.q) else 0.0
-    if bars.strain is not None:
-        ref += float(np.abs(bars.strain * bars.L0).max())
-    if bars.settlement is not None:
-        ref += float(np.abs(bars.settlement).max())
-    return moves <= 1e-10 * ref
 
 
 def _load_control(bars: Bars, trace: _Trace, incr: float, ctl: _Control) -> LoadPath:
@@ -657,8 +614,18 @@ class _Trace:
         )
 
     def accept(self, pieces: list[State]) -> None:
-        """Append converged states and report the last one."""
+        """Append converged states and report the last one.
+
+        Only the last state's factorised tangent is needed from here on (the
+        next predictor); the others are released (their counts are kept).
+        """
+        for s in self.steps[-1:]:
+            if s.tangent is not None:
+                s.tangent.release()
         self.steps.extend(pieces)
+        for s in pieces[:-1]:
+            if s.tangent is not None:
+                s.tangent.release()
         if self.progress is not None:
             self.progress(len(self.steps) - 1, self.steps[-1].lam)
 
