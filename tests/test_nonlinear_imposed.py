@@ -160,3 +160,15 @@ def test_large_settlement_of_an_inclined_bar_on_a_spring() -> None:
                                rtol=1e-9)
     assert path.reactions[-1, 1, 2] == pytest.approx(-k * w[-1], rel=1e-9)
 
+
+
+def test_a_combination_scales_the_free_strain_by_its_factor() -> None:
+    """1.5 x (dT = 200 K) follows the curve of dT = 300 K (the closed form above)."""
+    L, k = 2.0, 1.0e7
+    m = heated_bar(L, 200.0, spring=k)
+    m.add_combination("1.5T", {"T": 1.5})
+    path = sf.solve_nonlinear(m, "1.5T")
+    eps = ALPHA * 300.0 * path.load_factors
+    u = EA * eps * L / (EA + k * L * (1.0 + eps))
+    np.testing.assert_allclose(path.displacements[:, 1, 0], u, rtol=1e-8, atol=0)
+    assert path.kind == "combination" and path.factors == {"T": 1.5}

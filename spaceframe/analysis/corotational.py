@@ -107,6 +107,10 @@ class _Cholesky(_PardisoFactor):
         A, scale = _scaled(sp.csr_matrix(K_upper))
         A.sort_indices()
         solver = self._solver
+        if not hasattr(solver, "_call_pardiso"):  # another pypardiso: analyse afresh
+            solver.free_memory(everything=True)
+            self.__init__(K_upper)  # type: ignore[misc]
+            return
         solver.set_phase(22)
         try:
             solver._call_pardiso(A, np.zeros((A.shape[0], 1)))
