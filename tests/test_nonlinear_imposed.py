@@ -43,6 +43,7 @@ def test_bar_between_two_supports_heated_carries_minus_ea_alpha_dt() -> None:
     path = sf.solve_nonlinear(heated_bar(3.0, dT), "T")
     lam = path.load_factors
     assert lam[-1] == 1.0 and path.n_steps == 21  # nothing free: equal increments
+    assert "load control" in path.notes[0]
     exact = -EA * ALPHA * dT * lam / (1.0 + ALPHA * dT * lam)
     np.testing.assert_allclose(path.axial_forces[:, 0], exact, rtol=1e-12, atol=0)
     # Small-strain limit, within its own relative error alpha dT.

@@ -514,6 +514,10 @@ def _load_control(bars: Bars, trace: _Trace, incr: float, ctl: _Control) -> Load
     """Equal load increments to ``max_load_factor``, Newton at each (module notes)."""
     target = trace.max_load_factor
     count = max(1, int(np.ceil(target / incr - 1e-9)))
+    trace.extra.setdefault("notes", []).append(
+        "the load moves no free direction at step 0: traced in equal load increments "
+        "(load control), which cannot pass a limit point"
+    )
     for k in range(1, count + 1):
         lam = target if k == count else k * incr
         s = _newton(bars, trace.steps[-1].uf, lam, ctl)

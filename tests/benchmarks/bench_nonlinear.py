@@ -2,7 +2,7 @@
 
     python tests/benchmarks/bench_nonlinear.py                       # both, best of 3
     python tests/benchmarks/bench_nonlinear.py --path-size 10k --tension-size 100k --check
-    python tests/benchmarks/bench_nonlinear.py --only path --repeat 5
+    python tests/benchmarks/bench_nonlinear.py --only path --repeat 5 --solver scipy
 
 Not collected by pytest; run on an otherwise idle machine.  The timed runs
 alternate with their reference (one linear static solve of the same grid), and
@@ -61,7 +61,7 @@ def braced_grid(members: int) -> tuple[sf.Model, np.ndarray]:
     return m, ids
 
 
-def bench_path(size: str, repeat: int) -> dict[str, float]:
+def bench_path(size: str, repeat: int, solver: str = "auto") -> dict[str, float]:
     """The roof load to load factor 1 from a first increment of 0.02.
 
     The arc length grows on an easy path, so the run takes fewer than 50
@@ -76,7 +76,7 @@ def bench_path(size: str, repeat: int) -> dict[str, float]:
         stamps = [time.perf_counter()]
         out["path"] = sf.solve_nonlinear(
             m, ROOF_CASE, max_load_factor=1.0, initial_increment=1.0 / INCREMENTS,
-            progress=lambda step, lam: stamps.append(time.perf_counter()),
+            progress=lambda step, lam: stamps.append(time.perf_counter()), solver=solver,
         )
         t = np.diff(stamps)
         mean = float(np.mean(t[1:]))
@@ -120,6 +120,8 @@ def main() -> None:
     ap.add_argument("--tension-size", default="100k")
     ap.add_argument("--only", choices=["path", "tension"])
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--solver", default="auto", help="the path's tangent solver (auto, scipy, "
+                    "pardiso); the linear solves use auto")
     ap.add_argument("--check", action="store_true", help="exit 1 when a target is missed")
     args = ap.parse_args()
     warnings.simplefilter("ignore", sf.SpaceframeWarning)  # the roof's large linear deflection
@@ -127,7 +129,7 @@ def main() -> None:
     double_layer_grid(2, 2).solve()
     rows = []
     if args.only in (None, "path"):
-        rows.append(bench_path(args.path_size, args.repeat))
+        rows.append(bench_path(args.path_size, args.repeat, args.solver))
     if args.only in (None, "tension"):
         rows.append(bench_tension(args.tension_size, args.repeat))
     if args.check and any(r["ratio"] > r["target"] for r in rows):
