@@ -291,9 +291,9 @@ def test_bad_requests_are_refused_in_one_line() -> None:
         sf.solve_nonlinear(m, "Q")
     with pytest.raises(sf.ModelError, match="max_load_factor"):
         sf.solve_nonlinear(m, "P", max_load_factor=0.0)
-    m.add_temperature("hot", [0], 30.0)
-    with pytest.raises(sf.ModelError, match="'hot' has temperature changes"):
-        sf.solve_nonlinear(m, "hot")
+    m.add_initial_strain("crush", [0], -1.0)
+    with pytest.raises(sf.ModelError, match="'crush': member 0 has a free strain -1 <= -1"):
+        sf.solve_nonlinear(m, "crush")
 
 
 def test_a_step_that_cannot_converge_fails_closed_with_the_path_so_far(dome: sf.Model) -> None:
@@ -356,6 +356,23 @@ def test_progress_reports_each_converged_step() -> None:
         assert lam == path.load_factors[k]
 
 
+def braced_strut(ell: float, k: float, p0: float) -> sf.Model:
+    """Two collinear bars 0-1-2 along z (length ell each), a lateral spring k at node 1.
+
+    Node 0 pinned, node 1 free in x and z, node 2 free in z only; load case
+    "P" pushes node 2 down by p0.
+    """
+    m = sf.Model()
+    m.add_nodes([[0, 0, 0], [0, 0, ell], [0, 0, 2 * ell]])
+    m.add_members([[0, 1], [1, 2]], area=AREA, E=E)
+    m.add_support([0])
+    m.add_support([1], x=False, y=True, z=False)
+    m.add_support([2], x=True, y=True, z=False)
+    m.add_spring([1], kx=k)
+    m.add_load("P", [2], (0.0, 0.0, -p0))
+    return m
+
+
 def test_branch_point_of_a_spring_braced_strut_is_located() -> None:
     """Two collinear bars of length l, a lateral spring k at the middle node.
 
@@ -371,15 +388,7 @@ def test_branch_point_of_a_spring_braced_strut_is_located() -> None:
     """
     ell, k, p0 = 1.0, 1.0e5, 1.0e5
     p_cr = (k * ell / 2) / (1 + k * ell / (2 * EA))
-    m = sf.Model()
-    m.add_nodes([[0, 0, 0], [0, 0, ell], [0, 0, 2 * ell]])
-    m.add_members([[0, 1], [1, 2]], area=AREA, E=E)
-    m.add_support([0])
-    m.add_support([1], x=False, y=True, z=False)
-    m.add_support([2], x=True, y=True, z=False)
-    m.add_spring([1], kx=k)
-    m.add_load("P", [2], (0.0, 0.0, -p0))
-    path = sf.solve_nonlinear(m, "P", limit_tolerance=1e-10)
+    path = sf.solve_nonlinear(braced_strut(ell, k, p0), "P", limit_tolerance=1e-10)
     assert path.limit_points.size == 0
     assert np.all(np.diff(path.load_factors) > 0)
     (b,) = path.bifurcation_points

@@ -164,3 +164,66 @@ def test_braced_panel_matches_the_linear_active_set_for_a_small_load() -> None:
     # The taut diagonal carries the shear: F sqrt(2) (statics of the panel).
     taut = 3 + int(np.flatnonzero(~lin.slack[3:])[0])
     assert path.axial_forces[-1, taut] == pytest.approx(f0 * np.sqrt(2), rel=1e-6)
+
+
+# Cable 0-1 along x from a node on two springs: slack first, taut later.
+B, KX, KY, FX, PY = 1.0, 1.0e5, 1.0e4, 1.0e3, 1.0e3
+
+
+def sprung_cable() -> sf.Model:
+    """Node 0 at the origin on springs kx, ky (z held), a tension-only cable to node 1 at (b, 0, 0).
+
+    Node 1 is pinned; the load (Fx, Py) acts at node 0.
+    """
+    m = sf.Model()
+    m.add_nodes([[0.0, 0, 0], [B, 0, 0]])
+    m.add_members([[0, 1]], area=AREA, E=E)
+    m.set_member_properties([0], tension_only=True)
+    m.add_support([1])
+    m.add_support([0], x=False, y=False, z=True)
+    m.add_spring([0], kx=KX, ky=KY)
+    m.add_load("F", [0], (FX, PY, 0.0))
+    return m
+
+
+def test_cable_pushed_slack_is_pulled_taut_by_the_sideways_sway() -> None:
+    """The load (Fx, Py) moves the node towards the anchor (shortening the cable)
+    and sideways (lengthening it to second order).
+
+    While slack the springs alone carry the load, exactly: u = lambda Fx/kx,
+    v = lambda Py/ky (springs keep their global directions).  The cable's
+    length is then sqrt((b - u)² + v²), back to its unstressed length b when
+    v² = 2 b u - u², i.e. at
+
+        lambda* = 2 b (Fx/kx) / ((Fx/kx)² + (Py/ky)²)
+
+    (derived here).  Below lambda* the cable is slack, above it taut (at step
+    0 it carries N = 0 and counts as taut).  Once taut the node balances springs,
+    load and N = EA (l - b)/b along the cable, checked from the traced positions.
+    """
+    ux, vy = FX / KX, PY / KY
+    lam_star = 2 * B * ux / (ux**2 + vy**2)
+    path = sf.solve_nonlinear(sprung_cable(), "F", max_load_factor=2 * lam_star)
+    lam = path.load_factors
+    assert lam[-1] == 2 * lam_star
+    clear = np.abs(lam - lam_star) > 1e-6 * lam_star
+    np.testing.assert_array_equal(path.slack[clear, 0], (lam > 0)[clear] & (lam < lam_star)[clear])
+    assert path.slack[:, 0].any() and not path.slack[-1, 0]
+    slack = path.slack[:, 0]
+    np.testing.assert_allclose(path.displacements[slack, 0, :2],
+                               np.column_stack([lam * ux, lam * vy])[slack], rtol=1e-9)
+    np.testing.assert_array_equal(path.axial_forces[slack, 0], 0.0)
+    # Taut: the cable carries N = EA (l - b)/b and the node balances.
+    u, v = path.displacements[:, 0, 0], path.displacements[:, 0, 1]
+    ell = np.hypot(B - u, v)
+    n_cable = np.where(ell > B, EA * (ell - B) / B, 0.0)
+    np.testing.assert_allclose(path.axial_forces[:, 0], n_cable, rtol=1e-9, atol=1e-9 * FX)
+    np.testing.assert_allclose(lam * FX - KX * u + n_cable * (B - u) / ell, 0.0,
+                               atol=1e-8 * FX)
+    np.testing.assert_allclose(lam * PY - KY * v - n_cable * v / ell, 0.0, atol=1e-8 * FX)
+    assert path.axial_forces[-1, 0] > 0.1 * FX
+    # Just short of lambda* the cable is still slack, just past it taut.
+    for stop, slack_end in ((0.999, True), (1.001, False)):
+        end = sf.solve_nonlinear(sprung_cable(), "F", max_load_factor=stop * lam_star)
+        assert end.slack[-1, 0] == slack_end
+        assert end.slack[1:-1, 0].all()

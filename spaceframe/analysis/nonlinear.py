@@ -27,7 +27,14 @@ and that point is inserted into the path.  Where the count of negative
 pivots of the tangent (from its factorisation, analysis.corotational)
 changes with no such sign change, a branch point (bifurcation) is passed; it
 is located by bisection in the arc length to the same tolerance and inserted
-too.  Branches are reported, not followed.  The path stops with a step that
+too.  On the perfect geometry branches are reported, not followed; with
+``imperfection=`` the nodes are first moved by that amplitude times a linear
+buckling mode of the case or combination (analysis.buckling on its linear
+static result, mode peak 1), so that the bifurcation becomes a smooth path
+along the branch, with a limit point just below the bifurcation load of an
+unstable (imperfection-sensitive) branch.  The imperfect geometry is the
+unstressed one (member lengths follow the moved nodes; a pretension must
+balance on it), and displacements are measured from it.  The path stops with a step that
 lands exactly on ``max_load_factor`` (load-controlled Newton from the
 interpolated state) the first time the load factor rises through it.
 
@@ -47,18 +54,33 @@ cable node on a straight line between supports) is accepted when it has
 pretension and its prestressed tangent stiffness at step 0 is positive
 definite.
 
+Temperature, initial strain and settlement
+------------------------------------------
+They are loads of the case or combination like its forces, scaled by the
+load factor: a free strain eps = alpha dT + eps0 lengthens a member's
+unstressed length to L0 (1 + lambda eps), and a settlement moves its
+restrained directions to lambda u_p (analysis.corotational).  The internal
+forces then depend on lambda, and the arc-length method uses the full
+derivative h = q - d f_int/d lambda of the out-of-balance force in place of
+the reference load q.  When such a load moves no free direction at step 0
+(every direction held, or held by symmetry, as for a bar heated between two
+supports), the arc length in displacements is not defined: the path then
+takes equal load increments (``initial_increment``) with Newton at each, and
+cannot pass a limit point.
+
 Results must be checked by a qualified engineer.
 """
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from spaceframe.analysis.corotational import Bars, State
+from spaceframe.analysis.corotational import Bars, State, reference_load
 from spaceframe.analysis.stability import check_stability
 from spaceframe.errors import MechanismError, ModelError, SolverError
 from spaceframe.results.path import STRAIN_MEASURE, LoadPath
@@ -99,7 +121,8 @@ class _Control:
 def _rate(bars: Bars, s: State, direction: np.ndarray | None) -> float:
     """Factorise the tangent at ``s`` and return d lambda/d s oriented along ``direction``."""
     s.tangent = bars.tangent(s)
-    dut = s.tangent.solve(bars.q)
+    dut = s.tangent.solve(bars.load_rate(s))
+    s.dut = dut
     norm = float(np.linalg.norm(dut))
     if not np.isfinite(norm) or norm == 0.0:
         raise RuntimeError("tangent solve failed")
@@ -116,8 +139,11 @@ def _arc_step(
     None when the step fails (the caller cuts back).
     """
     try:
-        assert start.tangent is not None
-        dut = start.tangent.solve(bars.q)
+        # Solved when the start's tangent was factorised (_rate): that
+        # factorisation need not be alive any more (analysis.corotational).
+        dut = start.dut
+        if dut is None:
+            raise RuntimeError("no tangent at the start of the step")
         du = dut * (dl / np.linalg.norm(dut))
         dlam = start.rate * dl
         if start.rate < 0:
@@ -134,7 +160,7 @@ def _arc_step(
             if it == ctl.max_iterations:
                 return None
             tan = bars.tangent(s)
-            sol = tan.solve(np.column_stack([-g, bars.q]))
+            sol = tan.solve(np.column_stack([-g, bars.load_rate(s)]))
             dur, dut = sol[:, 0], sol[:, 1]
             w = du + dur
             a1 = float(dut @ dut)
@@ -156,14 +182,8 @@ def _arc_step(
     return None
 
 
-def _land(
-    bars: Bars, a: State, b: State, target: float, ctl: _Control
-) -> State | None:
-    """Load-controlled Newton at ``target`` from the state interpolated between a and b."""
-    t = (target - a.lam) / (b.lam - a.lam)
-    guess = a.uf + t * (b.uf - a.uf)
-    reach = float(np.linalg.norm(b.uf - a.uf))
-    uf = guess
+def _newton(bars: Bars, uf: np.ndarray, target: float, ctl: _Control) -> State | None:
+    """Load-controlled Newton at load factor ``target`` from ``uf`` (None: no convergence)."""
     try:
         for it in range(ctl.max_iterations + 1):
             s = bars.state(uf, target)
@@ -171,11 +191,7 @@ def _land(
             if not np.isfinite(res):
                 return None
             if res <= ctl.tolerance:
-                # Must be the crossing on this stretch, not another equilibrium.
-                if np.linalg.norm(uf - guess) > reach + 1e-12 * (1.0 + reach):
-                    return None
                 s.residual, s.iterations = res, it
-                s.tangent = bars.tangent(s)
                 return s
             if it == ctl.max_iterations:
                 return None
@@ -183,6 +199,24 @@ def _land(
     except (RuntimeError, FloatingPointError, ZeroDivisionError):
         return None
     return None
+
+
+def _land(
+    bars: Bars, a: State, b: State, target: float, ctl: _Control
+) -> State | None:
+    """Load-controlled Newton at ``target`` from the state interpolated between a and b."""
+    t = (target - a.lam) / (b.lam - a.lam)
+    guess = a.uf + t * (b.uf - a.uf)
+    reach = float(np.linalg.norm(b.uf - a.uf))
+    s = _newton(bars, guess, target, ctl)
+    # Must be the crossing on this stretch, not another equilibrium.
+    if s is None or np.linalg.norm(s.uf - guess) > reach + 1e-12 * (1.0 + reach):
+        return None
+    try:
+        s.tangent = bars.tangent(s)
+    except (RuntimeError, FloatingPointError, ZeroDivisionError):
+        return None
+    return s
 
 
 def _negative(s: State) -> int:
@@ -292,36 +326,6 @@ def _advance(
 
 
 # -------------------------------------------------------------------- driver
-def _reference_load(model: Model, name: str) -> tuple[str, np.ndarray, dict[str, float]]:
-    """Kind, (3n,) reference force vector and factors of a case or combination."""
-    n, b = model.n_nodes, model.n_members
-    if name in model.cases:
-        kind, factors = "case", {name: 1.0}
-    elif name in model.combinations:
-        kind, factors = "combination", dict(model.combinations[name])
-    else:
-        known = ", ".join(sorted([*model.cases, *model.combinations])) or "none defined"
-        raise ModelError(f"solve_nonlinear: no load case or combination {name!r} (known: {known})")
-    f = np.zeros(3 * n)
-    for case, factor in factors.items():
-        lc = model.cases[case]
-        lc.resize(n, b)
-        for what, arr in (
-            ("temperature changes", lc.temperature),
-            ("initial strains", lc.initial_strain),
-            ("settlements", lc.settlement_mask),
-        ):
-            if np.any(arr):
-                raise ModelError(
-                    f"solve_nonlinear: load case {case!r} has {what}; the nonlinear analysis "
-                    "takes nodal forces only"
-                )
-        f += factor * lc.forces.ravel()
-    if not np.all(np.isfinite(f)):
-        raise ModelError(f"solve_nonlinear: {kind} {name!r} has non-finite loads")
-    return kind, f, factors
-
-
 def _check_options(max_load_factor: float, initial_increment: float | None, **kw: float) -> None:
     if not (np.isfinite(max_load_factor) and max_load_factor > 0):
         raise ModelError(f"solve_nonlinear: max_load_factor = {max_load_factor!r}: must be > 0")
@@ -349,6 +353,9 @@ def solve_nonlinear(
     max_cutbacks: int = 12,
     limit_tolerance: float = 1.0e-9,
     progress: Callable[[int, float], Any] | None = None,
+    imperfection: float | None = None,
+    imperfection_mode: int = 1,
+    solver: str = "auto",
 ) -> LoadPath:
     """Trace the large-displacement equilibrium path of one case or combination.
 
@@ -359,8 +366,8 @@ def solve_nonlinear(
     Parameters
     ----------
     model : Model
-        Nodal forces only (temperature, initial strain or settlement in the
-        chosen cases raise ModelError).  Its ``pretension`` and
+        Nodal forces, temperature, initial strain and settlement of the
+        chosen cases are all scaled by the load factor (module notes).  Its ``pretension`` and
         ``tension_only`` member arrays are honoured (module notes).  Supports and springs as in the
         linear analysis; springs keep their global directions.
     case_or_combination : str
@@ -384,6 +391,21 @@ def solve_nonlinear(
         branch point.
     progress : callable, optional
         Called as ``progress(step, load_factor)`` after each converged step.
+    imperfection : float, optional
+        Amplitude, m: trace the path on a geometry whose nodes are moved by
+        this times linear buckling mode ``imperfection_mode`` of the case or
+        combination (``linear_buckling`` of its linear static result; the
+        mode's largest nodal movement is 1, its sign as that analysis gives
+        it: a negative amplitude reverses it).  The path then follows the
+        branch that grows from the bifurcation instead of only detecting it
+        (module notes).  The result says so in ``notes`` and its
+        ``imperfection*`` attributes.
+    imperfection_mode : int
+        Which mode, 1 = the lowest.
+    solver : {"auto", "scipy", "pardiso"}
+        "auto" and "pardiso" factorise a positive definite tangent by
+        PARDISO's Cholesky where installed, any other by the symmetric sparse
+        LU that counts its negative pivots; "scipy" always uses that LU.
 
     Returns
     -------
@@ -406,25 +428,32 @@ def solve_nonlinear(
         max_steps=max_steps, max_iterations=max_iterations, max_cutbacks=max_cutbacks,
     )
     model.validate()
-    kind, f, factors = _reference_load(model, case_or_combination)
-    bars = Bars(model, f)
+    kind, f, factors, strain, up = reference_load(model, case_or_combination)
+    extra: dict[str, Any] = {}
+    if imperfection is not None:
+        model, extra = _imperfect(model, case_or_combination, kind, imperfection,
+                                  imperfection_mode)
+    bars = Bars(model, f, strain, up, solver)
     first = _first_state(model, bars, tolerance)
     ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations),
                    limit_tolerance=limit_tolerance)
-    trace = _Trace(bars, kind, case_or_combination, factors, max_load_factor, progress, [first])
+    trace = _Trace(bars, kind, case_or_combination, factors, max_load_factor, progress, [first],
+                   extra=extra)
+    incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
     try:
-        if not np.any(bars.q):
+        if not (np.any(bars.q) or bars.imposed):
             # No load on a free direction: equilibrium stays at the drawn shape.
             first.tangent = bars.tangent(first)
             end = bars.state(np.zeros(bars.nf), max_load_factor)
             end.tangent = first.tangent
             trace.steps.append(end)
             return trace.path()
+        if bars.imposed and bars.locked(first):
+            return _load_control(bars, trace, incr0, ctl)
         first.rate = _rate(bars, first, None)
     except RuntimeError as exc:
         raise trace.fail(f"could not factorise the unloaded tangent stiffness ({exc})") from exc
 
-    incr0 = max_load_factor / 20.0 if initial_increment is None else float(initial_increment)
     dl0 = incr0 / abs(first.rate)
     # Longest arc: a few default first steps, however small the first one was.
     dl_max = _MAX_GROWTH * max(dl0, max_load_factor / 20.0 / abs(first.rate))
@@ -447,6 +476,60 @@ def solve_nonlinear(
             return trace.path()
         direction = pieces[-1].uf - start.uf
         arc.adapt(pieces[-1].iterations)
+
+
+def _imperfect(
+    model: Model, name: str, kind: str, amplitude: float, mode: Any
+) -> tuple[Model, dict[str, Any]]:
+    """The model on imperfect geometry: nodes + amplitude x buckling mode (module notes)."""
+    from spaceframe.analysis.buckling import linear_buckling
+
+    amplitude = float(amplitude)
+    if not np.isfinite(amplitude):
+        raise ModelError(f"solve_nonlinear: imperfection = {amplitude!r}: must be a finite "
+                         "length in m")
+    if isinstance(mode, bool) or not isinstance(mode, (int, np.integer)) or mode < 1:
+        raise ModelError(f"solve_nonlinear: imperfection_mode = {mode!r}: must be an integer "
+                         ">= 1 (1 = the lowest buckling mode)")
+    mode = int(mode)
+    buckling = linear_buckling(model, model.solve()[name], n_modes=mode)
+    if buckling.factors.size < mode:
+        raise ModelError(
+            f"solve_nonlinear: imperfection_mode = {mode}: {kind} {name!r} has only "
+            f"{buckling.factors.size} linear buckling mode(s)"
+        )
+    shape = amplitude * buckling.modes[mode - 1]
+    imperfect = copy.copy(model)
+    imperfect.nodes = model.nodes + shape
+    note = (
+        f"traced on imperfect geometry: nodes moved by {amplitude:.6g} m times linear "
+        f"buckling mode {mode} of {kind} {name!r} (load factor "
+        f"{float(buckling.factors[mode - 1]):.6g}); displacements are measured from it"
+    )
+    return imperfect, {"imperfection": shape, "imperfection_amplitude": amplitude,
+                       "imperfection_mode": mode, "notes": [note]}
+
+
+def _load_control(bars: Bars, trace: _Trace, incr: float, ctl: _Control) -> LoadPath:
+    """Equal load increments to ``max_load_factor``, Newton at each (module notes)."""
+    target = trace.max_load_factor
+    count = max(1, int(np.ceil(target / incr - 1e-9)))
+    trace.extra.setdefault("notes", []).append(
+        "the load moves no free direction at step 0: traced in equal load increments "
+        "(load control), which cannot pass a limit point"
+    )
+    for k in range(1, count + 1):
+        lam = target if k == count else k * incr
+        s = _newton(bars, trace.steps[-1].uf, lam, ctl)
+        if s is None:
+            raise trace.fail(f"did not converge at load factor {lam:.6g} (load control)")
+        if bars.nf:
+            try:
+                s.tangent = bars.tangent(s)
+            except RuntimeError as exc:
+                raise trace.fail(f"could not factorise the tangent stiffness ({exc})") from exc
+        trace.accept([s])
+    return trace.path()
 
 
 def _first_state(model: Model, bars: Bars, tolerance: float) -> State:
@@ -518,11 +601,12 @@ class _Trace:
     progress: Callable[[int, float], Any] | None
     steps: list[State]
     cutbacks: int = 0
+    extra: dict[str, Any] = field(default_factory=dict)
 
     def path(self) -> LoadPath:
         """The steps so far as a LoadPath."""
         return _make_path(self.bars, self.steps, self.kind, self.name, self.factors,
-                          self.max_load_factor, self.cutbacks)
+                          self.max_load_factor, self.cutbacks, self.extra)
 
     def fail(self, text: str) -> PathError:
         """A PathError for the step after the last converged one, holding the path so far."""
@@ -534,8 +618,18 @@ class _Trace:
         )
 
     def accept(self, pieces: list[State]) -> None:
-        """Append converged states and report the last one."""
+        """Append converged states and report the last one.
+
+        Only the last state's factorised tangent is needed from here on (the
+        next predictor); the others are released (their counts are kept).
+        """
+        for s in self.steps[-1:]:
+            if s.tangent is not None:
+                s.tangent.release()
         self.steps.extend(pieces)
+        for s in pieces[:-1]:
+            if s.tangent is not None:
+                s.tangent.release()
         if self.progress is not None:
             self.progress(len(self.steps) - 1, self.steps[-1].lam)
 
@@ -564,11 +658,11 @@ def _make_path(
     factors: dict[str, float],
     max_load_factor: float,
     cutbacks: int,
+    extra: dict[str, Any],
 ) -> LoadPath:
     n = bars.n
     lam = np.array([s.lam for s in steps])
-    U = np.zeros((len(steps), 3 * n))
-    U[:, bars.free] = np.array([s.uf for s in steps]).reshape(len(steps), bars.nf)
+    U = np.array([bars.displacements(s.uf, s.lam) for s in steps]).reshape(len(steps), 3 * n)
     N = np.array([s.N for s in steps])
     R = np.array([bars.reactions(s) for s in steps])
     for what, arr in (("load factors", lam), ("displacements", U), ("axial forces", N),
@@ -600,4 +694,5 @@ def _make_path(
              for s in steps], dtype=bool,
         ).reshape(len(steps), bars.members.shape[0]),
         factors=dict(factors),
+        **{"imperfection": np.zeros((n, 3)), **copy.deepcopy(extra)},
     )

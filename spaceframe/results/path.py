@@ -57,6 +57,16 @@ class LoadPath:
     strain_measure : str
     factors : dict
         For a combination, its case factors.
+    imperfection : (n, 3) float
+        Node offsets, m, of the imperfect geometry the path was traced on
+        (``solve_nonlinear(imperfection=...)``); zeros for the drawn
+        geometry.  Displacements are measured from the nodes plus these.
+    imperfection_amplitude : float
+        Largest node offset, m (0: perfect geometry).
+    imperfection_mode : int
+        Linear buckling mode (1 = lowest) the offsets follow (0: none).
+    notes : list of str
+        Remarks on how the path was traced (say, on imperfect geometry).
     """
 
     #: The analysis that made the result (every result kind has one).
@@ -78,6 +88,10 @@ class LoadPath:
     slack: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=bool))
     strain_measure: str = STRAIN_MEASURE
     factors: dict[str, float] = field(default_factory=dict)
+    imperfection: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))
+    imperfection_amplitude: float = 0.0
+    imperfection_mode: int = 0
+    notes: list[str] = field(default_factory=list)
 
     @property
     def n_steps(self) -> int:
