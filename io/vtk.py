@@ -55,7 +55,7 @@ if TYPE_CHECKING:
     from spaceframe.results import Results
 
 __all__ = ["UNITS", "decode_text", "encode_text", "group_legend", "member_grid", "panel_grid",
-           "write", "write_modes", "write_path"]
+           "write", "write_determinacy", "write_modes", "write_path"]
 
 #: Units of the arrays written, also stored in each file's field data.
 UNITS: dict[str, str] = {
@@ -591,3 +591,60 @@ def write_path(
             _save(grid, tmp, binary)
             series.entries.append((k, 0, file, f"{load_path.name} step {k}"))
     return pvd
+
+
+def write_determinacy(
+    folder: str | os.PathLike[str], model: Model, det: Any, *, binary: bool = True
+) -> list[Path]:
+    """Write the mechanisms and states of self-stress of a frame as two VTK series.
+
+    ``det`` is :func:`spaceframe.determinacy`'s result with its bases.
+    ``mechanisms.pvd`` steps through ``mechanism_mode<k>.vtu`` (point data
+    ``mode_shape``, largest nodal movement 1, no unit: warp by it, or animate
+    its amplitude, to see the frame move without any member changing length);
+    ``self_stress.pvd`` through ``self_stress_state<k>.vtu`` (cell data
+    ``self_stress``, member forces in equilibrium with no load, largest 1, no
+    unit: colour the members by it).  Field data ``mode_kind`` and
+    ``mode_number`` in each.  Either series is left out when there is nothing
+    in it.
+
+    Raises
+    ------
+    WriteError
+        When the bases were not computed (``det.note`` says why) or do not fit
+        the model.
+    """
+    target = Path(folder)
+    mech, states = det.mechanism_modes, det.self_stress_states
+    if (det.mechanisms and mech is None) or (det.self_stress and states is None):
+        raise WriteError(f"VTK output {target}: the mechanisms and states of self-stress were "
+                         f"counted but not computed ({det.note or 'bases not asked for'})")
+    n, b = model.n_nodes, model.n_members
+    mech = np.zeros((0, n, 3)) if mech is None else np.asarray(mech, dtype=float)
+    states = np.zeros((0, b)) if states is None else np.asarray(states, dtype=float)
+    if mech.shape[1:] != (n, 3) or states.shape[1:] != (b,):
+        raise WriteError(f"VTK output {target}: the bases do not fit a model of {n} nodes "
+                         f"and {b} members")
+    target.mkdir(parents=True, exist_ok=True)
+    written: list[Path] = []
+    for pvd, kind, base, arrays in (
+        ("mechanisms.pvd", "mechanism", "mechanism_mode", mech),
+        ("self_stress.pvd", "self-stress state", "self_stress_state", states),
+    ):
+        if not arrays.shape[0]:
+            continue
+        with _Series(target / pvd) as series:
+            for k, values in enumerate(arrays, start=1):
+                file = series.unique(f"{base}{k}")
+                tmp = series.stage(target / file)
+                grid = _line_grid(model)
+                if kind == "mechanism":
+                    grid.point_data["mode_shape"] = values
+                else:
+                    grid.cell_data["self_stress"] = values
+                _set_text(grid, "mode_kind", kind)
+                grid.field_data["mode_number"] = np.array([k], dtype=np.int64)
+                _save(grid, tmp, binary)
+                series.entries.append((k - 1, 0, file, f"{kind} {k}"))
+        written += [final for _, final in series.done]
+    return written

@@ -76,6 +76,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the report as JSON")
     p.add_argument("--quick", action="store_true",
                    help="cheap stability checks only, without factorising the stiffness")
+    p.add_argument("--write-modes", type=Path, metavar="DIR",
+                   help="write the mechanisms and states of self-stress found as VTK series "
+                        "into DIR (mechanisms.pvd, self_stress.pvd)")
     no_cache(p)
 
     p = command("run", "solve a model file and write the results folder", "model file (.toml)")
@@ -228,6 +231,9 @@ def _print_check(out: _Printer, rep: Any, as_json: bool) -> None:
         out.line(f"determinacy: {plural(d['mechanisms'], 'mechanism')}, "
                  f"{plural(d['self_stress'], 'state')} of self-stress (supports only; springs "
                  "do not count)")
+        if "files" in d:
+            out.line(f"determinacy: wrote {len(d['files'])} files" if d["files"]
+                     else f"determinacy: {d['files_note']}")
     if rep.stable is None:
         out.line(f"stability: {rep.mechanism}")
     elif rep.stable:
@@ -281,7 +287,7 @@ def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
         rep = job.check(args.model, progress=progress, units=args.units,
                           edges_as_members=args.edges_as_members,
                           override_units=args.override_units, quick=args.quick,
-                          cache=not args.no_cache)
+                          cache=not args.no_cache, modes_folder=args.write_modes)
     # Readers advise the Python keyword; on the command line it is an option.
     rep.warnings = [w.replace("edges_as_members=True", "--edges-as-members")
                     for w in rep.warnings]

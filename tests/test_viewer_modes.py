@@ -81,3 +81,17 @@ def test_bad_modes_are_refused(modes) -> None:
         viewer.mode_results(res, [])
     with pytest.raises(sf.ModelError, match=r"expected \(4, 3\)"):
         viewer.mode_results(res, [("bad", np.zeros((3, 3)))])
+
+
+def test_a_mechanism_is_drawn_from_the_model_alone() -> None:
+    # A tripod without its apex load is fine; with two feet free it is a mechanism whose
+    # modes come from determinacy, with no static result to draw on.
+    m = loaded_tripod()
+    m.restraint[1:3] = False
+    d = sf.determinacy(m)
+    assert d.mechanisms > 0 and d.mechanism_modes is not None
+    shown = viewer.mode_results(m, [(f"mechanism {k + 1}", s)
+                                    for k, s in enumerate(d.mechanism_modes)])
+    assert len(shown) == d.mechanisms
+    for r in shown.values():  # a mechanism stretches no member (to round-off)
+        assert np.abs(r.axial_forces).max() < 1e-9

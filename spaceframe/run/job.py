@@ -144,14 +144,31 @@ def _components(model: Model) -> int:
     return int(np.unique(labels[used]).size)
 
 
+def _write_determinacy(folder: Path, model: Model, d: Any) -> dict[str, Any]:
+    """The mechanism and self-stress files of ``check --write-modes``, or why there are none."""
+    if (d.mechanisms and d.mechanism_modes is None) or (
+            d.self_stress and d.self_stress_states is None):
+        return {"files": [], "files_note": f"not written: {d.note}"}
+    if not (d.mechanisms or d.self_stress):
+        return {"files": [], "files_note": "no mechanism and no state of self-stress to write"}
+    from spaceframe.io import vtk
+
+    return {"files": [str(p) for p in vtk.write_determinacy(folder, model, d)]}
+
+
 def check(
     path: str | os.PathLike[str], progress: Progress = _noop, units: str | None = None,
     edges_as_members: bool = False,
     override_units: bool = False,
     quick: bool = False,
     cache: bool = False,
+    modes_folder: str | os.PathLike[str] | None = None,
 ) -> CheckReport:
     """Read, heal, validate and diagnose stability without solving.
+
+    ``modes_folder``: also write the mechanisms and states of self-stress
+    found (:func:`spaceframe.io.vtk.write_determinacy`) into that folder;
+    their files are listed in the report's ``determinacy["files"]``.
 
     The stability test is the one a run relies on (cheap checks, stiffness
     ratio, factorisation of the stiffness); ``quick`` keeps to the cheap
@@ -215,11 +232,14 @@ def check(
         from spaceframe.errors import SpaceframeError
 
         try:
-            d = determinacy(m, modes=False)
+            d = determinacy(m, modes=modes_folder is not None)
             det = {"mechanisms": int(d.mechanisms), "self_stress": int(d.self_stress),
                    "method": d.method}
         except SpaceframeError as exc:
             det = {"note": str(exc)}
+        else:
+            if modes_folder is not None:
+                det.update(_write_determinacy(Path(modes_folder), m, d))
     cases = {
         name: {"Fx": float(lc.forces[:, 0].sum()), "Fy": float(lc.forces[:, 1].sum()),
                "Fz": float(lc.forces[:, 2].sum())}

@@ -22,6 +22,7 @@ from spaceframe.errors import ModelError
 from spaceframe.viewer.scene import FrameScene, Writer
 
 if TYPE_CHECKING:
+    from spaceframe.model import Model
     from spaceframe.results import Results
 
 __all__ = ["DEFAULT_AMPLITUDE", "ModeScene", "mode_pictures", "mode_results", "show_modes"]
@@ -30,8 +31,12 @@ __all__ = ["DEFAULT_AMPLITUDE", "ModeScene", "mode_pictures", "mode_results", "s
 DEFAULT_AMPLITUDE = 0.05
 
 
-def mode_results(results: Results, modes: Sequence[tuple[str, Any]]) -> Results:
+def mode_results(results: Results | Model, modes: Sequence[tuple[str, Any]]) -> Results:
     """Mode shapes as drawable results of kind "mode", one per ``(label, shape)``.
+
+    ``results`` gives the model (a Model itself will do: a mechanism has no
+    static results, and its modes from :func:`spaceframe.determinacy` are
+    drawn the same way).
 
     ``shape`` is (n_nodes, 3), scaled to a largest movement of 1 (as
     :func:`spaceframe.linear_buckling` and :func:`spaceframe.natural_frequencies`
@@ -41,7 +46,7 @@ def mode_results(results: Results, modes: Sequence[tuple[str, Any]]) -> Results:
     """
     from spaceframe.results import CaseResult, Results
 
-    model = results.model
+    model: Model = results.model if isinstance(results, Results) else results
     if not modes:
         raise ModelError("viewer: there are no mode shapes to show")
     zeros = np.zeros((model.n_nodes, 3))
@@ -60,7 +65,7 @@ def mode_results(results: Results, modes: Sequence[tuple[str, Any]]) -> Results:
             reactions=zeros, loads=zeros, elongations=stretch, residual=0.0,
             area=np.ones(model.n_members),
         )
-    return Results(model, items, results.solver, results.timings, results.info)
+    return Results(model, items, getattr(results, "solver", ""))
 
 
 class ModeScene(FrameScene):
@@ -122,7 +127,7 @@ class ModeScene(FrameScene):
         )
 
 
-def show_modes(results: Results, modes: Sequence[tuple[str, Any]], **options: Any) -> None:
+def show_modes(results: Results | Model, modes: Sequence[tuple[str, Any]], **options: Any) -> None:
     """Open a window on the mode shapes, with a slider for their amplitude.
 
     Keys and the result slider step through the modes as through results.
@@ -133,7 +138,7 @@ def show_modes(results: Results, modes: Sequence[tuple[str, Any]], **options: An
 
 def mode_pictures(
     folder: str | os.PathLike[str],
-    results: Results,
+    results: Results | Model,
     modes: Sequence[tuple[str, Any]],
     *,
     views: Sequence[str] = ("iso",),
