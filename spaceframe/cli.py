@@ -365,16 +365,14 @@ def _analysis_lines(block: dict[str, Any]) -> list[str]:
 
 def _nonlinear_lines(block: dict[str, Any]) -> list[str]:
     """One line per load path of a run: limit points, where it ended, slack members."""
+    from spaceframe.project.analysis import path_phrases
+
     lines = []
     for name, r in block.get("results", {}).items():
         if "limit_points" not in r:
             lines.append(f"nonlinear {name}: no load path ({r['stopped']})")
             continue
-        limits = ", ".join(f"{x['load_factor']:.4g} (step {x['step']})"
-                           for x in r["limit_points"])
-        said = f"limit load factor {limits}" if limits else "no limit point"
-        end = (f"stopped at load factor {r['final_load_factor']:.4g}: {r['stopped']}"
-               if r["stopped"] else f"reached load factor {r['final_load_factor']:.4g}")
+        said, end = path_phrases(r)
         lines.append(f"nonlinear {name}: {said}; {end} in {r['steps']} steps; "
                      f"{r['slack']['count']} members slack at the end")
     return lines

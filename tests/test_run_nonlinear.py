@@ -197,6 +197,6 @@ def test_the_command_line_says_the_limit_load_factor(tmp_path, capsys):
                  "--no-pictures"]) == 0
     line = next(t for t in capsys.readouterr().out.splitlines() if t.startswith("nonlinear P:"))
     # The closed-form limit load (limit_load() above) as a factor on the case's load.
-    lam = float(line.split("limit load factor ")[1].split(" ")[0])
+    lam = float(line.split("a limit load factor of ")[1].split(" ")[0])
     assert lam == pytest.approx(limit_load() / (LOAD * 1e3), rel=1e-3)
     assert "reached load factor 1" in line

@@ -438,3 +438,20 @@ def run_nonlinear(spec: AnalysisSpec, model: Any,
         block[name] = _path_entry(t, chosen)
         traced.append(t)
     return {"method": NONLINEAR_METHOD, "results": block}, traced
+
+
+def path_phrases(entry: dict[str, Any]) -> tuple[str, str]:
+    """A load path's summary entry in words: its limit points, and where it ended.
+
+    For the command line and the report alike, e.g. ("a limit load factor of
+    1.23 at step 5; then -1.23 at step 9", "reached load factor 1").
+    """
+    from spaceframe.results.summary import format_number
+
+    said = "; then ".join(f"{format_number(x['load_factor'])} at step {x['step']}"
+                          for x in entry["limit_points"])
+    said = f"a limit load factor of {said}" if said else "no limit point"
+    at = f"load factor {format_number(entry['final_load_factor'])}"
+    end = f"stopped early at {at}: {entry['stopped']}" if entry["stopped"] else f"reached {at}"
+    return said, end
+

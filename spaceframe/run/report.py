@@ -394,16 +394,14 @@ def _analysis_section(a: Mapping[str, Any]) -> str:
 
 def _nonlinear_section(block: Mapping[str, Any], figures: list[str]) -> str:
     """The load paths of [analysis.nonlinear]: limit points in words, the plots, the caution."""
+    from spaceframe.project.analysis import path_phrases
+
     parts = ["<h2>Nonlinear analysis</h2>", f"<p>Large displacements: a {_e(block['method'])}.</p>"]
     for name, r in block["results"].items():
         if "limit_points" not in r:
             parts.append(f"<p>{_e(name)}: no load path: {_e(r['stopped'])}.</p>")
             continue
-        said = "; then ".join(f"{format_number(x['load_factor'])} at step {x['step']}"
-                              for x in r["limit_points"])
-        said = f"a limit load factor of {said}" if said else "no limit point"
-        at = f"load factor {format_number(r['final_load_factor'])}"
-        end = f"stopped early at {at}: {r['stopped']}" if r["stopped"] else f"reached {at}"
+        said, end = path_phrases(r)
         u, slack = r["max_displacement"], r["slack"]["count"]
         parts.append(f"<p>{_e(name)}: {_e(said)}; {r['steps']} steps, {_e(end)}. Largest "
                      f"displacement at the last step {format_number(u['value'] * 1e3)} mm (node "
