@@ -95,3 +95,28 @@ def test_a_mechanism_is_drawn_from_the_model_alone() -> None:
     assert len(shown) == d.mechanisms
     for r in shown.values():  # a mechanism stretches no member (to round-off)
         assert np.abs(r.axial_forces).max() < 1e-9
+
+
+def test_a_state_of_self_stress_is_drawn_as_member_colours(tmp_path: Path) -> None:
+    # A doubly braced square (test_check_modes.py derives its state: sides ∓1/√2, diagonals
+    # ±1), held in its plane: one state of self-stress.
+    m = sf.Model()
+    m.add_nodes([[0, 0, 0], [3, 0, 0], [3, 3, 0], [0, 3, 0]])
+    m.add_members([[0, 1], [1, 2], [2, 3], [3, 0], [0, 2], [1, 3]], area=1e-3, E=210e9)
+    m.add_support([0])
+    m.add_support([1], x=False)
+    m.add_support([2, 3], x=False, y=False)
+    d = sf.determinacy(m)
+    shown = viewer.self_stress_results(m, d.self_stress_states)
+    assert list(shown) == ["self-stress state 1"]
+    scene = viewer.ModeScene(shown, off_screen=True, window_size=SIZE)
+    try:
+        assert scene.amplitude == 0.0  # nothing moves: the frame is drawn as it stands
+        assert scene._bar_title()[0].startswith("Self-stress state")
+        t = shown["self-stress state 1"].axial_forces
+        assert scene.clim == pytest.approx((-np.abs(t).max(), np.abs(t).max()))
+        scene.save(tmp_path / "s.png")
+    finally:
+        scene.close()
+    with pytest.raises(sf.ModelError, match="expected"):
+        viewer.self_stress_results(m, np.zeros((1, 3)))

@@ -18,7 +18,13 @@ node shows its figures.  Mode shapes (buckling, vibration) are shown by
 """
 
 from spaceframe.results.summary import auto_scale
-from spaceframe.viewer.modes import ModeScene, mode_pictures, mode_results, show_modes
+from spaceframe.viewer.modes import (
+    ModeScene,
+    mode_pictures,
+    mode_results,
+    self_stress_results,
+    show_modes,
+)
 from spaceframe.viewer.pictures import (
     PICTURE_CHOICES,
     screenshot,
@@ -63,6 +69,7 @@ __all__ = [
     "screenshot",
     "screenshots",
     "select_cases",
+    "self_stress_results",
     "show",
     "show_modes",
     "with_envelopes",

@@ -25,7 +25,8 @@ if TYPE_CHECKING:
     from spaceframe.model import Model
     from spaceframe.results import Results
 
-__all__ = ["DEFAULT_AMPLITUDE", "ModeScene", "mode_pictures", "mode_results", "show_modes"]
+__all__ = ["DEFAULT_AMPLITUDE", "ModeScene", "mode_pictures", "mode_results",
+           "self_stress_results", "show_modes"]
 
 #: Drawn amplitude of a mode, as a fraction of the model size, until the slider moves it.
 DEFAULT_AMPLITUDE = 0.05
@@ -68,6 +69,28 @@ def mode_results(results: Results | Model, modes: Sequence[tuple[str, Any]]) -> 
     return Results(model, items, getattr(results, "solver", ""))
 
 
+def self_stress_results(model: Model, states: Any) -> Results:
+    """States of self-stress as drawable results of kind "self-stress": member colours only.
+
+    ``states`` is (s, b), as :func:`spaceframe.determinacy` gives them (member
+    forces in equilibrium with no load, each scaled to a largest of 1).
+    Drawn by :class:`ModeScene`, the members are coloured by the state's force
+    (tension +) on the undeformed frame.
+    """
+    from spaceframe.results import CaseResult, Results
+
+    t = np.asarray(states, dtype=float)
+    if t.ndim != 2 or t.shape[1] != model.n_members or not t.shape[0]:
+        raise ModelError(f"viewer: states of self-stress of shape {t.shape}: expected "
+                         f"(s, {model.n_members}) with s >= 1")
+    zeros = np.zeros((model.n_nodes, 3))
+    items = {f"self-stress state {k + 1}": CaseResult(
+        name=f"self-stress state {k + 1}", kind="self-stress", displacements=zeros,
+        axial_forces=t[k], reactions=zeros, loads=zeros, elongations=np.zeros(model.n_members),
+        residual=0.0, area=np.ones(model.n_members)) for k in range(t.shape[0])}
+    return Results(model, items)
+
+
 class ModeScene(FrameScene):
     """A :class:`FrameScene` of mode shapes, drawn at an amplitude (metres).
 
@@ -90,6 +113,8 @@ class ModeScene(FrameScene):
 
     def _bar_title(self) -> tuple[str, str]:
         if self.color_by == "axial_force":
+            if self.results[self._first].kind == "self-stress":
+                return "Self-stress state [-] (tension +)", "coolwarm"
             return "Stretch in the mode [-] (lengthens +)", "coolwarm"
         return super()._bar_title()
 

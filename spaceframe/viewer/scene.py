@@ -418,8 +418,8 @@ class FrameScene(Interaction):
             self._hide("undeformed")
         self._draw_supports()
         self._draw_loads()
-        kind = {"combination": "combination", "envelope": "envelope",
-                "mode": "mode shape"}.get(res.kind, "load case")
+        kind = {"combination": "combination", "envelope": "envelope", "mode": "mode shape",
+                "self-stress": "no load"}.get(res.kind, "load case")
         shape = f"deformed x{format_number(self.scale, 3)}" if self.scale > 0 else "undeformed"
         if res.kind == "mode":
             shape = f"amplitude {format_number(self.scale, 3)} m"
