@@ -10,6 +10,9 @@ forces before buckling, so it can overestimate the strength of shallow,
 imperfection-sensitive frames (domes, shallow trusses) — a second-order
 analysis is the check there.  Results must be checked by a qualified engineer.
 
+:func:`linear_buckling_many` does several results of one model with one
+factorisation of K_E.
+
 Decision for a result without compression: tension only stiffens a frame,
 so there is no positive factor; :func:`linear_buckling` raises ModelError
 with one line saying so (or, with ``negative=True``, returns no positive
@@ -20,6 +23,7 @@ supports).
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -34,12 +38,12 @@ from spaceframe.analysis.matrices import elastic_stiffness, free_dof_map, geomet
 from spaceframe.analysis.stability import check_stability
 from spaceframe.errors import ModelError
 from spaceframe.results.modes import BucklingResult
-from spaceframe.solvers import resolve_backend
+from spaceframe.solvers import Factor, resolve_backend
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
 
-__all__ = ["BucklingResult", "linear_buckling"]
+__all__ = ["BucklingResult", "linear_buckling", "linear_buckling_many"]
 
 
 def axial_forces_of(
@@ -111,25 +115,83 @@ def linear_buckling(
     MechanismError
         If the frame is a mechanism (its elastic stiffness is singular).
     """
+    return linear_buckling_many(model, [result], n_modes, negative=negative, solver=solver)[0]
+
+
+def linear_buckling_many(
+    model: Model,
+    results: Iterable[Any],
+    n_modes: int = 6,
+    *,
+    negative: bool = False,
+    solver: str = "auto",
+) -> list[BucklingResult]:
+    """Linear buckling of several static results of one model, K_E factorised once.
+
+    Each result's factors and modes are those :func:`linear_buckling` gives
+    it; the elastic stiffness is assembled and factorised once for all of
+    them (only each result's geometric stiffness and shifted factorisation
+    are its own).  Every result is checked before anything is factorised, so
+    a result without compression fails at once with the same error.
+
+    Parameters
+    ----------
+    model : Model
+    results : iterable of CaseResult or (b,) float
+        Results of ``model`` (cases, combinations) or member axial forces.
+    n_modes, negative, solver
+        As for :func:`linear_buckling`.
+
+    Returns
+    -------
+    list of BucklingResult
+        One per result, in the order given.
+    """
     model.validate()
     backend = resolve_backend(solver)
-    name, N = axial_forces_of(model, result)
-    n_comp = int(np.count_nonzero(N < 0))
-    n_tens = int(np.count_nonzero(N > 0))
-    if n_comp == 0 and not (negative and n_tens):
-        raise ModelError(
-            f"linear_buckling: result {name!r} has no member in compression, so it has no "
-            "buckling factor (tension only stiffens the frame)"
-        )
+    checked = [_compression(model, r, negative) for r in results]
+    if not checked:
+        return []
     check_stability(model)
     dof_map, free = free_dof_map(model.restraint)
     k = mode_count(n_modes, free.size)
     args = (model.members, model.n_nodes, model.directions)
     K = elastic_stiffness(*args, model.axial_stiffness, springs=model.springs,
                           dof_map=dof_map, n_dof=free.size)
-    G = geometric_stiffness(*args, model.lengths, N, dof_map=dof_map, n_dof=free.size)
+    names = ", ".join(repr(name) for name, _ in checked)
+    factor = factor_or_mechanism(K, free, backend, f"linear buckling of {names}")
+    out = []
+    for name, N in checked:
+        G = geometric_stiffness(*args, model.lengths, N, dof_map=dof_map, n_dof=free.size)
+        out.append(_buckling(model, (K, factor, G, free), name, N, k, negative, backend))
+    return out
+
+
+def _compression(model: Model, result: Any, negative: bool) -> tuple[str, np.ndarray]:
+    """A result's name and forces, refused when it has nothing that can buckle."""
+    name, N = axial_forces_of(model, result)
+    if not np.any(N < 0) and not (negative and np.any(N > 0)):
+        raise ModelError(
+            f"linear_buckling: result {name!r} has no member in compression, so it has no "
+            "buckling factor (tension only stiffens the frame)"
+        )
+    return name, N
+
+
+def _buckling(
+    model: Model,
+    system: tuple[Any, Factor, Any, np.ndarray],
+    name: str,
+    N: np.ndarray,
+    k: int,
+    negative: bool,
+    backend: str,
+) -> BucklingResult:
+    """One result's factors from the shared K, its factor and the result's own K_G."""
+    K, factor, G, free = system
+    n_comp = int(np.count_nonzero(N < 0))
+    n_tens = int(np.count_nonzero(N > 0))
     what = f"linear buckling of {name!r}"
-    factor = factor_or_mechanism(K, free, backend, what)
     notes: list[str] = []
 
     def side(sign: float, count: int) -> tuple[np.ndarray, np.ndarray]:
