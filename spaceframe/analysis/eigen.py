@@ -184,21 +184,43 @@ def positive_definite(factor: Factor) -> bool:
     return bool(inertia is not None and inertia.positive_definite)
 
 
-def factor_upper_bound(K: sp.spmatrix, G: sp.spmatrix) -> float | None:
-    """An upper bound on the lowest λ > 0 of (K + λ G) φ = 0, or None if no K_ii / -G_ii exists.
+#: Single directions (the lowest single-direction bounds) that start the
+#: Rayleigh-Ritz bound of :func:`factor_upper_bound`.
+_BOUND_DIRECTIONS = 16
+
+
+def factor_upper_bound(K: sp.spmatrix, G: sp.spmatrix, factor: Factor | None = None
+                       ) -> float | None:
+    """An upper bound on the lowest λ > 0 of (K + λ G) φ = 0, or None if none is found.
 
     For K positive definite the lowest positive λ is the least Rayleigh
-    quotient φᵀKφ / (-φᵀGφ) over the φ with -φᵀGφ > 0 (Courant-Fischer);
-    each single free direction i with G_ii < 0 is such a φ, so
-    min_i K_ii / (-G_ii) is an upper bound (exact when the lowest mode moves
-    one direction alone).
+    quotient φᵀKφ / (-φᵀGφ) over the φ with -φᵀGφ > 0 (Courant-Fischer), so
+    the least Ritz value of any subspace bounds it from above.  The
+    subspace: the unit vectors of the _BOUND_DIRECTIONS directions i of
+    least K_ii / -G_ii (each alone a bound), and, given K's ``factor``, one
+    step of inverse iteration K⁻¹(-G) from them (a 100k-member grid: 18.6
+    from single directions, 10.0 with the step, lowest factor 9.44).
     """
     kd = K.diagonal()
     gd = G.diagonal()
-    soft = gd < 0
-    if not np.any(soft):
+    soft = np.flatnonzero(gd < 0)
+    if soft.size == 0:
         return None
-    bound = float(np.min(kd[soft] / -gd[soft]))
+    q = kd[soft] / -gd[soft]
+    pick = soft[np.argsort(q)[:_BOUND_DIRECTIONS]]
+    bound = float(np.min(q))
+    if factor is not None:
+        X = np.zeros((K.shape[0], pick.size))
+        X[pick, np.arange(pick.size)] = 1.0
+        Y = np.asarray(factor.solve(-(G @ X)))
+        # The Ritz values of a subspace do not depend on its basis: no QR.
+        Z = np.hstack([X, Y / np.linalg.norm(Y, axis=0)])
+        try:
+            mu = sla.eigh(-(Z.T @ (G @ Z)), Z.T @ (K @ Z), eigvals_only=True)
+        except (np.linalg.LinAlgError, ValueError):  # a basis too near dependence
+            mu = np.zeros(0)
+        if mu.size and mu[-1] > 0 and np.isfinite(mu[-1]):
+            bound = min(bound, float(1.0 / mu[-1]))
     return bound if np.isfinite(bound) and bound > 0 else None
 
 
@@ -232,7 +254,8 @@ def lowest_positive_factors(
     (measured: 1300 solves against 50 on a 20k-member grid).  The first σ is
     0.9 of the upper bound of :func:`factor_upper_bound`, halved until
     K + σ G is positive definite: σ then lies between half the lowest
-    factor and the lowest factor (a 100k-member grid: about 60 solves).
+    factor and the lowest factor (a 100k-member grid: one factorisation,
+    σ = 0.95 of the lowest factor, about 60 solves).
     Only when that fails (a lowest factor far below every single-direction
     bound) does a short, loose Lanczos run about zero estimate the lowest
     factor (a Ritz value, from above) for the shift, and if even that shift
@@ -242,7 +265,7 @@ def lowest_positive_factors(
     if m <= DENSE_EIGEN_LIMIT or k >= m - 1:
         mu, V = extreme_pairs(K, factor, G, k, "SA", what)
         return -1.0 / mu, V
-    bound = factor_upper_bound(K, G)
+    bound = factor_upper_bound(K, G, factor)
     shifted = None if bound is None else _safe_shift(
         K, G, BUCKLING_SHIFT_FRACTION * bound, backend)
     if shifted is None:
