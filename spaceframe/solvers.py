@@ -414,6 +414,18 @@ def factorize_ldlt(K: sp.spmatrix, ordering: Ordering = "MMD_AT_PLUS_A") -> LDLF
     return LDLFactor(K, ordering)
 
 
+def _shifted(K: sp.spmatrix, M: sp.spmatrix, sigma: float) -> sp.spmatrix:
+    """K - sigma M, entry by entry when both are CSR on one pattern (as assembled)."""
+    same = (sp.isspmatrix_csr(K) and sp.isspmatrix_csr(M) and K.shape == M.shape
+            and K.nnz == M.nnz and np.array_equal(K.indptr, M.indptr)
+            and np.array_equal(K.indices, M.indices))
+    if not same:
+        return K - sigma * M
+    out = K.copy()
+    out.data = K.data - sigma * M.data
+    return out
+
+
 def shift_invert(
     K: sp.spmatrix, M: sp.spmatrix, sigma: float, backend: str = "auto"
 ) -> Any:
@@ -429,7 +441,7 @@ def shift_invert(
     """
     from scipy.sparse.linalg import LinearOperator
 
-    factor = factorize(K - sigma * M, backend, refine=False)
+    factor = factorize(_shifted(K, M, sigma), backend, refine=False)
     if factor.inertia is not None and not factor.inertia.positive_definite:
         raise SingularFactor(f"K - {sigma:g} M is not positive definite")
     m = K.shape[0]
