@@ -84,15 +84,9 @@ def test_braced_column() -> None:
     # Closed form: a pin-ended vertical column of length L_v held at its top by a
     # horizontal bar of length L_h to a support: the brace is a spring EA_h/L_h, so
     # P_cr = (E A_h / L_h) L_v.
-    Lv, Lh, Ah, P = 4.0, 2.5, 2e-4, 1e4
-    m = sf.Model()
-    m.add_nodes([[0, 0, 0], [0, 0, Lv], [Lh, 0, Lv]])
-    m.add_members([[0, 1]], area=A, E=E)
-    m.add_members([[1, 2]], area=Ah, E=E)
-    m.add_support([0, 2])
-    m.add_support([1], x=False, y=True, z=False)
-    m.add_load("P", [1], (0.0, 0.0, -P))
-    b = sf.linear_buckling(m, m.solve()["P"], n_modes=1)
+    P = 1e4
+    m, Lv, Lh, Ah = braced_column_cases((P,))
+    b = sf.linear_buckling(m, m.solve()["P0"], n_modes=1)
     np.testing.assert_allclose(b.factors * P, [E * Ah / Lh * Lv], rtol=1e-12)
 
 
@@ -143,7 +137,7 @@ def test_geometric_stiffness_pattern_and_blocks(dome: sf.Model) -> None:
 
 
 def braced_column_cases(loads: tuple[float, ...]) -> tuple[sf.Model, float, float, float]:
-    """The braced column of test_braced_column with one load case per load."""
+    """Column L_v pinned at its foot, braced at its top by a bar L_h; case "P<i>" per load."""
     Lv, Lh, Ah = 4.0, 2.5, 2e-4
     m = sf.Model()
     m.add_nodes([[0, 0, 0], [0, 0, Lv], [Lh, 0, Lv]])
@@ -202,12 +196,35 @@ def test_many_results_consistent_with_single_and_factorise_once(
     assert sf.linear_buckling_many(m, []) == []
 
 
-def test_many_results_refuses_a_result_without_compression_first() -> None:
-    m, *_ = braced_column_cases((1e4,))
-    m.add_load("up", [1], (0.0, 0.0, 1e4))
+def test_many_results_refuses_a_result_without_compression_or_keeps_its_error() -> None:
+    P = 1e4
+    m, Lv, Lh, Ah = braced_column_cases((P,))
+    m.add_load("up", [1], (0.0, 0.0, P))
     r = m.solve()
     with pytest.raises(sf.ModelError, match="'up' has no member in compression"):
         sf.linear_buckling_many(m, [r["P0"], r["up"]])
+    kept = sf.linear_buckling_many(m, [r["up"], r["P0"]], n_modes=1, errors="keep")
+    assert isinstance(kept[0], sf.ModelError) and "'up'" in str(kept[0])
+    assert isinstance(kept[1], sf.BucklingResult)
+    # The closed form of the braced column (above): P_cr = (E A_h / L_h) L_v.
+    np.testing.assert_allclose(kept[1].factors * P, [E * Ah / Lh * Lv], rtol=1e-12)
+    only = sf.linear_buckling_many(m, [r["up"]], errors="keep")
+    assert len(only) == 1 and isinstance(only[0], sf.ModelError)
+    with pytest.raises(sf.ModelError, match="errors = 'skip'"):
+        sf.linear_buckling_many(m, [r["P0"]], errors="skip")  # type: ignore[call-overload]
+
+
+def test_many_results_keep_gives_a_mechanism_to_every_result() -> None:
+    # A column with no brace: the top node can sway, so K_E is singular and
+    # every result gets the same MechanismError.
+    m = sf.Model()
+    m.add_nodes([[0, 0, 0], [0, 0, 4.0]])
+    m.add_members([[0, 1]], area=A, E=E)
+    m.add_support([0])
+    m.add_support([1], x=False, y=True, z=False)
+    forces = [np.array([-1e3]), np.array([-2e3])]
+    kept = sf.linear_buckling_many(m, forces, errors="keep")
+    assert all(isinstance(x, sf.MechanismError) for x in kept) and len(kept) == 2
 
 
 def test_shift_from_estimate_when_the_bound_is_missing(monkeypatch: pytest.MonkeyPatch) -> None:

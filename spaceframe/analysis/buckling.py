@@ -23,8 +23,8 @@ supports).
 
 from __future__ import annotations
 
-from collections.abc import Iterable
-from typing import TYPE_CHECKING, Any
+from collections.abc import Callable, Iterable
+from typing import TYPE_CHECKING, Any, Literal, TypeVar, overload
 
 import numpy as np
 
@@ -36,7 +36,7 @@ from spaceframe.analysis.eigen import (
 )
 from spaceframe.analysis.matrices import elastic_stiffness, free_dof_map, geometric_stiffness
 from spaceframe.analysis.stability import check_stability
-from spaceframe.errors import ModelError
+from spaceframe.errors import ModelError, SpaceframeError
 from spaceframe.results.modes import BucklingResult
 from spaceframe.solvers import Factor, resolve_backend
 
@@ -44,6 +44,8 @@ if TYPE_CHECKING:
     from spaceframe.model import Model
 
 __all__ = ["BucklingResult", "linear_buckling", "linear_buckling_many"]
+
+_T = TypeVar("_T")
 
 
 def axial_forces_of(
@@ -118,6 +120,20 @@ def linear_buckling(
     return linear_buckling_many(model, [result], n_modes, negative=negative, solver=solver)[0]
 
 
+@overload
+def linear_buckling_many(
+    model: Model, results: Iterable[Any], n_modes: int = 6, *, negative: bool = False,
+    solver: str = "auto", errors: Literal["raise"] = "raise",
+) -> list[BucklingResult]: ...
+
+
+@overload
+def linear_buckling_many(
+    model: Model, results: Iterable[Any], n_modes: int = 6, *, negative: bool = False,
+    solver: str = "auto", errors: Literal["keep"],
+) -> list[BucklingResult | SpaceframeError]: ...
+
+
 def linear_buckling_many(
     model: Model,
     results: Iterable[Any],
@@ -125,14 +141,14 @@ def linear_buckling_many(
     *,
     negative: bool = False,
     solver: str = "auto",
-) -> list[BucklingResult]:
+    errors: Literal["raise", "keep"] = "raise",
+) -> list[BucklingResult] | list[BucklingResult | SpaceframeError]:
     """Linear buckling of several static results of one model, K_E factorised once.
 
     Each result's factors and modes are those :func:`linear_buckling` gives
     it; the elastic stiffness is assembled and factorised once for all of
     them (only each result's geometric stiffness and shifted factorisation
-    are its own).  Every result is checked before anything is factorised, so
-    a result without compression fails at once with the same error.
+    are its own).  Every result is checked before anything is factorised.
 
     Parameters
     ----------
@@ -141,30 +157,62 @@ def linear_buckling_many(
         Results of ``model`` (cases, combinations) or member axial forces.
     n_modes, negative, solver
         As for :func:`linear_buckling`.
+    errors : {"raise", "keep"}
+        "raise": the first result that fails raises its error (that of
+        :func:`linear_buckling`).  "keep": a result that fails gets its
+        error (a SpaceframeError) in its place in the list and the others
+        go on; an error of the model itself (a mechanism) is then every
+        result's.
 
     Returns
     -------
-    list of BucklingResult
+    list of BucklingResult (or SpaceframeError with ``errors="keep"``)
         One per result, in the order given.
     """
     model.validate()
     backend = resolve_backend(solver)
-    checked = [_compression(model, r, negative) for r in results]
-    if not checked:
-        return []
+    if errors not in ("raise", "keep"):
+        raise ModelError(f"linear_buckling_many: errors = {errors!r}: choose 'raise' or 'keep'")
+    keep = errors == "keep"
+    checked = [_kept(keep, _compression, model, r, negative) for r in results]
+    named = [c for c in checked if not isinstance(c, SpaceframeError)]
+    if not named:  # every result failed its own check (kept), or there are none
+        only: list[BucklingResult | SpaceframeError] = [
+            c for c in checked if isinstance(c, SpaceframeError)]
+        return only
+    try:
+        shared = _shared_system(model, [name for name, _ in named], n_modes, backend)
+    except SpaceframeError as exc:
+        if not keep:
+            raise
+        failed: list[BucklingResult | SpaceframeError] = [
+            c if isinstance(c, SpaceframeError) else exc for c in checked]
+        return failed
+    return [c if isinstance(c, SpaceframeError)
+            else _kept(keep, _buckling, model, shared, *c, negative, backend) for c in checked]
+
+
+def _kept(keep: bool, fn: Callable[..., _T], *args: Any) -> _T | SpaceframeError:
+    """fn(*args), or with ``keep`` the SpaceframeError it raised."""
+    try:
+        return fn(*args)
+    except SpaceframeError as exc:
+        if not keep:
+            raise
+        return exc
+
+
+def _shared_system(model: Model, names: list[str], n_modes: int, backend: str
+                   ) -> tuple[Any, Factor, np.ndarray, np.ndarray, int]:
+    """K_E of the free directions, its factor, the dof map, those directions, modes wanted."""
     check_stability(model)
     dof_map, free = free_dof_map(model.restraint)
     k = mode_count(n_modes, free.size)
-    args = (model.members, model.n_nodes, model.directions)
-    K = elastic_stiffness(*args, model.axial_stiffness, springs=model.springs,
+    K = elastic_stiffness(model.members, model.n_nodes, model.directions,
+                          model.axial_stiffness, springs=model.springs,
                           dof_map=dof_map, n_dof=free.size)
-    names = ", ".join(repr(name) for name, _ in checked)
-    factor = factor_or_mechanism(K, free, backend, f"linear buckling of {names}")
-    out = []
-    for name, N in checked:
-        G = geometric_stiffness(*args, model.lengths, N, dof_map=dof_map, n_dof=free.size)
-        out.append(_buckling(model, (K, factor, G, free), name, N, k, negative, backend))
-    return out
+    what = "linear buckling of " + ", ".join(repr(name) for name in names)
+    return K, factor_or_mechanism(K, free, backend, what), dof_map, free, k
 
 
 def _compression(model: Model, result: Any, negative: bool) -> tuple[str, np.ndarray]:
@@ -180,15 +228,16 @@ def _compression(model: Model, result: Any, negative: bool) -> tuple[str, np.nda
 
 def _buckling(
     model: Model,
-    system: tuple[Any, Factor, Any, np.ndarray],
+    shared: tuple[Any, Factor, np.ndarray, np.ndarray, int],
     name: str,
     N: np.ndarray,
-    k: int,
     negative: bool,
     backend: str,
 ) -> BucklingResult:
     """One result's factors from the shared K, its factor and the result's own K_G."""
-    K, factor, G, free = system
+    K, factor, dof_map, free, k = shared
+    G = geometric_stiffness(model.members, model.n_nodes, model.directions, model.lengths, N,
+                            dof_map=dof_map, n_dof=free.size)
     n_comp = int(np.count_nonzero(N < 0))
     n_tens = int(np.count_nonzero(N > 0))
     what = f"linear buckling of {name!r}"
