@@ -15,7 +15,7 @@ import sys
 from pathlib import Path as _Path
 from types import ModuleType as _ModuleType
 
-from spaceframe.analysis.buckling import BucklingResult, linear_buckling
+from spaceframe.analysis.buckling import BucklingResult, linear_buckling, linear_buckling_many
 from spaceframe.analysis.nonlinear import LoadPath, solve_nonlinear
 from spaceframe.analysis.stability import (
     Determinacy,
@@ -106,6 +106,7 @@ __all__ = [
     "equilibrium_matrix",
     "generate_combinations",
     "linear_buckling",
+    "linear_buckling_many",
     "natural_frequencies",
     "size_groups",
     "solve",

@@ -208,3 +208,22 @@ def test_two_collinear_bars(force_sparse: bool, monkeypatch: pytest.MonkeyPatch)
     # The mechanisms move the joint across the line only.
     np.testing.assert_allclose(d.mechanism_modes[:, [0, 2]], 0.0, atol=1e-12)
     np.testing.assert_allclose(d.mechanism_modes[:, 1, 0], 0.0, atol=1e-9)
+
+
+def test_cholesky_shortcut_and_ldlt_count_alike(monkeypatch: pytest.MonkeyPatch) -> None:
+    # A stable grid (m = 0; s = b - 3j + k, Calladine 1978): the PARDISO
+    # Cholesky shortcut, where installed, proves it; the L D L^T inertia count
+    # alone gives the same counts.  A frame with mechanisms is never proved
+    # stable by the shortcut (the tower's open storey sways).
+    m = double_layer_grid(20, 20)
+    fast = st.determinacy(m, modes=False)
+    with monkeypatch.context() as mp:
+        mp.setattr(st, "_positive_definite_above", lambda Ks, tau: False)
+        slow = st.determinacy(m, modes=False)
+    assert _counts(fast) == _counts(slow)
+    assert slow.self_stress == m.n_members - 3 * m.n_nodes + int(m.restraint.sum())
+    t = tower(60, 30)
+    A_f = equilibrium_matrix(t).tocsr()[np.flatnonzero(~t.restraint.ravel())]
+    As = st.sp.diags(st._scaled_rows(A_f)) @ A_f
+    assert not st._positive_definite_above(As @ As.T, st.PIVOT_TOLERANCE)
+    assert sparse(t, monkeypatch, modes=False).mechanisms > 0

@@ -10,6 +10,9 @@ forces before buckling, so it can overestimate the strength of shallow,
 imperfection-sensitive frames (domes, shallow trusses) — a second-order
 analysis is the check there.  Results must be checked by a qualified engineer.
 
+:func:`linear_buckling_many` does several results of one model with one
+factorisation of K_E.
+
 Decision for a result without compression: tension only stiffens a frame,
 so there is no positive factor; :func:`linear_buckling` raises ModelError
 with one line saying so (or, with ``negative=True``, returns no positive
@@ -20,7 +23,8 @@ supports).
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from collections.abc import Callable, Iterable
+from typing import TYPE_CHECKING, Any, Literal, TypeVar, overload
 
 import numpy as np
 
@@ -32,14 +36,16 @@ from spaceframe.analysis.eigen import (
 )
 from spaceframe.analysis.matrices import elastic_stiffness, free_dof_map, geometric_stiffness
 from spaceframe.analysis.stability import check_stability
-from spaceframe.errors import ModelError
+from spaceframe.errors import ModelError, SpaceframeError
 from spaceframe.results.modes import BucklingResult
-from spaceframe.solvers import resolve_backend
+from spaceframe.solvers import Factor, resolve_backend
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
 
-__all__ = ["BucklingResult", "linear_buckling"]
+__all__ = ["BucklingResult", "linear_buckling", "linear_buckling_many"]
+
+_T = TypeVar("_T")
 
 
 def axial_forces_of(
@@ -111,25 +117,130 @@ def linear_buckling(
     MechanismError
         If the frame is a mechanism (its elastic stiffness is singular).
     """
+    return linear_buckling_many(model, [result], n_modes, negative=negative, solver=solver)[0]
+
+
+@overload
+def linear_buckling_many(
+    model: Model, results: Iterable[Any], n_modes: int = 6, *, negative: bool = False,
+    solver: str = "auto", errors: Literal["raise"] = "raise",
+) -> list[BucklingResult]: ...
+
+
+@overload
+def linear_buckling_many(
+    model: Model, results: Iterable[Any], n_modes: int = 6, *, negative: bool = False,
+    solver: str = "auto", errors: Literal["keep"],
+) -> list[BucklingResult | SpaceframeError]: ...
+
+
+def linear_buckling_many(
+    model: Model,
+    results: Iterable[Any],
+    n_modes: int = 6,
+    *,
+    negative: bool = False,
+    solver: str = "auto",
+    errors: Literal["raise", "keep"] = "raise",
+) -> list[BucklingResult] | list[BucklingResult | SpaceframeError]:
+    """Linear buckling of several static results of one model, K_E factorised once.
+
+    Each result's factors and modes are those :func:`linear_buckling` gives
+    it; the elastic stiffness is assembled and factorised once for all of
+    them (only each result's geometric stiffness and shifted factorisation
+    are its own).  Every result is checked before anything is factorised.
+
+    Parameters
+    ----------
+    model : Model
+    results : iterable of CaseResult or (b,) float
+        Results of ``model`` (cases, combinations) or member axial forces.
+    n_modes, negative, solver
+        As for :func:`linear_buckling`.
+    errors : {"raise", "keep"}
+        "raise": the first result that fails raises its error (that of
+        :func:`linear_buckling`).  "keep": a result that fails gets its
+        error (a SpaceframeError) in its place in the list and the others
+        go on; an error of the model itself (a mechanism) is then every
+        result's.
+
+    Returns
+    -------
+    list of BucklingResult (or SpaceframeError with ``errors="keep"``)
+        One per result, in the order given.
+    """
     model.validate()
     backend = resolve_backend(solver)
+    if errors not in ("raise", "keep"):
+        raise ModelError(f"linear_buckling_many: errors = {errors!r}: choose 'raise' or 'keep'")
+    keep = errors == "keep"
+    checked = [_kept(keep, _compression, model, r, negative) for r in results]
+    named = [c for c in checked if not isinstance(c, SpaceframeError)]
+    if not named:  # every result failed its own check (kept), or there are none
+        only: list[BucklingResult | SpaceframeError] = [
+            c for c in checked if isinstance(c, SpaceframeError)]
+        return only
+    try:
+        shared = _shared_system(model, [name for name, _ in named], n_modes, backend)
+    except SpaceframeError as exc:
+        if not keep:
+            raise
+        failed: list[BucklingResult | SpaceframeError] = [
+            c if isinstance(c, SpaceframeError) else exc for c in checked]
+        return failed
+    return [c if isinstance(c, SpaceframeError)
+            else _kept(keep, _buckling, model, shared, *c, negative, backend) for c in checked]
+
+
+def _kept(keep: bool, fn: Callable[..., _T], *args: Any) -> _T | SpaceframeError:
+    """fn(*args), or with ``keep`` the SpaceframeError it raised."""
+    try:
+        return fn(*args)
+    except SpaceframeError as exc:
+        if not keep:
+            raise
+        return exc
+
+
+def _shared_system(model: Model, names: list[str], n_modes: int, backend: str
+                   ) -> tuple[Any, Factor, np.ndarray, np.ndarray, int]:
+    """K_E of the free directions, its factor, the dof map, those directions, modes wanted."""
+    check_stability(model)
+    dof_map, free = free_dof_map(model.restraint)
+    k = mode_count(n_modes, free.size)
+    K = elastic_stiffness(model.members, model.n_nodes, model.directions,
+                          model.axial_stiffness, springs=model.springs,
+                          dof_map=dof_map, n_dof=free.size)
+    what = "linear buckling of " + ", ".join(repr(name) for name in names)
+    return K, factor_or_mechanism(K, free, backend, what), dof_map, free, k
+
+
+def _compression(model: Model, result: Any, negative: bool) -> tuple[str, np.ndarray]:
+    """A result's name and forces, refused when it has nothing that can buckle."""
     name, N = axial_forces_of(model, result)
-    n_comp = int(np.count_nonzero(N < 0))
-    n_tens = int(np.count_nonzero(N > 0))
-    if n_comp == 0 and not (negative and n_tens):
+    if not np.any(N < 0) and not (negative and np.any(N > 0)):
         raise ModelError(
             f"linear_buckling: result {name!r} has no member in compression, so it has no "
             "buckling factor (tension only stiffens the frame)"
         )
-    check_stability(model)
-    dof_map, free = free_dof_map(model.restraint)
-    k = mode_count(n_modes, free.size)
-    args = (model.members, model.n_nodes, model.directions)
-    K = elastic_stiffness(*args, model.axial_stiffness, springs=model.springs,
-                          dof_map=dof_map, n_dof=free.size)
-    G = geometric_stiffness(*args, model.lengths, N, dof_map=dof_map, n_dof=free.size)
+    return name, N
+
+
+def _buckling(
+    model: Model,
+    shared: tuple[Any, Factor, np.ndarray, np.ndarray, int],
+    name: str,
+    N: np.ndarray,
+    negative: bool,
+    backend: str,
+) -> BucklingResult:
+    """One result's factors from the shared K, its factor and the result's own K_G."""
+    K, factor, dof_map, free, k = shared
+    G = geometric_stiffness(model.members, model.n_nodes, model.directions, model.lengths, N,
+                            dof_map=dof_map, n_dof=free.size)
+    n_comp = int(np.count_nonzero(N < 0))
+    n_tens = int(np.count_nonzero(N > 0))
     what = f"linear buckling of {name!r}"
-    factor = factor_or_mechanism(K, free, backend, what)
     notes: list[str] = []
 
     def side(sign: float, count: int) -> tuple[np.ndarray, np.ndarray]:

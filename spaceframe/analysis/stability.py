@@ -30,7 +30,14 @@ from scipy.sparse.csgraph import connected_components
 
 from spaceframe.assembly import equilibrium_matrix, full_symmetric, reduced_stiffness
 from spaceframe.errors import MechanismError, ModelError, SolverError
-from spaceframe.solvers import PIVOT_TOLERANCE, LDLFactor, SingularFactor, factorize_ldlt
+from spaceframe.solvers import (
+    PIVOT_TOLERANCE,
+    LDLFactor,
+    SingularFactor,
+    available_backends,
+    factorize,
+    factorize_ldlt,
+)
 from spaceframe.tolerances import MAX_STIFFNESS_RATIO, NODE_STIFFNESS_RATIO, RANK_TOLERANCE
 
 if TYPE_CHECKING:
@@ -360,6 +367,8 @@ def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
     lands almost on zero (an eigenvalue within a hair of tau) is retried
     with a shift moved by a factor 1.5.
     """
+    if _positive_definite_above(Ks, tau):
+        return 0
     last: Exception | None = None
     for shift in (tau, tau * 1.5, tau / 1.5):
         try:
@@ -378,6 +387,24 @@ def _inertia_count(Ks: sp.spmatrix, tau: float) -> int:
             continue
         return int(np.sum(d < 0))
     raise SolverError(f"determinacy: the inertia count failed ({last})")
+
+
+def _positive_definite_above(Ks: sp.spmatrix, tau: float) -> bool:
+    """Whether PARDISO's Cholesky of Ks - tau I proves every eigenvalue above tau.
+
+    Only a positive definite matrix has one, and ``factorize`` refuses pivots
+    below PIVOT_TOLERANCE of their diagonal (about 1 here): a stable frame in
+    one factorisation, several times faster than the L D L^T.  A refusal
+    proves nothing; the L D L^T count decides.  Without PARDISO: False.
+    """
+    if available_backends()[0] != "pardiso":
+        return False
+    eye = sp.identity(Ks.shape[0], format="csr")
+    try:
+        factorize(sp.csr_matrix(Ks - tau * eye), "pardiso", refine=False)
+    except SingularFactor:
+        return False
+    return True
 
 
 def _shifted_ldlt(Ks: sp.spmatrix, shift: float) -> LDLFactor:
