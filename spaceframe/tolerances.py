@@ -70,8 +70,10 @@ EIGEN_RESIDUAL = 1.0e-6
 BUCKLING_SHIFT_TRIES = 6
 
 #: Fraction of the estimated lowest buckling factor used as the first shift.
-#: The estimate is a Ritz value (from above) good to about 1e-2, so 0.9
-#: puts the shift below the lowest factor while keeping it close.
+#: The estimate is a Rayleigh-Ritz upper bound (analysis/eigen.factor_upper_bound:
+#: single directions and one inverse-iteration step), a few per cent above the
+#: lowest factor on regular grids, so 0.9 usually puts the shift below it at the
+#: first try; the shift is halved while the shifted matrix is not positive definite.
 BUCKLING_SHIFT_FRACTION = 0.9
 
 #: Relative accuracy asked of the short Lanczos run that only estimates the

@@ -284,7 +284,7 @@ def run_analyses(spec: AnalysisSpec, model: Any, results: Any,
 def run_analyses_with_modes(spec: AnalysisSpec, model: Any, results: Any,
                             solver: str = "auto") -> tuple[dict[str, Any], list[Mode]]:
     """:func:`run_analyses` and the mode shapes found, in the block's order."""
-    from spaceframe.analysis.buckling import linear_buckling
+    from spaceframe.analysis.buckling import linear_buckling_many
     from spaceframe.analysis.vibration import natural_frequencies
 
     out: dict[str, Any] = {}
@@ -294,12 +294,12 @@ def run_analyses_with_modes(spec: AnalysisSpec, model: Any, results: Any,
             n for n in results if getattr(results[n], "kind", "") == "combination"
         ] or list(results)
         block: dict[str, Any] = {}
-        for name in names:
-            try:
-                b = linear_buckling(model, results[name], n_modes=spec.buckling_modes,
-                                    solver=solver)
-            except SpaceframeError as exc:
-                block[name] = {"factors": [], "note": one_line(exc)}
+        # One factorisation of the elastic stiffness for every result asked for.
+        every = linear_buckling_many(model, [results[n] for n in names],
+                                     n_modes=spec.buckling_modes, solver=solver, errors="keep")
+        for name, b in zip(names, every, strict=True):
+            if isinstance(b, SpaceframeError):
+                block[name] = {"factors": [], "note": one_line(b)}
                 continue
             entry: dict[str, Any] = {"factors": [float(x) for x in b.factors],
                                      "note": "; ".join(b.notes)}
