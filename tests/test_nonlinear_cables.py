@@ -133,8 +133,9 @@ def test_pretensioned_cable_small_load_has_the_taut_string_stiffness() -> None:
 
 def test_cable_without_pretension_is_still_a_mechanism() -> None:
     """Straight and unstressed, the midspan node has no lateral stiffness at all."""
-    with pytest.raises(MechanismError):
+    with pytest.raises(MechanismError, match="give the cables a pretension") as info:
         sf.solve_nonlinear(midspan_cable(1.0, pre=0.0), "W")
+    assert 1 in info.value.nodes.tolist()  # the midspan node, still named
 
 
 def braced_panel(load: float) -> sf.Model:

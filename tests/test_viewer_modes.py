@@ -120,3 +120,23 @@ def test_a_state_of_self_stress_is_drawn_as_member_colours(tmp_path: Path) -> No
         scene.close()
     with pytest.raises(sf.ModelError, match="expected"):
         viewer.self_stress_results(m, np.zeros((1, 3)))
+
+
+def test_the_viewer_steps_through_a_load_path() -> None:
+    m = loaded_tripod()
+    p = sf.solve_nonlinear(m, "snow", max_load_factor=1.0)
+    shown = viewer.path_results(m, p)
+    assert len(shown) == p.n_steps
+    names = list(shown)
+    assert names[0] == "step 0: load factor 0" and names[-1].endswith("load factor 1")
+    scene = viewer.FrameScene(shown, off_screen=True, window_size=SIZE, scale=1.0,
+                              interactive=True)
+    try:
+        scene.next_case(len(names) - 1)
+        # True scale: drawn where the path put the nodes at its last step.
+        np.testing.assert_allclose(scene.deformed_nodes(), m.nodes + p.displacements[-1])
+        np.testing.assert_array_equal(shown[scene.case].axial_forces, p.axial_forces[-1])
+    finally:
+        scene.close()
+    with pytest.raises(sf.ModelError, match="not of this model"):
+        viewer.path_results(sf.Model(), p)

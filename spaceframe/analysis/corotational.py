@@ -69,7 +69,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from spaceframe.assembly import free_dof_map, member_dofs
-from spaceframe.errors import ModelError
+from spaceframe.errors import MechanismError, ModelError
 from spaceframe.solvers import (
     SingularFactor,
     _PardisoFactor,
@@ -82,7 +82,7 @@ from spaceframe.solvers import (
 if TYPE_CHECKING:
     from spaceframe.model import Model
 
-__all__ = ["Bars", "CholeskySlot", "State", "Tangent", "reference_load"]
+__all__ = ["Bars", "CholeskySlot", "State", "Tangent", "first_state", "reference_load"]
 
 
 class _Cholesky(_PardisoFactor):
@@ -476,3 +476,46 @@ def reference_load(
             f"{strain[bad[0]]:.6g} <= -1 (alpha dT + eps0), which leaves it no unstressed length"
         )
     return kind, f, factors, strain, up
+
+
+def first_state(model: Model, bars: Bars, tolerance: float) -> State:
+    """Step 0 of a path: the drawn (prestressed) state at load factor 0, checked.
+
+    See the notes of :mod:`spaceframe.analysis.nonlinear` on pretension.
+    """
+    from spaceframe.analysis.stability import check_stability
+
+    mechanism: MechanismError | None = None
+    try:
+        check_stability(model)
+    except MechanismError as exc:
+        if not np.any(bars.pretension):
+            if np.any(model.tension_only):
+                # A cable net without pretension has no transverse stiffness in its
+                # drawn geometry: the path starts from a prestressed state, never from
+                # a stated artificial stiffening (module notes).
+                raise MechanismError(
+                    f"{exc}; a tension-only member (cable) without pretension has no "
+                    "stiffness across its line in the drawn geometry: give the cables a "
+                    "pretension (set_member_properties(ids, pretension=...), or "
+                    "[analysis.tension_only] pretension in the model file)",
+                    exc.nodes, exc.directions) from None
+            raise
+        mechanism = exc  # the prestressed tangent at step 0 decides (module notes)
+    first = bars.state(np.zeros(bars.nf), 0.0)
+    if np.any(bars.pretension):
+        _, res0 = bars.out_of_balance(first)
+        if not res0 <= tolerance:
+            raise ModelError(
+                f"solve_nonlinear: the pretension is not self-equilibrated in the drawn "
+                f"geometry (relative out-of-balance {res0:.3g} > tolerance {tolerance:.3g})"
+            )
+    if mechanism is not None:
+        try:
+            t0 = bars.tangent(first)
+        except RuntimeError:
+            raise mechanism from None
+        if t0.negative != 0:
+            raise mechanism
+        first.tangent = t0
+    return first

@@ -52,7 +52,9 @@ whose force would turn compressive is slack: no force and no stiffness
 per step.  A frame that the drawn-geometry mechanism check rejects (say a
 cable node on a straight line between supports) is accepted when it has
 pretension and its prestressed tangent stiffness at step 0 is positive
-definite.
+definite.  A cable with zero pretension has no stiffness across its line
+there: the path is not started from an artificially stiffened state, and
+the MechanismError says to give the cables a pretension.
 
 Temperature, initial strain and settlement
 ------------------------------------------
@@ -80,9 +82,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from spaceframe.analysis.corotational import Bars, State, reference_load
-from spaceframe.analysis.stability import check_stability
-from spaceframe.errors import MechanismError, ModelError, SolverError
+from spaceframe.analysis.corotational import Bars, State, first_state, reference_load
+from spaceframe.errors import ModelError, SolverError
 from spaceframe.results.path import STRAIN_MEASURE, LoadPath
 
 if TYPE_CHECKING:
@@ -434,7 +435,7 @@ def solve_nonlinear(
         model, extra = _imperfect(model, case_or_combination, kind, imperfection,
                                   imperfection_mode)
     bars = Bars(model, f, strain, up, solver)
-    first = _first_state(model, bars, tolerance)
+    first = first_state(model, bars, tolerance)
     ctl = _Control(tolerance=float(tolerance), max_iterations=int(max_iterations),
                    limit_tolerance=limit_tolerance)
     trace = _Trace(bars, kind, case_or_combination, factors, max_load_factor, progress, [first],
@@ -530,34 +531,6 @@ def _load_control(bars: Bars, trace: _Trace, incr: float, ctl: _Control) -> Load
                 raise trace.fail(f"could not factorise the tangent stiffness ({exc})") from exc
         trace.accept([s])
     return trace.path()
-
-
-def _first_state(model: Model, bars: Bars, tolerance: float) -> State:
-    """Step 0: the drawn (prestressed) state at load factor 0, checked (module notes)."""
-    mechanism: MechanismError | None = None
-    try:
-        check_stability(model)
-    except MechanismError as exc:
-        if not np.any(bars.pretension):
-            raise
-        mechanism = exc  # the prestressed tangent at step 0 decides (module notes)
-    first = bars.state(np.zeros(bars.nf), 0.0)
-    if np.any(bars.pretension):
-        _, res0 = bars.out_of_balance(first)
-        if not res0 <= tolerance:
-            raise ModelError(
-                f"solve_nonlinear: the pretension is not self-equilibrated in the drawn "
-                f"geometry (relative out-of-balance {res0:.3g} > tolerance {tolerance:.3g})"
-            )
-    if mechanism is not None:
-        try:
-            t0 = bars.tangent(first)
-        except RuntimeError:
-            raise mechanism from None
-        if t0.negative != 0:
-            raise mechanism
-        first.tangent = t0
-    return first
 
 
 @dataclass

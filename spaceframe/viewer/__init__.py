@@ -13,7 +13,8 @@ In an interactive window, ``n`` / Right and ``b`` / Left step through the load
 cases and combinations (a slider does the same), and ``p`` over a member or
 node shows its figures.  Mode shapes (buckling, vibration) are shown by
 :func:`show_modes` with a second slider for their amplitude, and pictured by
-:func:`mode_pictures`.  Everything renders off-screen as well, for
+:func:`mode_pictures`; a load path by :func:`show_path`, a step per
+result.  Everything renders off-screen as well, for
 :func:`screenshot` and for tests; PyVista is imported inside the functions.
 """
 
@@ -25,6 +26,7 @@ from spaceframe.viewer.modes import (
     self_stress_results,
     show_modes,
 )
+from spaceframe.viewer.paths import path_results, show_path
 from spaceframe.viewer.pictures import (
     PICTURE_CHOICES,
     screenshot,
@@ -66,11 +68,13 @@ __all__ = [
     "build_scene",
     "mode_pictures",
     "mode_results",
+    "path_results",
     "screenshot",
     "screenshots",
     "select_cases",
     "self_stress_results",
     "show",
     "show_modes",
+    "show_path",
     "with_envelopes",
 ]

@@ -419,7 +419,7 @@ class FrameScene(Interaction):
         self._draw_supports()
         self._draw_loads()
         kind = {"combination": "combination", "envelope": "envelope", "mode": "mode shape",
-                "self-stress": "no load"}.get(res.kind, "load case")
+                "self-stress": "no load", "step": "load path"}.get(res.kind, "load case")
         shape = f"deformed x{format_number(self.scale, 3)}" if self.scale > 0 else "undeformed"
         if res.kind == "mode":
             shape = f"amplitude {format_number(self.scale, 3)} m"
