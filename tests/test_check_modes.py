@@ -54,7 +54,11 @@ def test_the_sway_of_an_unbraced_square_is_written_as_a_mechanism(tmp_path, caps
     assert code == 1  # a mechanism: check says unstable
     # j = 4, k = 3 + 2 + 1 + 1 = 7 restrained directions, b = 4: s − m = 4 − (12 − 7) = −1.
     assert "determinacy: 1 mechanism, 0 states of self-stress" in out
-    assert "determinacy: wrote 2 files" in out
+    assert "determinacy: wrote 3 files" in out  # the series, its one file, and the animation
+    from PIL import Image
+
+    with Image.open(tmp_path / "modes" / "mechanism_mode1.gif") as gif:
+        assert gif.n_frames == 24  # one cycle of the sway
     mesh = meshio.read(tmp_path / "modes" / "mechanism_mode1.vtu")
     d = mesh.point_data["mode_shape"]
     # No bar may stretch: 0-1 fixes node 1 (x), the posts 1-2 and 3-0 keep nodes 2 and 3

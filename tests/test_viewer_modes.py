@@ -140,3 +140,20 @@ def test_the_viewer_steps_through_a_load_path() -> None:
         scene.close()
     with pytest.raises(sf.ModelError, match="not of this model"):
         viewer.path_results(sf.Model(), p)
+
+
+def test_a_mode_animates_as_a_gif_through_a_full_cycle(tmp_path: Path, modes) -> None:
+    from PIL import Image
+
+    res, shapes = modes
+    gif = viewer.mode_animation(tmp_path / "mode1.gif", res, shapes[0], frames=8, size=SIZE)
+    with Image.open(gif) as im:
+        assert im.format == "GIF" and im.n_frames == 8
+        first = np.asarray(im.convert("RGB"))
+        im.seek(2)  # a quarter cycle: the largest swing
+        quarter = np.asarray(im.convert("RGB"))
+        im.seek(6)  # three quarters: swung the other way
+        back = np.asarray(im.convert("RGB"))
+    assert not np.array_equal(first, quarter) and not np.array_equal(quarter, back)
+    with pytest.raises(sf.ModelError, match="at least 2"):
+        viewer.mode_animation(tmp_path / "x.gif", res, shapes[0], frames=1)

@@ -144,6 +144,10 @@ def _components(model: Model) -> int:
     return int(np.unique(labels[used]).size)
 
 
+#: Mechanisms that ``check --write-modes`` also writes as animated GIF pictures.
+ANIMATED_MECHANISMS = 3
+
+
 def _write_determinacy(folder: Path, model: Model, d: Any) -> dict[str, Any]:
     """The mechanism and self-stress files of ``check --write-modes``, or why there are none."""
     if (d.mechanisms and d.mechanism_modes is None) or (
@@ -153,7 +157,15 @@ def _write_determinacy(folder: Path, model: Model, d: Any) -> dict[str, Any]:
         return {"files": [], "files_note": "no mechanism and no state of self-stress to write"}
     from spaceframe.io import vtk
 
-    return {"files": [str(p) for p in vtk.write_determinacy(folder, model, d)]}
+    files = [str(p) for p in vtk.write_determinacy(folder, model, d)]
+    if d.mechanism_modes is not None:
+        # A mechanism is best seen moving: the first few as animated pictures.
+        from spaceframe import viewer
+
+        for k, shape in enumerate(d.mechanism_modes[:ANIMATED_MECHANISMS], start=1):
+            files.append(str(viewer.mode_animation(folder / f"mechanism_mode{k}.gif", model,
+                                                   (f"mechanism {k}", shape))))
+    return {"files": files}
 
 
 def check(

@@ -21,6 +21,7 @@ result.  Everything renders off-screen as well, for
 from spaceframe.results.summary import auto_scale
 from spaceframe.viewer.modes import (
     ModeScene,
+    mode_animation,
     mode_pictures,
     mode_results,
     self_stress_results,
@@ -66,6 +67,7 @@ __all__ = [
     "auto_scale",
     "build_plotter",
     "build_scene",
+    "mode_animation",
     "mode_pictures",
     "mode_results",
     "path_results",

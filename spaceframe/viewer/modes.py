@@ -25,7 +25,7 @@ if TYPE_CHECKING:
     from spaceframe.model import Model
     from spaceframe.results import Results
 
-__all__ = ["DEFAULT_AMPLITUDE", "ModeScene", "mode_pictures", "mode_results",
+__all__ = ["DEFAULT_AMPLITUDE", "ModeScene", "mode_animation", "mode_pictures", "mode_results",
            "self_stress_results", "show_modes"]
 
 #: Drawn amplitude of a mode, as a fraction of the model size, until the slider moves it.
@@ -184,3 +184,60 @@ def mode_pictures(
                       window_size=size, view=views[0])
     return render_all(scene, names, views, out, prefix=prefix, progress=progress, write=write,
                       counted="mode pictures")
+
+
+def mode_animation(
+    path: str | os.PathLike[str],
+    results: Results | Model,
+    mode: tuple[str, Any],
+    *,
+    frames: int = 24,
+    size: Sequence[int] = (800, 600),
+    amplitude: float | None = None,
+    view: str = "iso",
+    seconds: float = 2.0,
+    write: Writer | None = None,
+) -> Path:
+    """An animated GIF of one mode (or mechanism) swinging through a full cycle.
+
+    ``frames`` pictures at amplitude ``a sin(2πk/frames)`` (``a`` as in
+    :class:`ModeScene`), one cycle in ``seconds``, repeated; written through
+    ``write`` (default :func:`spaceframe.files.atomic_write`).  The camera
+    is fitted to the largest swing so the frame does not jump.
+    """
+    import io
+
+    from PIL import Image
+
+    from spaceframe.files import atomic_write
+
+    if int(frames) < 2:
+        raise ModelError(f"viewer: frames={frames!r}: an animation needs at least 2")
+    label, shape = mode
+    # The swing back is the reversed shape at a positive amplitude.
+    both = mode_results(results, [(label, shape), (f"{label}, swinging back",
+                                                   -np.asarray(shape, dtype=float))])
+    scene = ModeScene(both, label, amplitude=amplitude, off_screen=True, window_size=size,
+                      view=view)
+    try:
+        peak = scene.amplitude
+        scene.set_view(view)  # fitted at the largest swing, then kept for every frame
+        scene._fit_each_case = False
+        images = []
+        for k in range(int(frames)):
+            a = peak * float(np.sin(2.0 * np.pi * k / int(frames)))
+            name = label if a >= 0 else f"{label}, swinging back"
+            if name != scene.case:
+                scene.set_case(name)
+            scene.set_amplitude(abs(a))
+            frame = Image.open(io.BytesIO(scene.png()))
+            images.append(frame.convert("P", palette=Image.Palette.ADAPTIVE))
+    finally:
+        scene.close()
+
+    def save(tmp: Path) -> None:
+        images[0].save(tmp, format="GIF", save_all=True, append_images=images[1:], loop=0,
+                       duration=max(int(1000 * seconds / len(images)), 20))
+
+    return (write or atomic_write)(Path(path), save)
+
