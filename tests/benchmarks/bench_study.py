@@ -22,7 +22,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from grids import double_layer_grid, grid_for_members
 
-from spaceframe.study import run_study
+from spaceframe.study import local_cluster, run_study
 
 
 def main() -> int:
@@ -38,14 +38,13 @@ def main() -> int:
     t0 = time.perf_counter()
     run_study(m, vary, scheduler="serial", solver="scipy")
     t_serial = time.perf_counter() - t0
-    from dask.distributed import Client, LocalCluster
+    from dask.distributed import Client
 
     t0 = time.perf_counter()
     if args.scheduler:
         client = Client(args.scheduler)
     else:
-        client = Client(LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                     dashboard_address=None))
+        client = Client(local_cluster(2))  # the cluster a study starts by itself
     t_start = time.perf_counter() - t0
     t0 = time.perf_counter()
     run_study(m, vary, client=client, solver="scipy")
