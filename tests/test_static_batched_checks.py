@@ -32,6 +32,12 @@ def _model() -> sf.Model:
 
 
 def _per_column(model, labels, U, T, R, F, elong, E0, A, absA, spring, restrained, area=None):  # type: ignore[no-untyped-def]
+    # The solve hands over no reactions (they follow from equilibrium) and no free strains
+    # when no case has any: the per-result checks get them written out.
+    if R is None:
+        R = np.where((restrained | (spring > 0))[:, None], A @ T - F, 0.0)
+    if E0 is None:
+        E0 = np.zeros_like(T)
     return {name: static._make_result(model, name, kind, U[:, j], T[:, j], R[:, j], F[:, j],
                                       elong[:, j], E0[:, j], A, absA, spring, restrained,
                                       factors=factors)

@@ -70,17 +70,26 @@ def _norm(x: np.ndarray) -> float:
 
 
 def _column_norms(X: np.ndarray) -> np.ndarray:
-    """:func:`_norm` of every column of X (rows x columns) at once, on rows laid out in memory.
+    """:func:`_norm` of every column of X (rows x columns) at once.
 
-    ``X`` is given transposed-contiguous or not; the work is a few passes
-    over the whole block instead of one strided pass per column.
+    Columns whose entries are all within 1e-150..1e150 in size cannot
+    overflow or underflow in their squares: their norm is the plain square
+    root of one fused sum of squares; only the others are scaled first.
     """
-    big = np.abs(X).max(axis=0, initial=0.0)
-    ok = (big > 0) & np.isfinite(big)
-    safe = np.where(ok, big, 1.0)
-    with np.errstate(over="ignore", invalid="ignore"):
-        out = np.sqrt(((X / safe) ** 2).sum(axis=0)) * safe
-    return np.where(ok, out, big)
+    hi = np.maximum(X.max(axis=0, initial=-np.inf), -X.min(axis=0, initial=np.inf))
+    hi = np.where(np.isfinite(hi) | np.isnan(hi), hi, np.inf)
+    out = np.sqrt(np.einsum("ij,ij->j", X, X))
+    risky = ~((hi < 1e150) & (hi > 1e-150)) & (hi > 0)
+    if np.any(risky):
+        cols = np.flatnonzero(risky)
+        big = np.abs(X[:, cols]).max(axis=0)
+        ok = (big > 0) & np.isfinite(big)
+        safe = np.where(ok, big, 1.0)
+        with np.errstate(over="ignore", invalid="ignore"):
+            scaled = np.sqrt(((X[:, cols] / safe) ** 2).sum(axis=0)) * safe
+        out[cols] = np.where(ok, scaled, big)
+    out[hi == 0] = 0.0
+    return out
 
 
 def _check_finite(names: list[str], uf: np.ndarray, what: str = "displacements") -> None:
@@ -232,7 +241,10 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
         uf = np.zeros((0, m))
     else:
         try:
-            factor = factorize(K, backend)
+            # No refinement inside PARDISO: _refine below measures every column's
+            # backward error and solves again only those above the bar (PARDISO's
+            # own refinement would solve every column two more times).
+            factor = factorize(K, backend, refine=False)
         except SingularFactor as exc:
             name_singular(model, full_matrix(K, backend), free, exc)
         solver_name = factor.name
@@ -265,7 +277,6 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
             weights[names.index(case), i] += f
     absA = abs(A)  # once: the residual's scale for every result
     spring = model.springs.ravel()
-    held = restrained | (spring > 0)
     area = np.array(model.area, dtype=float)
     area.flags.writeable = False  # one snapshot, shared by every result of this solve
     items: dict[str, CaseResult] = {}
@@ -274,12 +285,12 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     for lo in range(0, len(labels), _RECOVER_BLOCK):
         cols = np.arange(lo, min(lo + _RECOVER_BLOCK, len(labels)))
         UJ, FJ = _columns(U, cols, weights), _columns(F, cols, weights)
-        E0J = np.zeros((b, cols.size)) if E0 is None else _columns(E0, cols, weights)
+        E0J = None if E0 is None else _columns(E0, cols, weights)
         elongJ = A.T @ UJ
         with np.errstate(over="ignore", invalid="ignore"):
-            TJ = k[:, None] * (elongJ - E0J)
-            RJ = np.where(held[:, None], A @ TJ - FJ, 0.0)
-        items.update(_make_results(model, [labels[j] for j in cols], UJ, TJ, RJ, FJ, elongJ,
+            TJ = k[:, None] * (elongJ if E0J is None else elongJ - E0J)
+        # Reactions from equilibrium inside the checks (one product with A, not two).
+        items.update(_make_results(model, [labels[j] for j in cols], UJ, TJ, None, FJ, elongJ,
                                    E0J, A, absA, spring, restrained, area=area))
     _warn_large(model, names + list(model.combinations), items)
     timings["recover"] = time.perf_counter() - t
@@ -432,10 +443,10 @@ def _make_results(
     labels: list[tuple[str, str, dict[str, float] | None]],
     U: np.ndarray,
     T: np.ndarray,
-    R: np.ndarray,
+    R: np.ndarray | None,
     F: np.ndarray,
     elong: np.ndarray,
-    E0: np.ndarray,
+    E0: np.ndarray | None,
     A: sp.spmatrix,
     absA: sp.spmatrix,
     spring: np.ndarray,
@@ -449,9 +460,16 @@ def _make_results(
     :func:`_make_result` column by column (a sparse product with a block of
     columns gives each column exactly what it gives that column alone), so
     the results are identical, at one pass over A per product instead of one
-    per result.
+    per result.  ``R`` None: the reactions follow from equilibrium here
+    (``A T - F`` at held directions); ``E0`` None: no free strains.
     """
     n = model.n_nodes
+    sprung = ~restrained & (spring > 0)
+    held = restrained | (spring > 0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        out_of_balance = A @ T - F
+    if R is None:
+        R = np.where(held[:, None], out_of_balance, 0.0)
     for what, arr in (("displacements", U), ("axial forces", T), ("reactions", R)):
         bad = ~np.all(np.isfinite(arr), axis=0)
         if np.any(bad):
@@ -460,12 +478,12 @@ def _make_results(
                 f"{kind} {name!r}: the solver returned non-finite {what} (numbers beyond the "
                 "range of float64: check the units of E, areas and loads)"
             )
-    sprung = ~restrained & (spring > 0)
-    held = restrained | (spring > 0)
     k = model.axial_stiffness
     with np.errstate(over="ignore", invalid="ignore"):
-        out_of_balance = A @ T - F
-        member_scale = k[:, None] * (abs(A.T) @ np.abs(U) + np.abs(E0))
+        stretch = absA.T @ np.abs(U)
+        if E0 is not None:
+            stretch += np.abs(E0)
+        member_scale = k[:, None] * stretch
         tiny = np.abs(T) <= ROUND_OFF * member_scale
         redo = np.flatnonzero(tiny.any(axis=0))
         if redo.size:  # as in _make_result: round-off forces shown as 0
