@@ -82,3 +82,20 @@ def test_batched_checks_fail_closed_on_the_right_result() -> None:
         static._make_results(m, labels, U, T, R, F, E, E0, A, abs(A), m.springs.ravel(),
                              m.restraint.ravel())
     assert U.shape[0] == n3
+
+
+def test_column_norms_equal_the_scaled_norm_of_each_column() -> None:
+    # Columns of ordinary size, near the float64 limits, all zero, with inf and NaN: the
+    # blocked norm must give what _norm (scaled, no overflow) gives column by column.
+    rng = np.random.default_rng(3)
+    X = rng.normal(size=(50, 6))
+    X[:, 1] *= 1e200
+    X[:, 2] *= 1e-200
+    X[:, 3] = 0.0
+    X[7, 4] = np.inf
+    X[9, 5] = np.nan
+    got = static._column_norms(X)
+    want = [static._norm(X[:, j]) for j in range(6)]
+    np.testing.assert_allclose(got[:3], want[:3], rtol=1e-14)
+    assert got[3] == 0.0 and got[4] == np.inf and np.isnan(got[5])
+    np.testing.assert_allclose(got[0], np.linalg.norm(X[:, 0]), rtol=1e-14)

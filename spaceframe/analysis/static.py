@@ -76,19 +76,18 @@ def _column_norms(X: np.ndarray) -> np.ndarray:
     overflow or underflow in their squares: their norm is the plain square
     root of one fused sum of squares; only the others are scaled first.
     """
+    # The largest size in each column (NaN where the column holds one).
     hi = np.maximum(X.max(axis=0, initial=-np.inf), -X.min(axis=0, initial=np.inf))
-    hi = np.where(np.isfinite(hi) | np.isnan(hi), hi, np.inf)
     out = np.sqrt(np.einsum("ij,ij->j", X, X))
     risky = ~((hi < 1e150) & (hi > 1e-150)) & (hi > 0)
     if np.any(risky):
         cols = np.flatnonzero(risky)
-        big = np.abs(X[:, cols]).max(axis=0)
-        ok = (big > 0) & np.isfinite(big)
+        big = hi[cols]
+        ok = np.isfinite(big)
         safe = np.where(ok, big, 1.0)
         with np.errstate(over="ignore", invalid="ignore"):
             scaled = np.sqrt(((X[:, cols] / safe) ** 2).sum(axis=0)) * safe
         out[cols] = np.where(ok, scaled, big)
-    out[hi == 0] = 0.0
     return out
 
 
@@ -127,9 +126,9 @@ def _symmetric_products(K: sp.spmatrix, upper: bool) -> tuple[Any, Any]:
 def _refine(factor: Factor, K: sp.spmatrix, upper: bool, rhs: np.ndarray,
             sol: np.ndarray) -> np.ndarray:
     """Iterative refinement in working precision until the backward error is small."""
-    dot, absdot = _symmetric_products(K, upper)
     if sol.ndim == 1:
         return _refine(factor, K, upper, rhs[:, None], sol[:, None])[:, 0]
+    dot, absdot = _symmetric_products(K, upper)
     sol = sol.copy()
     cols = np.arange(sol.shape[1])  # the columns still refined
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
@@ -227,9 +226,9 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
             UP[:, j] = np.where(lc.settlement_mask, lc.settlement, 0.0).ravel()
         UP[~restrained] = 0.0
     if E0 is not None or UP is not None:
-        e0 = np.zeros((b, m)) if E0 is None else E0
-        up_e = 0.0 if UP is None else A.T @ UP
-        rhs = (F + A @ (k[:, None] * (e0 - up_e)))[free]
+        # Free elongations less those the prescribed displacements impose.
+        e = (0.0 if E0 is None else E0) - (0.0 if UP is None else A.T @ UP)
+        rhs = (F + A @ (k[:, None] * e))[free]
     else:
         rhs = F[free]
 
