@@ -125,6 +125,9 @@ def read(
             collector, raw, insunits = streamed
             doc, recovered = None, None
         else:
+            # What ezdxf said during a stream given up belongs to no read: the
+            # whole-file read below says its own.
+            log.messages.clear()
             doc, recovered = _open(settings.path)
             try:
                 layer_names = {entry.dxf.name.lower(): entry.dxf.name for entry in doc.layers}
