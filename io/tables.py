@@ -161,6 +161,14 @@ def _reaction_table(results: Results, digits: int) -> tuple[list[str], list[_Col
     return header, cols
 
 
+def _check_request(what: str, prefix: str, results: Results) -> None:
+    """WriteError naming ``what`` for a prefix with a folder in it, or no results."""
+    if Path(prefix).name != prefix and prefix:
+        raise WriteError(f"{what}: prefix {prefix!r} must not contain a folder")
+    if len(results) == 0:
+        raise WriteError(f"{what}: there are no load cases or combinations to write")
+
+
 def _temp_name(final: Path) -> Path:
     return final.with_name(f".{final.name}.{os.getpid()}-{uuid.uuid4().hex[:12]}.tmp")
 
@@ -218,10 +226,7 @@ def write(
     only when all are complete; a failure leaves earlier tables untouched.
     """
     out = Path(folder)
-    if Path(prefix).name != prefix and prefix:
-        raise WriteError(f"tables in {out}: prefix {prefix!r} must not contain a folder")
-    if len(results) == 0:
-        raise WriteError(f"tables in {out}: there are no load cases or combinations to write")
+    _check_request(f"tables in {out}", prefix, results)
     if not 1 <= int(digits) <= 17:
         raise WriteError(f"tables in {out}: digits={digits!r} must be 1 to 17")
     data = summary(results)
@@ -295,11 +300,7 @@ def write_arrays(
         file cannot be written (nothing is left half-written).
     """
     out = Path(folder)
-    if Path(prefix).name != prefix and prefix:
-        raise WriteError(f"{ARRAYS_FILE} in {out}: prefix {prefix!r} must not contain a folder")
-    if len(results) == 0:
-        raise WriteError(f"{ARRAYS_FILE} in {out}: there are no load cases or combinations "
-                         "to write")
+    _check_request(f"{ARRAYS_FILE} in {out}", prefix, results)
     model = results.model
     items = list(results.values())
     arrays: dict[str, Any] = {
