@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from spaceframe.errors import ModelError
-from spaceframe.viewer.scene import FrameScene, Writer
+from spaceframe.viewer.scene import FrameScene, Writer, symmetric_range
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
@@ -91,6 +91,13 @@ def self_stress_results(model: Model, states: Any) -> Results:
     return Results(model, items)
 
 
+def _amplitude(value: Any) -> float:
+    amp = float(value)
+    if not (np.isfinite(amp) and amp >= 0):
+        raise ModelError(f"viewer: amplitude={value!r} must be a length >= 0, m")
+    return amp
+
+
 class ModeScene(FrameScene):
     """A :class:`FrameScene` of mode shapes, drawn at an amplitude (metres).
 
@@ -104,9 +111,7 @@ class ModeScene(FrameScene):
                  amplitude: float | None = None, **options: Any) -> None:
         size = results.model.size or 1.0
         self.default_amplitude = DEFAULT_AMPLITUDE * size
-        amp = self.default_amplitude if amplitude is None else float(amplitude)
-        if not (np.isfinite(amp) and amp >= 0):
-            raise ModelError(f"viewer: amplitude={amplitude!r} must be a length >= 0, m")
+        amp = self.default_amplitude if amplitude is None else _amplitude(amplitude)
         self._amplitude_slider: Any = None
         options.setdefault("color_by", "axial_force")
         super().__init__(results, case, scale=amp, **options)
@@ -122,21 +127,17 @@ class ModeScene(FrameScene):
         if self.color_by != "axial_force":
             return super()._member_scalars(name)
         values = self.results[name].axial_forces  # the stretch: no unit to convert
-        top = float(np.abs(values).max(initial=0.0)) or 1.0
-        return values, (-top, top)
+        return values, symmetric_range(values)
 
     @property
     def amplitude(self) -> float:
         """The drawn largest movement of the mode, m."""
         return float(self.scale)
 
-    def set_amplitude(self, amplitude: float) -> None:
-        """Draw the mode on show with this largest movement (m), without rendering."""
-        amp = float(amplitude)
-        if not (np.isfinite(amp) and amp >= 0):
-            raise ModelError(f"viewer: amplitude={amplitude!r} must be a length >= 0, m")
-        self.scale_option = amp
-        self.set_case(self.case)
+    def set_amplitude(self, amplitude: float, case: str | None = None) -> None:
+        """Draw the mode on show (or ``case``) with this largest movement (m), not rendered."""
+        self.scale_option = _amplitude(amplitude)
+        self.set_case(self.case if case is None else case)
 
     def _enable_interaction(self) -> None:
         super()._enable_interaction()
@@ -214,9 +215,9 @@ def mode_animation(
     if int(frames) < 2:
         raise ModelError(f"viewer: frames={frames!r}: an animation needs at least 2")
     label, shape = mode
+    back = f"{label}, swinging back"
     # The swing back is the reversed shape at a positive amplitude.
-    both = mode_results(results, [(label, shape), (f"{label}, swinging back",
-                                                   -np.asarray(shape, dtype=float))])
+    both = mode_results(results, [(label, shape), (back, -np.asarray(shape, dtype=float))])
     scene = ModeScene(both, label, amplitude=amplitude, off_screen=True, window_size=size,
                       view=view)
     try:
@@ -226,10 +227,7 @@ def mode_animation(
         images = []
         for k in range(int(frames)):
             a = peak * float(np.sin(2.0 * np.pi * k / int(frames)))
-            name = label if a >= 0 else f"{label}, swinging back"
-            if name != scene.case:
-                scene.set_case(name)
-            scene.set_amplitude(abs(a))
+            scene.set_amplitude(abs(a), label if a >= 0 else back)  # one update per frame
             frame = Image.open(io.BytesIO(scene.png()))
             images.append(frame.convert("P", palette=Image.Palette.ADAPTIVE))
     finally:

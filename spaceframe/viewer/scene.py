@@ -106,6 +106,12 @@ def _legend_size(labels: Sequence[str], window: Sequence[int]) -> tuple[float, f
     return min(0.45, width / w), min(0.9, height / h)
 
 
+def symmetric_range(values: np.ndarray) -> tuple[float, float]:
+    """A colour range symmetric about zero: the neutral middle colour means no force."""
+    top = float(np.abs(values).max(initial=0.0)) or 1.0
+    return -top, top
+
+
 def _check_options(color_by: str, view: str) -> None:
     if color_by not in COLOR_BY:
         raise ModelError(f"color_by={color_by!r}: expected one of {', '.join(COLOR_BY)}")
@@ -268,9 +274,7 @@ class FrameScene(Interaction):
         res = self.results[name]
         if self.color_by in ("axial_force", "stress"):
             values = res.axial_forces / 1e3 if self.color_by == "axial_force" else res.stress / 1e6
-            top = float(np.abs(values).max(initial=0.0)) or 1.0
-            # Symmetric about zero: the neutral middle colour means no force in every case.
-            return values, (-top, top)
+            return values, symmetric_range(values)
         if self.color_by == "displacement":
             mag = np.linalg.norm(res.displacements, axis=1) * 1e3
             return mag, (0.0, float(mag.max(initial=0.0)) or 1.0)
