@@ -89,3 +89,20 @@ def test_nothing_to_write_is_said(tmp_path, capsys) -> None:
     assert code == 0
     assert "determinacy: 0 mechanisms, 0 states of self-stress" in out
     assert "no mechanism and no state of self-stress to write" in out
+
+
+def test_a_folder_with_other_files_is_refused_and_left_alone(tmp_path, capsys) -> None:
+    # Rerunning into the folder it wrote replaces its own files.
+    assert _check(tmp_path, "", capsys)[0] == 1
+    assert _check(tmp_path, "", capsys)[0] == 1
+    # A file the tool did not write, even one named like its own series, is never touched.
+    mine = tmp_path / "modes" / "notes.txt"
+    mine.write_text("site survey, do not lose", encoding="utf-8")
+    before = sorted(p.name for p in (tmp_path / "modes").iterdir())
+    (tmp_path / "sq.toml").write_text(SQUARE.format(extra=""), encoding="utf-8")
+    code = main(["check", str(tmp_path / "sq.toml"), "--write-modes", str(tmp_path / "modes")])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert "--write-modes" in err and "'notes.txt'" in err and "\n" not in err.strip()
+    assert mine.read_text(encoding="utf-8") == "site survey, do not lose"
+    assert sorted(p.name for p in (tmp_path / "modes").iterdir()) == before

@@ -148,6 +148,28 @@ def _components(model: Model) -> int:
 ANIMATED_MECHANISMS = 3
 
 
+#: Names ``check --write-modes`` writes (and the temporary names of its writes).
+_MODE_FILES = re.compile(r"(mechanisms|self_stress)\.pvd|mechanism_mode\d+(_\d+)?\.(vtu|gif)"
+                         r"|self_stress_state\d+(_\d+)?\.vtu|\..+\.tmp|\..+\.vtu")
+
+
+def _check_modes_folder(folder: Path) -> None:
+    """Refuse a folder holding anything ``check --write-modes`` does not write itself.
+
+    Its own files it replaces; a user's file, whatever its name, is never
+    overwritten or mixed with them.
+    """
+    from spaceframe.errors import ProjectError
+
+    if folder.exists() and not folder.is_dir():
+        raise ProjectError(f"--write-modes {folder}: is a file, not a folder")
+    if folder.is_dir():
+        foreign = sorted(p.name for p in folder.iterdir() if not _MODE_FILES.fullmatch(p.name))
+        if foreign:
+            raise ProjectError(f"--write-modes {folder}: holds {foreign[0]!r}, which check does "
+                               "not write; name a new or empty folder")
+
+
 def _write_determinacy(folder: Path, model: Model, d: Any) -> dict[str, Any]:
     """The mechanism and self-stress files of ``check --write-modes``, or why there are none."""
     if (d.mechanisms and d.mechanism_modes is None) or (
@@ -155,6 +177,7 @@ def _write_determinacy(folder: Path, model: Model, d: Any) -> dict[str, Any]:
         return {"files": [], "files_note": f"not written: {d.note}"}
     if not (d.mechanisms or d.self_stress):
         return {"files": [], "files_note": "no mechanism and no state of self-stress to write"}
+    _check_modes_folder(folder)
     from spaceframe.io import vtk
 
     files = [str(p) for p in vtk.write_determinacy(folder, model, d)]
