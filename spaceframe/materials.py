@@ -20,23 +20,7 @@ __all__ = ["PRESETS", "Material", "preset", "preset_names"]
 
 @dataclass(frozen=True)
 class Material:
-    """An isotropic linear-elastic material.
-
-    Attributes
-    ----------
-    name : str
-    E : float
-        Young's modulus, Pa.
-    density : float
-        Mass density, kg/m³ (used for self-weight).
-    alpha : float
-        Coefficient of linear thermal expansion, 1/K.
-    yield_strength : float or None
-        Nominal yield strength f_y, Pa, where the material has one.
-    ultimate_strength : float or None
-        Nominal ultimate tensile strength f_u, Pa.
-    source : str
-        Where the values come from.
+    """An isotropic linear-elastic material, in SI.
 
     Raises
     ------
@@ -45,12 +29,19 @@ class Material:
         density, a non-finite alpha or a non-positive strength.
     """
 
+    #: The material's name, for messages and reports.
     name: str
+    #: Young's modulus, Pa.
     E: float
+    #: Mass density, kg/m³ (used for self-weight).
     density: float
+    #: Coefficient of linear thermal expansion, 1/K.
     alpha: float = 0.0
+    #: Nominal yield strength f_y, Pa, where the material has one.
     yield_strength: float | None = None
+    #: Nominal ultimate tensile strength f_u, Pa.
     ultimate_strength: float | None = None
+    #: Where the values come from.
     source: str = "user-defined"
 
     def __post_init__(self) -> None:

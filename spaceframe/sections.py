@@ -52,30 +52,21 @@ CORNER_RULES: Mapping[str, str] = MappingProxyType(
 
 @dataclass(frozen=True)
 class Section:
-    """A member cross-section.
+    """A member cross-section, its properties in SI."""
 
-    Attributes
-    ----------
-    name : str
-    shape : str
-        "chs", "rhs", "shs", "bar", "cable" or "user".
-    area : float
-        Cross-section area carrying axial force, m².
-    second_moment : float
-        Smallest second moment of area, m⁴ (governs flexural buckling of a
-        pin-ended strut); NaN when unknown (a user section given by area only),
-        0 for a cable.
-    dimensions : dict
-        The defining dimensions in SI, for reports.
-    note : str
-        Where the formulas or factors come from.
-    """
-
+    #: The section's name, for messages and reports.
     name: str
+    #: "chs", "rhs", "shs", "bar", "cable" or "user".
     shape: str
+    #: Cross-section area carrying axial force, m².
     area: float
+    #: Smallest second moment of area, m⁴ (governs flexural buckling of a
+    #: pin-ended strut); NaN when unknown (a user section given by area only),
+    #: 0 for a cable.
     second_moment: float
+    #: The defining dimensions in SI, for reports.
     dimensions: Mapping[str, float] = field(default_factory=dict)
+    #: Where the formulas or factors come from.
     note: str = ""
 
     def __post_init__(self) -> None:

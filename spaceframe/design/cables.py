@@ -19,27 +19,19 @@ __all__ = ["CABLE_PRESETS", "CablePreset", "cable_preset"]
 
 @dataclass(frozen=True)
 class CablePreset:
-    """A cable construction.
+    """A cable construction: strand modulus, fill and breaking-force terms."""
 
-    Attributes
-    ----------
-    name : str
-    E : float
-        Modulus of the metallic area, Pa.
-    fill : float
-        Metallic area / (pi d²/4).
-    breaking_factor : float
-        K in F_min = K d² R_r.
-    grade : float
-        Wire tensile grade R_r, Pa.
-    source : str
-    """
-
+    #: The preset's name.
     name: str
+    #: Modulus of the metallic area, Pa.
     E: float
+    #: Metallic area / (pi d²/4).
     fill: float
+    #: K in F_min = K d² R_r.
     breaking_factor: float
+    #: Wire tensile grade R_r, Pa.
     grade: float
+    #: Where the values come from.
     source: str
 
     def breaking_force(self, diameter: float) -> float:

@@ -20,21 +20,17 @@ __all__ = ["Action", "GeneratedCombination", "generate_combinations"]
 
 @dataclass(frozen=True)
 class Action:
-    """A load case declared as an action.
+    """A load case declared as an action, with its ψ factors."""
 
-    Attributes
-    ----------
-    case : str
-        The load case holding the action's characteristic value.
-    kind : {"permanent", "variable"}
-    psi0, psi1, psi2 : float
-        Combination, frequent and quasi-permanent factors of a variable action.
-    """
-
+    #: The load case holding the action's characteristic value.
     case: str
+    #: "permanent" or "variable".
     kind: str = "permanent"
+    #: Combination factor ψ0 of a variable action.
     psi0: float = 1.0
+    #: Frequent factor ψ1 of a variable action.
     psi1: float = 1.0
+    #: Quasi-permanent factor ψ2 of a variable action.
     psi2: float = 1.0
 
     def __post_init__(self) -> None:

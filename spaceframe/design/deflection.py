@@ -27,29 +27,21 @@ _AXES = {"x": 0, "y": 1, "z": 2}
 
 @dataclass(frozen=True)
 class DeflectionCheck:
-    """Largest deflection of the selected nodes against span / ratio.
+    """Largest deflection of the selected nodes against span / ratio."""
 
-    Attributes
-    ----------
-    result : str
-    span : float
-        m.
-    ratio : float
-    limit : float
-        span / ratio, m.
-    deflection : float
-        Largest absolute displacement along ``direction`` of the selected nodes, m.
-    node : int
-        Where it occurs.
-    direction : str
-    """
-
+    #: Name of the result (load case or combination) checked.
     result: str
+    #: Span, m.
     span: float
+    #: The ratio in the limit span / ratio.
     ratio: float
+    #: span / ratio, m.
     limit: float
+    #: Largest absolute displacement along ``direction`` of the selected nodes, m.
     deflection: float
+    #: The node where it occurs.
     node: int
+    #: The axis checked, "x", "y" or "z".
     direction: str
 
     @property
