@@ -52,7 +52,15 @@ CORNER_RULES: Mapping[str, str] = MappingProxyType(
 
 @dataclass(frozen=True)
 class Section:
-    """A member cross-section, its properties in SI."""
+    """A member cross-section, its properties in SI.
+
+    Raises
+    ------
+    ModelError
+        From the constructor, on an area that is not a positive number or
+        exceeds ``MAX_DIMENSION**2`` (a slip of units), or a negative second
+        moment.
+    """
 
     #: The section's name, for messages and reports.
     name: str
@@ -70,8 +78,7 @@ class Section:
     note: str = ""
 
     def __post_init__(self) -> None:
-        if not (math.isfinite(self.area) and self.area > 0):
-            raise ModelError(f"section {self.name!r}: area = {self.area!r} must be positive")
+        _positive(self.name, power=2, area=self.area)
         if not (math.isnan(self.second_moment) or self.second_moment >= 0):
             raise ModelError(
                 f"section {self.name!r}: second moment = {self.second_moment!r} "

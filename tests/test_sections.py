@@ -11,6 +11,7 @@ import pytest
 from spaceframe.errors import ModelError
 from spaceframe.sections import (
     SPIRAL_STRAND_FILL,
+    Section,
     cable,
     circular_hollow,
     corner_radii,
@@ -166,6 +167,10 @@ def test_user_section() -> None:
         (lambda: square_hollow("c", 0.1, 0.005, outer_radius=-1.0), "outer_radius = -1.0"),
         (lambda: user_section("c", 0.0), "area = 0.0"),
         (lambda: user_section("c", 1e-3, -1e-6), "second_moment = -1e-06"),
+        # A Section made directly is checked as the builders check their area.
+        (lambda: Section("c", "user", area=-1.0, second_moment=0.0), "area = -1.0"),
+        (lambda: Section("c", "user", area=True, second_moment=0.0), "must be a number"),
+        (lambda: Section("c", "user", area=1e-3, second_moment=-1.0), "second moment = -1.0"),
     ],
 )
 def test_bad_dimensions_are_refused(build: object, fragment: str) -> None:
@@ -183,6 +188,7 @@ def test_bad_dimensions_are_refused(build: object, fragment: str) -> None:
         (lambda: square_hollow("huge", 1e120, 0.01), "width = 1e\\+120 m"),
         (lambda: user_section("huge", 1e300), r"area = 1e\+300 m\^2 is larger than 1e\+06 m\^2"),
         (lambda: user_section("huge", 1.0, 1e300), r"second_moment = 1e\+300 m\^4"),
+        (lambda: Section("huge", "user", 1e300, 0.0), r"area = 1e\+300 m\^2 is larger"),
     ],
 )
 def test_overflowing_dimensions_are_refused_not_raised(build: object, fragment: str) -> None:
