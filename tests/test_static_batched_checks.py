@@ -31,7 +31,8 @@ def _model() -> sf.Model:
     return m
 
 
-def _per_column(model, labels, U, T, R, F, elong, E0, A, absA, spring, restrained, area=None):  # type: ignore[no-untyped-def]
+def _per_column(model, labels, U, T, R, F, elong, E0, A, absA, spring, restrained,  # type: ignore[no-untyped-def]
+                area=None, known=None):
     # The solve hands over no reactions (they follow from equilibrium) and no free strains
     # when no case has any: the per-result checks get them written out.
     if R is None:

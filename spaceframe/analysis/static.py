@@ -101,81 +101,28 @@ def _check_finite(names: list[str], uf: np.ndarray, what: str = "displacements")
         )
 
 
-def _symmetric_products(K: sp.spmatrix, upper: bool) -> tuple[Any, Any]:
-    """The products K x and |K| x, for K stored whole or as its upper triangle U.
-
-    With the upper triangle, K x = U x + Uᵀ x − diag(U) x: two products on
-    the stored triangle instead of building the full matrix (which costs more
-    than the products at 100k members).
-    """
-    absK = abs(K)
-    if not upper:
-        return (lambda x: K @ x), (lambda x: absK @ x)
-    d = K.diagonal()[:, None]
-    KT, absKT, absd = K.T, absK.T, np.abs(d)
-
-    def dot(x: np.ndarray) -> np.ndarray:
-        return K @ x + KT @ x - d * x
-
-    def absdot(x: np.ndarray) -> np.ndarray:
-        return absK @ x + absKT @ x - absd * x
-
-    return dot, absdot
-
-
-def _refine(factor: Factor, K: sp.spmatrix, upper: bool, rhs: np.ndarray,
-            sol: np.ndarray) -> np.ndarray:
-    """Iterative refinement in working precision until the backward error is small."""
-    if sol.ndim == 1:
-        return _refine(factor, K, upper, rhs[:, None], sol[:, None])[:, 0]
-    dot, absdot = _symmetric_products(K, upper)
-    sol = sol.copy()
-    cols = np.arange(sol.shape[1])  # the columns still refined
-    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        for _ in range(_REFINE_STEPS):
-            x, b = sol[:, cols], rhs[:, cols]
-            r = b - dot(x)
-            denom = absdot(np.abs(x)) + np.abs(b)
-            omega = np.where(denom > 0, np.abs(r) / np.where(denom > 0, denom, 1.0), 0.0)
-            worst = omega.max(axis=0, initial=0.0)
-            # Only the columns whose backward error is still above the bar are
-            # solved again (with many cases, most need no second solve).
-            again = ~(worst <= REFINE_ABOVE) & np.isfinite(worst)
-            if not np.any(again):
-                break
-            cols, r = cols[again], r[:, again]
-            sol[:, cols] = sol[:, cols] + factor.solve(r).reshape(r.shape)
-    return sol
-
-
 def full_matrix(K: sp.spmatrix, backend: str) -> sp.spmatrix:
     """The full symmetric matrix from what the back-end was given."""
     return full_symmetric(K, "upper" if needs_upper(backend) else "full")
 
 
-def _warn_large(model: Model, names: list[str], items: dict[str, CaseResult]) -> None:
-    """One SpaceframeWarning when displacements exceed the linear range."""
-    if not items or model.n_nodes == 0:
+def _warn_large(model: Model, names: list[str], peaks: np.ndarray, nodes: np.ndarray) -> None:
+    """One SpaceframeWarning when displacements exceed the linear range.
+
+    ``peaks`` and ``nodes``: each result's largest displacement and its node
+    (:func:`_peak_displacements`).
+    """
+    if not names or model.n_nodes == 0:
         return
-    peaks, nodes = [], []
-    for name in names:
-        u = items[name].displacements
-        big = float(np.abs(u).max(initial=0.0))
-        big = big if big > 0 and np.isfinite(big) else 1.0
-        mag = np.sqrt(((u / big) ** 2).sum(axis=1)) * big  # no overflow in the squares
-        nodes.append(int(np.argmax(mag)))
-        peaks.append(float(mag[nodes[-1]]))
-    peak = np.array(peaks)
     limit = LARGE_DISPLACEMENT_FRACTION * model.size
-    over = np.flatnonzero(peak > limit)
+    over = np.flatnonzero(peaks > limit)
     if not over.size:
         return
-    j = int(over[np.argmax(peak[over])])
-    node = nodes[j]
+    j = int(over[np.argmax(peaks[over])])
     others = f" ({over.size} results in all)" if over.size > 1 else ""
     warnings.warn(
-        f"result {names[j]!r}: largest displacement {peak[j]:.3g} m at node {node} is "
-        f"{peak[j] / model.size:.3g} times the model size ({model.size:.3g} m), beyond "
+        f"result {names[j]!r}: largest displacement {peaks[j]:.3g} m at node {nodes[j]} is "
+        f"{peaks[j] / model.size:.3g} times the model size ({model.size:.3g} m), beyond "
         f"{LARGE_DISPLACEMENT_FRACTION:.0%}{others}: a linear analysis is not valid at such "
         "displacements; a geometrically nonlinear analysis is needed",
         SpaceframeWarning,
@@ -183,127 +130,227 @@ def _warn_large(model: Model, names: list[str], items: dict[str, CaseResult]) ->
     )
 
 
+def _peak_displacements(U: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Largest displacement magnitude of each column of U (3n x columns), and its node."""
+    n, c = U.shape[0] // 3, U.shape[1]
+    if n == 0:
+        return np.zeros(c), np.zeros(c, dtype=int)
+    big = np.abs(U).max(axis=0)
+    big = np.where((big > 0) & np.isfinite(big), big, 1.0)
+    scaled = U.reshape(n, 3, c) / big  # no overflow in the squares
+    mag = np.sqrt(np.einsum("ijk,ijk->ik", scaled, scaled))
+    nodes = np.argmax(mag, axis=0)
+    return mag[nodes, np.arange(c)] * big, nodes
+
+
+def _case_columns(model: Model, names: list[str], temperature: bool,
+                  settlement: bool) -> tuple[np.ndarray, np.ndarray | None, np.ndarray | None]:
+    """Forces F (3n x c), free elongations E0 (b x c) and settlements UP of some cases.
+
+    E0 and UP are None when no case of the model has any (at 1000 cases of a
+    100k-member model each would be 0.6-0.8 GB of zeros).
+    """
+    n, b, c = model.n_nodes, model.n_members, len(names)
+    F = np.empty((3 * n, c))
+    E0 = np.zeros((b, c)) if temperature else None
+    UP = np.zeros((3 * n, c)) if settlement else None
+    for j, name in enumerate(names):
+        lc = model.cases[name]
+        F[:, j] = lc.forces.reshape(-1)
+        if E0 is not None:
+            E0[:, j] = model.lengths * (model.alpha * lc.temperature + lc.initial_strain)
+        if UP is not None:
+            UP[:, j] = np.where(lc.settlement_mask, lc.settlement, 0.0).reshape(-1)
+    if UP is not None:
+        UP[~model.restraint.reshape(-1)] = 0.0
+    return F, E0, UP
+
+
+class _Static:
+    """What every block of columns of one static solve shares."""
+
+    def __init__(self, model: Model, A: sp.spmatrix, free: np.ndarray,
+                 factor: Factor | None, timings: dict[str, float]) -> None:
+        self.model, self.A, self.absA, self.free = model, A, abs(A), free
+        self.factor, self.timings = factor, timings
+        self.k = model.axial_stiffness
+        self.spring = model.springs.ravel()
+        self.restrained = model.restraint.ravel()
+        self.restrained_rows = np.flatnonzero(self.restrained)
+        self.has_springs = bool(np.any(self.spring > 0))
+        self.area = np.array(model.area, dtype=float)
+        self.area.flags.writeable = False  # one snapshot, shared by every result
+
+    def solve_cases(self, names: list[str], F: np.ndarray, E0: np.ndarray | None,
+                    UP: np.ndarray | None) -> np.ndarray:
+        """Displacements (3n x c) of the cases whose columns are F, E0 and UP."""
+        t = time.perf_counter()
+        A, k, free = self.A, self.k, self.free
+        U = np.zeros_like(F) if UP is None else UP
+        if self.factor is not None:
+            if E0 is not None or UP is not None:
+                # Free elongations less those the prescribed displacements impose.
+                e = (0.0 if E0 is None else E0) - (0.0 if UP is None else A.T @ UP)
+                rhs = (F + A @ (k[:, None] * e))[free]
+            else:
+                rhs = F[free]
+            # Both back-ends reject zero pivots (solvers.PIVOT_TOLERANCE), so a
+            # mechanism the loads happen to miss is caught without a probe column.
+            sol = self.factor.solve(rhs).reshape(free.size, F.shape[1])
+            _check_finite(names, sol)
+            U[free] = sol
+        self.timings["solve"] += time.perf_counter() - t
+        return U
+
+    def _refine(self, names: list[str], U: np.ndarray, F: np.ndarray,
+                out: np.ndarray, scale_terms: np.ndarray) -> bool:
+        """One step of iterative refinement of the columns that need it; True if any did.
+
+        The out-of-balance forces at free directions, plus the springs' k u,
+        are the solve's own residual K u - f; |A| k (|A^T| |u| + |e0|) + |f|
+        + s |u| bounds |K| |u| + |f_f + (A k e)_f| entry by entry, so each
+        column's componentwise backward error is measured from the recovery's
+        own terms (Skeel's test, with a bound no smaller than its own).
+        """
+        if self.factor is None:
+            return False
+        s = self.spring[:, None]
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            # Over every row at once (rows picked out by an index would be
+            # copies), the restrained rows set to 0 afterwards: they are few.
+            ratio = np.abs(out + s * U if self.has_springs else out)
+            denom = scale_terms + np.abs(F)
+            if self.has_springs:
+                denom += s * np.abs(U)
+            np.divide(ratio, denom, out=ratio)
+            ratio[self.restrained_rows] = 0.0
+            # 0/0 (nothing there) is no error: fmax skips the NaN; r/0 with
+            # r > 0 is infinite and left to the self-checks, as is NaN input.
+            omega = np.fmax.reduce(ratio, axis=0, initial=0.0)
+        again = np.flatnonzero(~(omega <= REFINE_ABOVE) & np.isfinite(omega))
+        if not again.size:
+            return False
+        t = time.perf_counter()
+        free = self.free
+        res = out[np.ix_(free, again)] + self.spring[free, None] * U[np.ix_(free, again)]
+        step = self.factor.solve(-res).reshape(free.size, again.size)
+        _check_finite([names[j] for j in again], step)
+        U[np.ix_(free, again)] += step
+        self.timings["solve"] += time.perf_counter() - t
+        return True
+
+    def results(self, labels: list[tuple[str, str, dict[str, float] | None]],
+                U: np.ndarray, F: np.ndarray, E0: np.ndarray | None,
+                refine: bool) -> dict[str, CaseResult]:
+        """The checked results of the columns U (refined first when ``refine``)."""
+        t = time.perf_counter()
+        A, k = self.A, self.k
+        for step in range(_REFINE_STEPS + 1):
+            with np.errstate(over="ignore", invalid="ignore"):
+                elong = A.T @ U
+                T = k[:, None] * (elong if E0 is None else elong - E0)
+                out = A @ T - F
+            scales = None
+            if not refine or step == _REFINE_STEPS:
+                break
+            scales = _scale_terms(U, E0, self.absA, k)
+            if not self._refine([lab[1] for lab in labels], U, F, out, scales[1]):
+                break
+        items = _make_results(self.model, labels, U, T, None, F, elong, E0, A, self.absA,
+                              self.spring, self.restrained, area=self.area,
+                              known=(out, scales))
+        self.timings["recover"] += time.perf_counter() - t
+        return items
+
+
 def solve_static(model: Model, solver: str = "auto") -> Results:
     """Solve all load cases with one factorisation; see :meth:`Model.solve`."""
     t0 = time.perf_counter()
-    timings: dict[str, float] = {}
+    timings: dict[str, float] = {"solve": 0.0, "recover": 0.0}
     model.validate()
     backend = resolve_backend(solver)
     check_stability(model)
     check_conditioning(model)
     timings["stability"] = time.perf_counter() - t0
 
-    n, b = model.n_nodes, model.n_members
     names = list(model.cases)
     for lc in model.cases.values():
-        lc.resize(n, b)
-    m = len(names)
+        lc.resize(model.n_nodes, model.n_members)
 
     t = time.perf_counter()
     A = equilibrium_matrix(model)
     K, free = reduced_system(model, backend)
-    k = model.axial_stiffness
     timings["assemble"] = time.perf_counter() - t
 
-    # Loads as columns: applied forces, free elongations, prescribed displacements.
-    # Free elongations and settlements are rare: their arrays exist only when
-    # some case has them (at 1000 cases of a 100k-member model each would be
-    # 0.6-0.8 GB of zeros).
-    F = np.zeros((3 * n, m))
-    for j, name in enumerate(names):
-        F[:, j] = model.cases[name].forces.ravel()
-    restrained = model.restraint.ravel()
-    E0 = UP = None
-    if any(np.any(lc.temperature) or np.any(lc.initial_strain) for lc in model.cases.values()):
-        E0 = np.zeros((b, m))
-        for j, name in enumerate(names):
-            lc = model.cases[name]
-            E0[:, j] = model.lengths * (model.alpha * lc.temperature + lc.initial_strain)
-    if any(np.any(lc.settlement_mask) for lc in model.cases.values()):
-        UP = np.zeros((3 * n, m))
-        for j, name in enumerate(names):
-            lc = model.cases[name]
-            UP[:, j] = np.where(lc.settlement_mask, lc.settlement, 0.0).ravel()
-        UP[~restrained] = 0.0
-    if E0 is not None or UP is not None:
-        # Free elongations less those the prescribed displacements impose.
-        e = (0.0 if E0 is None else E0) - (0.0 if UP is None else A.T @ UP)
-        rhs = (F + A @ (k[:, None] * e))[free]
-    else:
-        rhs = F[free]
-
-    t = time.perf_counter()
-    if free.size == 0:
-        # Every direction is restrained: nothing to solve, forces come from
-        # the prescribed displacements and free strains alone.
-        solver_name = "none"
-        uf = np.zeros((0, m))
-    else:
+    factor: Factor | None = None
+    if free.size:  # else every direction is restrained: nothing to solve
+        t = time.perf_counter()
         try:
-            # No refinement inside PARDISO: _refine below measures every column's
-            # backward error and solves again only those above the bar (PARDISO's
-            # own refinement would solve every column two more times).
+            # No refinement inside PARDISO: the recovery measures every column's
+            # backward error and solves again only those above the bar
+            # (PARDISO's own refinement would solve every column two more times).
             factor = factorize(K, backend, refine=False)
         except SingularFactor as exc:
             name_singular(model, full_matrix(K, backend), free, exc)
-        solver_name = factor.name
         timings["factorise"] = time.perf_counter() - t
-        t = time.perf_counter()
-        # Both back-ends reject zero pivots (solvers.PIVOT_TOLERANCE), so a
-        # mechanism the loads happen to miss is caught without a probe column.
-        sol = factor.solve(rhs).reshape(free.size, m)
-        _check_finite(names, sol)
-        sol = _refine(factor, K, needs_upper(backend), rhs, sol)
-        _check_finite(names, sol)
-        uf = sol
-    del rhs
-    timings["solve"] = time.perf_counter() - t
-
-    t = time.perf_counter()
-    U = np.zeros((3 * n, m)) if UP is None else UP
-    U[free] = uf
-    del uf
-    labels: list[tuple[str, str, dict[str, float] | None]] = [
-        ("case", name, None) for name in names]
-    labels += [("combination", cname, factors)
-               for cname, factors in model.combinations.items()]
-    # Every result as a column, cases then combinations; a combination's
-    # column is U @ w, solved as one load vector, so each result is what it
-    # would be on its own.
-    weights = np.zeros((m, len(model.combinations)))
-    for i, factors in enumerate(model.combinations.values()):
+    run = _Static(model, A, free, factor, timings)
+    temperature = any(np.any(lc.temperature) or np.any(lc.initial_strain)
+                      for lc in model.cases.values())
+    settlement = any(np.any(lc.settlement_mask) for lc in model.cases.values())
+    items: dict[str, CaseResult] = {}
+    # Cases a block of columns at a time, from loads to checked results: the
+    # temporaries stay a few arrays of (model rows x block) however many cases.
+    blocks: list[tuple[slice, np.ndarray, np.ndarray, np.ndarray | None]] = []
+    peaks: list[tuple[np.ndarray, np.ndarray]] = []
+    for lo in range(0, len(names), _RECOVER_BLOCK):
+        cols = slice(lo, lo + _RECOVER_BLOCK)
+        F, E0, UP = _case_columns(model, names[cols], temperature, settlement)
+        U = run.solve_cases(names[cols], F, E0, UP)
+        items.update(run.results([("case", name, None) for name in names[cols]], U, F, E0,
+                                 refine=True))
+        blocks.append((cols, U, F, E0))
+        peaks.append(_peak_displacements(U))
+    # Combinations: a combination's column is U @ w over the cases, so each
+    # result is what the combined load vector gives on its own.
+    comb = list(model.combinations.items())
+    weights = np.zeros((len(names), len(comb)))
+    for i, (_, factors) in enumerate(comb):
         for case, f in factors.items():
             weights[names.index(case), i] += f
-    absA = abs(A)  # once: the residual's scale for every result
-    spring = model.springs.ravel()
-    area = np.array(model.area, dtype=float)
-    area.flags.writeable = False  # one snapshot, shared by every result of this solve
-    items: dict[str, CaseResult] = {}
-    # Recovery and self-checks a block of columns at a time: the temporaries
-    # of the checks stay bounded however many cases there are.
-    for lo in range(0, len(labels), _RECOVER_BLOCK):
-        cols = np.arange(lo, min(lo + _RECOVER_BLOCK, len(labels)))
-        UJ, FJ = _columns(U, cols, weights), _columns(F, cols, weights)
-        E0J = None if E0 is None else _columns(E0, cols, weights)
-        elongJ = A.T @ UJ
-        with np.errstate(over="ignore", invalid="ignore"):
-            TJ = k[:, None] * (elongJ if E0J is None else elongJ - E0J)
-        # Reactions from equilibrium inside the checks (one product with A, not two).
-        items.update(_make_results(model, [labels[j] for j in cols], UJ, TJ, None, FJ, elongJ,
-                                   E0J, A, absA, spring, restrained, area=area))
-    _warn_large(model, names + list(model.combinations), items)
-    timings["recover"] = time.perf_counter() - t
+    for lo in range(0, len(comb) if blocks else 0, _RECOVER_BLOCK):
+        cc = slice(lo, lo + _RECOVER_BLOCK)
+        with np.errstate(over="ignore", invalid="ignore"):  # checked in the results
+            UC = sum(U @ weights[cols, cc] for cols, U, _, _ in blocks)
+            FC = sum(F @ weights[cols, cc] for cols, _, F, _ in blocks)
+            EC = (sum(E0 @ weights[cols, cc] for cols, _, _, E0 in blocks if E0 is not None)
+                  if temperature else None)
+        items.update(run.results([("combination", c, f) for c, f in comb[cc]],
+                                 np.asarray(UC), np.asarray(FC),
+                                 None if EC is None else np.asarray(EC), refine=False))
+        peaks.append(_peak_displacements(np.asarray(UC)))
+    if peaks:
+        _warn_large(model, list(items), np.concatenate([p for p, _ in peaks]),
+                    np.concatenate([q for _, q in peaks]))
     timings["total"] = time.perf_counter() - t0
-    return Results(model, items, solver=solver_name, timings=timings,
-                   info={"dofs": int(free.size), "nnz": int(K.nnz)})
+    return Results(model, items, solver=factor.name if factor is not None else "none",
+                   timings=timings, info={"dofs": int(free.size), "nnz": int(K.nnz)})
 
 
-def _columns(X: np.ndarray, cols: np.ndarray, weights: np.ndarray) -> np.ndarray:
-    """Result columns ``cols`` of case columns X: a case's own, a combination's X @ w."""
-    m = X.shape[1]
-    case_cols, comb_cols = cols[cols < m], cols[cols >= m] - m
-    with np.errstate(over="ignore", invalid="ignore"):  # checked in _make_results
-        return np.column_stack([X[:, case_cols], X @ weights[:, comb_cols]])
+def _scale_terms(U: np.ndarray, E0: np.ndarray | None, absA: sp.spmatrix,
+                 k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Member scales k (|A^T| |u| + |e0|), and |A| times them per direction.
+
+    The sizes of the terms that round-off works on: a member force k (u_j -
+    u_i - e0) is computed from displacements that may be far larger than
+    their difference (a rigid-body settlement, a stiff chord carried on soft
+    diagonals), so its scale is k (|A^T| |u| + |e0|), not |k A^T u|.
+    """
+    with np.errstate(over="ignore", invalid="ignore"):
+        stretch = absA.T @ np.abs(U)
+        if E0 is not None:
+            stretch += np.abs(E0)
+        member_scale = k[:, None] * stretch
+        return member_scale, absA @ member_scale
 
 
 def check_equilibrium(
@@ -452,6 +499,7 @@ def _make_results(
     restrained: np.ndarray,
     *,
     area: np.ndarray | None = None,
+    known: tuple[np.ndarray, tuple[np.ndarray, np.ndarray] | None] | None = None,
 ) -> dict[str, CaseResult]:
     """Every result's self-checks, with the sparse products over all columns at once.
 
@@ -461,40 +509,36 @@ def _make_results(
     the results are identical, at one pass over A per product instead of one
     per result.  ``R`` None: the reactions follow from equilibrium here
     (``A T - F`` at held directions); ``E0`` None: no free strains.
+    ``known``: ``A T - F`` and, or None, :func:`_scale_terms`, when the
+    caller has them.  T may be changed in place (round-off forces set to 0).
     """
     n = model.n_nodes
     sprung = ~restrained & (spring > 0)
     held = restrained | (spring > 0)
-    with np.errstate(over="ignore", invalid="ignore"):
-        out_of_balance = A @ T - F
-    if R is None:
-        R = np.where(held[:, None], out_of_balance, 0.0)
-    for what, arr in (("displacements", U), ("axial forces", T), ("reactions", R)):
-        bad = ~np.all(np.isfinite(arr), axis=0)
-        if np.any(bad):
-            kind, name, _ = labels[int(np.flatnonzero(bad)[0])]
-            raise SolverError(
-                f"{kind} {name!r}: the solver returned non-finite {what} (numbers beyond the "
-                "range of float64: check the units of E, areas and loads)"
-            )
     k = model.axial_stiffness
     with np.errstate(over="ignore", invalid="ignore"):
-        stretch = absA.T @ np.abs(U)
-        if E0 is not None:
-            stretch += np.abs(E0)
-        member_scale = k[:, None] * stretch
+        out_of_balance = A @ T - F if known is None else known[0]
+        scales = None if known is None else known[1]
+    for what, arr in (("displacements", U), ("axial forces", T)):
+        _finite_columns(labels, what, arr)
+    member_scale, scale_terms = _scale_terms(U, E0, absA, k) if scales is None else scales
+    with np.errstate(over="ignore", invalid="ignore"):
+        # As in _make_result: forces within round-off of their scale shown as 0,
+        # before the reactions are taken from equilibrium.
         tiny = np.abs(T) <= ROUND_OFF * member_scale
         redo = np.flatnonzero(tiny.any(axis=0))
-        if redo.size:  # as in _make_result: round-off forces shown as 0
-            T = T.copy()
+        if redo.size:
+            np.copyto(T, 0.0, where=tiny)
+            out_of_balance = A @ T - F
+        if R is None:
+            R = np.where(held[:, None], out_of_balance, 0.0)
+        elif redo.size:
             R = R.copy()
-            T[:, redo] = np.where(tiny[:, redo], 0.0, T[:, redo])
-            out_of_balance[:, redo] = A @ T[:, redo] - F[:, redo]
             R[:, redo] = np.where(held[:, None], out_of_balance[:, redo], 0.0)
+    _finite_columns(labels, "reactions", R)
+    with np.errstate(over="ignore", invalid="ignore"):
         res_free = np.where(restrained[:, None], 0.0, out_of_balance - R)
         res_free[sprung] = out_of_balance[sprung] + spring[sprung, None] * U[sprung]
-        scale_terms = absA @ member_scale
-    with np.errstate(over="ignore", invalid="ignore"):
         scale = _column_norms(scale_terms) + _column_norms(F) + _column_norms(R)
         num = _column_norms(res_free)
         F3, R3 = F.reshape(n, 3, -1), R.reshape(n, 3, -1)
@@ -521,3 +565,14 @@ def _make_results(
             factors=dict(factors or {}),
         )
     return items
+
+
+def _finite_columns(labels: list[tuple[str, str, Any]], what: str, arr: np.ndarray) -> None:
+    """Fail closed, naming the first result whose column of ``arr`` is not all finite."""
+    bad = ~np.all(np.isfinite(arr), axis=0)
+    if np.any(bad):
+        kind, name, _ = labels[int(np.flatnonzero(bad)[0])]
+        raise SolverError(
+            f"{kind} {name!r}: the solver returned non-finite {what} (numbers beyond the "
+            "range of float64: check the units of E, areas and loads)"
+        )
