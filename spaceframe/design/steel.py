@@ -234,61 +234,34 @@ def _require(model: Model, missing: np.ndarray, kind: str, what: str, fix: str) 
                          f"({int(missing.sum())} members without one); {fix}")
 
 
-def check_members(
-    model: Model,
-    result: Any,
-    *,
-    gamma_M0: float = 1.0,
-    gamma_M1: float = 1.0,
-    gamma_M2: float = 1.25,
-    gamma_cable: float = 1.5,
-) -> MemberCheck:
-    """Check every member's axial resistance for one result.
+@dataclass
+class _Resistances:
+    """A model's member resistances (those of :func:`check_members`), shared by its results."""
 
-    Tension, §6.2.3: N_t,Rd = A f_y / γ_M0 (6.6), and where the member has a
-    net-area factor below 1, N_u,Rd = 0.9 A_net f_u / γ_M2 (6.7); the smaller.
-    Compression, §6.2.4 (6.10): N_c,Rd = A f_y / γ_M0, and flexural buckling
-    §6.3.1.1 (6.47): N_b,Rd = χ A f_y / γ_M1 with χ from (6.49) and
-    λ̄ = L_cr / (i λ_1), λ_1 = π sqrt(E / f_y) (§6.3.1.3 (6.50)); L_cr is the
-    member's buckling-length factor times its length.  Tension-only members
-    and cables: tension only, against breaking force / γ_cable (γ_cable = 1.5
-    by default, from memory of EN 1993-1-11 §6.2 with γ_R = 1.0: check it);
-    compression in one of them is its own failure, "cable in compression".
+    n_t: np.ndarray
+    n_c: np.ndarray
+    n_pl: np.ndarray
+    f_rd: np.ndarray
+    steel: np.ndarray
+    tension_only: np.ndarray
+    has_i: np.ndarray
+    chi: np.ndarray
+    lam: np.ndarray
+    lam_bar: np.ndarray
+    net_governs: np.ndarray
+    buckling_governs: np.ndarray
+    limit_c: np.ndarray
+    gamma: dict[str, float]
 
-    Parameters
-    ----------
-    model : Model
-        With area, E and, per member, yield strength (and second moment for
-        members that may be in compression), set by
-        :meth:`Model.set_member_properties` or the model file.
-    result : CaseResult or Envelope
-        One case, combination or envelope result of ``model``.
-    gamma_M0, gamma_M1, gamma_M2 : float
-        Partial factors; defaults are the recommended values of EN 1993-1-1
-        §6.1 Note 2B, which national annexes change.
-    gamma_cable : float
-        Factor on a cable's breaking force.
 
-    Returns
-    -------
-    MemberCheck
-
-    Raises
-    ------
-    ModelError
-        When a member lacks the yield strength (or a cable its breaking force),
-        naming it, or the result does not belong to the model.
-    """
+def _resistances(model: Model, gamma_M0: float = 1.0, gamma_M1: float = 1.0,
+                 gamma_M2: float = 1.25, gamma_cable: float = 1.5) -> _Resistances:
+    """Every member's resistances: they do not depend on the result checked."""
     for label, g in (("gamma_M0", gamma_M0), ("gamma_M1", gamma_M1), ("gamma_M2", gamma_M2),
                      ("gamma_cable", gamma_cable)):
         if not (np.isfinite(g) and g > 0):
             raise ModelError(f"check_members: {label} = {g!r} must be a positive number")
     b = model.n_members
-    tension, compression = _demands(result)
-    if tension.shape != (b,):
-        raise ModelError(
-            f"check_members: the result has {tension.size} members, the model {b}"
-        )
     area = np.asarray(model.area, dtype=float)
     e_mod = np.asarray(model.E, dtype=float)
     length = model.lengths
@@ -338,6 +311,75 @@ def check_members(
     buckling_governs = has_i & (n_b < n_pl)
     f_rd = breaking / gamma_cable
 
+    return _Resistances(
+        n_t=n_t, n_c=n_c, n_pl=n_pl, f_rd=f_rd, steel=steel, tension_only=tension_only,
+        has_i=has_i, chi=chi, lam=lam, lam_bar=lam_bar, net_governs=net_governs,
+        buckling_governs=buckling_governs, limit_c=limit_c,
+        gamma={"gamma_M0": gamma_M0, "gamma_M1": gamma_M1, "gamma_M2": gamma_M2,
+               "gamma_cable": gamma_cable})
+
+
+def check_members(
+    model: Model,
+    result: Any,
+    *,
+    gamma_M0: float = 1.0,
+    gamma_M1: float = 1.0,
+    gamma_M2: float = 1.25,
+    gamma_cable: float = 1.5,
+) -> MemberCheck:
+    """Check every member's axial resistance for one result.
+
+    Tension, §6.2.3: N_t,Rd = A f_y / γ_M0 (6.6), and where the member has a
+    net-area factor below 1, N_u,Rd = 0.9 A_net f_u / γ_M2 (6.7); the smaller.
+    Compression, §6.2.4 (6.10): N_c,Rd = A f_y / γ_M0, and flexural buckling
+    §6.3.1.1 (6.47): N_b,Rd = χ A f_y / γ_M1 with χ from (6.49) and
+    λ̄ = L_cr / (i λ_1), λ_1 = π sqrt(E / f_y) (§6.3.1.3 (6.50)); L_cr is the
+    member's buckling-length factor times its length.  Tension-only members
+    and cables: tension only, against breaking force / γ_cable (γ_cable = 1.5
+    by default, from memory of EN 1993-1-11 §6.2 with γ_R = 1.0: check it);
+    compression in one of them is its own failure, "cable in compression".
+
+    Parameters
+    ----------
+    model : Model
+        With area, E and, per member, yield strength (and second moment for
+        members that may be in compression), set by
+        :meth:`Model.set_member_properties` or the model file.
+    result : CaseResult or Envelope
+        One case, combination or envelope result of ``model``.
+    gamma_M0, gamma_M1, gamma_M2 : float
+        Partial factors; defaults are the recommended values of EN 1993-1-1
+        §6.1 Note 2B, which national annexes change.
+    gamma_cable : float
+        Factor on a cable's breaking force.
+
+    Returns
+    -------
+    MemberCheck
+
+    Raises
+    ------
+    ModelError
+        When a member lacks the yield strength (or a cable its breaking force),
+        naming it, or the result does not belong to the model.
+    """
+    return _check(model, result, _resistances(model, gamma_M0, gamma_M1, gamma_M2,
+                                              gamma_cable))
+
+
+def _check(model: Model, result: Any, r: _Resistances) -> MemberCheck:
+    """:func:`check_members` of one result against resistances computed before."""
+    b = model.n_members
+    tension, compression = _demands(result)
+    if tension.shape != (b,):
+        raise ModelError(
+            f"check_members: the result has {tension.size} members, the model {b}"
+        )
+    tension_only, steel, has_i = r.tension_only, r.steel, r.has_i
+    n_t, n_c, f_rd = r.n_t, r.n_c, r.f_rd
+    net_governs, buckling_governs = r.net_governs, r.buckling_governs
+    chi, lam, lam_bar, limit_c = r.chi, r.lam, r.lam_bar, r.limit_c
     with np.errstate(invalid="ignore", divide="ignore"):
         u_t = np.where(tension_only, tension / f_rd, tension / n_t)
         u_c = np.where(tension_only, compression / f_rd, compression / n_c)
@@ -384,8 +426,7 @@ def check_members(
         lambda_bar=np.where(has_i, lam_bar, np.nan),
         slenderness=np.where(has_i, lam, np.nan),
         slenderness_limit=limit,
-        gamma={"gamma_M0": gamma_M0, "gamma_M1": gamma_M1, "gamma_M2": gamma_M2,
-               "gamma_cable": gamma_cable},
+        gamma=dict(r.gamma),
     )
 
 
@@ -463,7 +504,9 @@ def check_results(
         names = combos or list(results)
     if not names:
         raise ModelError("check_results: no result to check")
-    checks = {n: check_members(model, results[n], **gammas) for n in names}
+    # The resistances once: they depend on the members, not on the result.
+    r = _resistances(model, **gammas)
+    checks = {n: _check(model, results[n], r) for n in names}
     stack = np.stack([checks[n].utilisation for n in names])
     idx = np.argmax(stack, axis=0)
     return GoverningCheck(
