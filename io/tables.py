@@ -119,17 +119,20 @@ def _write_csv(path: Path, header: list[str], columns: list[_Col]) -> None:
             fh.write((row * (stop - start)) % tuple(flat))
 
 
-def _node_table(results: Results, digits: int) -> tuple[list[str], list[_Col]]:
+def _node_table(results: Results, digits: int,
+                names: Sequence[str]) -> tuple[list[str], list[_Col]]:
     model = results.model
     header = ["node [-]", "x [m]", "y [m]", "z [m]"]
     cols = [_ints(np.arange(model.n_nodes)), *(_inputs(c) for c in model.nodes.T)]
-    for name, res in results.items():
+    for name in names:
+        res = results[name]
         header += [f"{name}: u{a} [m]" for a in "xyz"] + [f"{name}: R{a} [N]" for a in "xyz"]
         cols += [_Col(c, "float", digits) for c in (*res.displacements.T, *res.reactions.T)]
     return header, cols
 
 
-def _member_table(results: Results, digits: int) -> tuple[list[str], list[_Col]]:
+def _member_table(results: Results, digits: int,
+                  names: Sequence[str]) -> tuple[list[str], list[_Col]]:
     model = results.model
     header = ["member [-]", "node_i [-]", "node_j [-]", "group [-]", "length [m]",
               "area [m2]", "E [Pa]"]
@@ -142,20 +145,23 @@ def _member_table(results: Results, digits: int) -> tuple[list[str], list[_Col]]
         _inputs(model.area),
         _inputs(model.E),
     ]
-    for name, res in results.items():
+    for name in names:
+        res = results[name]
         header += [f"{name}: N [N]", f"{name}: stress [Pa]"]
         cols += [_Col(res.axial_forces, "float", digits), _Col(res.stress, "float", digits)]
     return header, cols
 
 
-def _reaction_table(results: Results, digits: int) -> tuple[list[str], list[_Col]]:
+def _reaction_table(results: Results, digits: int,
+                    names: Sequence[str]) -> tuple[list[str], list[_Col]]:
     model = results.model
     held = supported_nodes(model)
     header = ["node [-]", "x [m]", "y [m]", "z [m]", "restrained [-]"]
     fixed = np.where(model.restraint[held], np.array(list("xyz"), dtype=object), "")
     restrained = fixed[:, 0] + fixed[:, 1] + fixed[:, 2]
     cols = [_ints(held), *(_inputs(c) for c in model.nodes[held].T), _texts(restrained)]
-    for name, res in results.items():
+    for name in names:
+        res = results[name]
         header += [f"{name}: R{a} [N]" for a in "xyz"]
         cols += [_Col(c, "float", digits) for c in res.reactions[held].T]
     return header, cols
@@ -190,6 +196,8 @@ def write(
     prefix: str = "",
     extra: Mapping[str, Any] | None = None,
     digits: int = RESULT_DIGITS,
+    columns: Sequence[str] | None = None,
+    summary_data: Mapping[str, Any] | None = None,
 ) -> list[Path]:
     """Write the node, member and reaction tables and the JSON summary.
 
@@ -207,6 +215,14 @@ def write(
     digits : int
         Significant digits of the results in the CSV files (1 to 17; 17
         round-trips every float64).
+    columns : sequence of str, optional
+        The results that get columns in the CSV tables (default: all); the
+        summary covers every result and lists these as
+        ``tables.results`` when they are not all.
+    summary_data : mapping, optional
+        :func:`spaceframe.results.summary.summary` of these results when the
+        caller has it already (a thousand results of a large model take
+        seconds to summarise); default: computed here.
 
     Returns
     -------
@@ -229,9 +245,15 @@ def write(
     _check_request(f"tables in {out}", prefix, results)
     if not 1 <= int(digits) <= 17:
         raise WriteError(f"tables in {out}: digits={digits!r} must be 1 to 17")
-    data = summary(results)
+    data = dict(summary(results) if summary_data is None else summary_data)
     data["tables"] = {"significant_digits": {"model": INPUT_DIGITS, "results": int(digits)},
                       "units": "SI, in each column name"}
+    names = list(results) if columns is None else list(columns)
+    unknown = [n for n in names if n not in results]
+    if unknown:
+        raise WriteError(f"tables in {out}: no result named {unknown[0]!r}")
+    if len(names) < len(results):
+        data["tables"]["results"] = names
     clash = sorted(set(extra or {}) & set(data))
     if clash:
         raise WriteError(f"tables in {out}: extra summary key {clash[0]!r} is already a "
@@ -244,7 +266,7 @@ def write(
         for (tmp, _), build in zip(
             pairs, (_node_table, _member_table, _reaction_table), strict=False
         ):
-            header, cols = build(results, int(digits))
+            header, cols = build(results, int(digits), names)
             _write_csv(tmp, header, cols)
         # allow_nan=False: a NaN would make the file unreadable as strict JSON.
         pairs[3][0].write_text(json.dumps(data, indent=2, allow_nan=False) + "\n", encoding="utf-8")

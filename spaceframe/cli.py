@@ -96,6 +96,11 @@ def build_parser() -> argparse.ArgumentParser:
                         "above (default), yes always, no never")
     p.add_argument("--dxf-deformed", action="store_true",
                    help="add the deformed shape of each result to the results drawing")
+    p.add_argument("--every-result", action="store_true",
+                   help="CSV columns, VTK files, DXF layers and pictures for every result "
+                        "(above 50 results the default is the combinations and the cases of "
+                        "the largest displacement, tension and compression; results.npz "
+                        "always holds all)")
     no_cache(p)
     p.add_argument("--pictures", default="combinations", metavar="WHICH",
                    help="results that get pictures: combinations (default: the combinations "
@@ -257,7 +262,9 @@ def _print_summary(out: _Printer, summ: dict[str, Any]) -> None:
         return [f"{e['force'] / 1e3:.1f}", f"{e['member']} ({groups})"]
 
     rows = []
-    for name, r in summ["results"].items():
+    listed = summ.get("results_with_files") or list(summ["results"])
+    for name in listed:
+        r = summ["results"][name]
         md = r["max_displacement"]
         pos = ", ".join(f"{x:.3g}" for x in md["position"])
         rows.append([
@@ -277,6 +284,9 @@ def _print_summary(out: _Printer, summ: dict[str, Any]) -> None:
          "residual"],
         rows,
     )
+    if len(listed) < len(summ["results"]):
+        out.line(f"... and {len(summ['results']) - len(listed)} more results: every one is in "
+                 "summary.json and results.npz")
 
 
 def _cmd_check(args: argparse.Namespace, out: _Printer) -> int:
@@ -305,7 +315,7 @@ def _cmd_run(args: argparse.Namespace, out: _Printer) -> int:
                             pictures=False if args.no_pictures else args.pictures,
                             progress=progress, force=args.force, cache=not args.no_cache,
                             dxf={"auto": None, "yes": True, "no": False}[args.dxf],
-                            dxf_deformed=args.dxf_deformed)
+                            dxf_deformed=args.dxf_deformed, every_result=args.every_result)
     if args.json:
         print(json.dumps(outcome.summary, indent=2))
         return 0

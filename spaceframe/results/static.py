@@ -154,6 +154,11 @@ class Results(Mapping[str, CaseResult]):
     def __repr__(self) -> str:
         return f"Results({', '.join(self._items)}; solver={self.solver})"
 
+    def subset(self, names: list[str]) -> Results:
+        """The same results (shared, not copied) of ``names`` only, in that order."""
+        return Results(self.model, {n: self[n] for n in names}, solver=self.solver,
+                       timings=self.timings, info=self.info)
+
     @property
     def cases(self) -> list[str]:
         """Names of the load-case results."""

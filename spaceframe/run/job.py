@@ -20,7 +20,7 @@ import numpy as np
 
 from spaceframe.errors import MechanismError, SpaceframeWarning
 from spaceframe.run.folder import FAULT_ENV, MARKER, write_folder
-from spaceframe.run.outputs import write_outputs
+from spaceframe.run.outputs import results_with_files, write_outputs
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
@@ -326,6 +326,7 @@ def run(
     cache: bool = False,
     dxf: bool | None = None,
     dxf_deformed: bool = False,
+    every_result: bool = False,
 ) -> RunOutcome:
     """Solve a model file and write every result into an output folder.
 
@@ -336,6 +337,10 @@ def run(
     ``dxf``: None writes the results drawing up to
     ``spaceframe.io.dxf_results.MEMBER_LIMIT`` members (and says so above
     it), True always, False never; ``dxf_deformed`` adds deformed shapes.
+    ``every_result``: files of their own (CSV columns, VTK, DXF layers,
+    pictures) for every result, even above
+    :data:`spaceframe.run.outputs.PER_RESULT_LIMIT` of them (the summary and
+    results.npz always hold every result).
 
     The folder is built under a temporary name beside the final one and
     swapped in when complete: a failed or killed run leaves the old results or
@@ -356,6 +361,10 @@ def run(
     design = _check_members(loaded, results, envelopes, sizing, summ, progress, timings)
     modes = _analyses(loaded, results, solver, summ, progress, timings)
     paths = _load_paths(loaded, summ, progress, timings)
+    shown, note = results_with_files(results, every_result)
+    if note is not None:  # said in the summary and by the command
+        summ["warnings"].append(note)
+        summ["results_with_files"] = shown
 
     def fill(folder: Path) -> list[Path]:
         with _timed(timings, "write"):
@@ -363,9 +372,12 @@ def run(
             keys = ("source", "title", "warnings", "envelopes", "design", "analysis",
                     "nonlinear")
             extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
+            # The results' own figures, summarised once (seconds at 1000 results).
+            base = {k: v for k, v in summ.items() if k not in (*keys, "results_with_files")}
             return write_outputs(folder, results, loaded, pictures, progress, extra, design,
                                  dxf_options={"requested": dxf, "deformed": dxf_deformed},
-                                 envelopes=envelopes, modes=modes, paths=paths)
+                                 envelopes=envelopes, modes=modes, paths=paths, shown=shown,
+                                 summary_data=base)
 
     final, files = write_folder(Path(output) if output is not None else loaded.output,
                                 loaded, force, fill, summ["warnings"])

@@ -16,6 +16,39 @@ if TYPE_CHECKING:
     from spaceframe.run.job import Loaded, Progress
 
 
+#: Above this many results (load cases and combinations), only some of them
+#: get files of their own -- columns of the CSV tables, VTK files, DXF layers,
+#: pictures (:func:`results_with_files`); every result is in results.npz.  A
+#: thousand cases of a 100k-member model would otherwise be a thousand VTK
+#: files and 100 million DXF lines, more than anyone opens.
+PER_RESULT_LIMIT = 50
+
+
+def results_with_files(results: Results, every: bool = False) -> tuple[list[str], str | None]:
+    """The results that get files of their own, and a note when that is not all of them.
+
+    Up to :data:`PER_RESULT_LIMIT` results (or with ``every``): all.  Above:
+    the combinations (the first :data:`PER_RESULT_LIMIT`) and the cases that
+    give the largest displacement, the largest tension and the largest
+    compression of all results.
+    """
+    names = list(results)
+    if every or len(names) <= PER_RESULT_LIMIT:
+        return names, None
+    chosen = results.combinations[:PER_RESULT_LIMIT]
+    peaks = np.array([[results[n].max_displacement()[1], results[n].max_tension()[1],
+                       -results[n].max_compression()[1]] for n in names])
+    peaks = np.maximum(peaks, 0.0)  # no tension anywhere: no case of largest tension
+    for j, peak in zip(np.argmax(peaks, axis=0), peaks.max(axis=0), strict=True):
+        if peak > 0 and names[j] not in chosen:
+            chosen.append(names[j])
+    note = (f"{len(names)} results: the CSV tables, VTK files, DXF layers and pictures hold "
+            f"{len(chosen)} of them (the combinations and the cases of the largest "
+            "displacement, tension and compression); every result is in results.npz; "
+            "--every-result writes them all")
+    return chosen, note
+
+
 def write_outputs(
     folder: Path,
     results: Results,
@@ -29,6 +62,8 @@ def write_outputs(
     envelopes: dict[str, Any] | None = None,
     modes: list[Any] | None = None,
     paths: list[Any] | None = None,
+    shown: list[str] | None = None,
+    summary_data: dict[str, Any] | None = None,
 ) -> list[Path]:
     """Every writer that is installed into ``folder``; tables always; the paths written.
 
@@ -37,11 +72,17 @@ def write_outputs(
     ``paths``: the load paths of [analysis.nonlinear]
     (:class:`spaceframe.project.analysis.TracedPath`), written as
     ``paths/<result>.csv``, ``vtk/paths/<result>.pvd`` and, with pictures,
-    ``pictures/paths/<result>.png``.
+    ``pictures/paths/<result>.png``; ``shown``: the results that get files of
+    their own (:func:`results_with_files`; default all), the summary and
+    results.npz hold every result; ``summary_data``: the results' summary
+    when the caller has it (:func:`spaceframe.results.summary.summary`).
     """
     from spaceframe.io import tables
 
     envelopes = envelopes or {}
+    every = results
+    if shown is not None and len(shown) < len(results):
+        results = results.subset(shown)
     dxf_opt = dxf_options or {}
     has_ezdxf = importlib.util.find_spec("ezdxf") is not None
     has_pyvista = importlib.util.find_spec("pyvista") is not None
@@ -53,8 +94,9 @@ def write_outputs(
             extra["warnings"].append(note)
     # Mode shapes first, so that summary.json can list their files.
     files = _write_modes(folder, results, modes or [], pictures, progress, has_pyvista, extra)
-    files += [Path(p) for p in tables.write(folder, results, extra=extra)]
-    files += tables.write_arrays(folder, results)  # what `view RESULTS_DIR` reads back
+    files += [Path(p) for p in tables.write(folder, every, extra=extra, columns=list(results),
+                                                 summary_data=summary_data)]
+    files += tables.write_arrays(folder, every)  # what `view RESULTS_DIR` reads back
     if design is not None:
         files += _write_member_design(folder, results, design)
     if has_ezdxf:
@@ -72,7 +114,7 @@ def write_outputs(
         if pictures:
             files += _write_pictures_and_report(folder, results, loaded, pictures, progress,
                                                 extra, design, envelopes, plots)
-    files += tables.write_envelopes(folder, results, envelopes)
+    files += tables.write_envelopes(folder, every, envelopes)
     return files
 
 
