@@ -216,3 +216,18 @@ def test_box_with_open_bounds_selects_by_the_finite_ones(model: sf.Model) -> Non
     inf = float("inf")
     assert ids(model, s.Box((-inf, -inf, -inf), (inf, inf, 0.5))) == BOTTOM
     assert ids(model, s.Box((3.0, -inf, -inf), (inf, inf, inf))) == [2, 5, 8, 10, 12]
+
+
+def test_points_see_nodes_moved_after_an_earlier_selection(model: sf.Model) -> None:
+    # The node tree is kept between selections; new geometry must replace it.
+    first = model.nodes[0].copy()
+    assert s.select(model, s.Points((tuple(first),)), "nodes").tolist() == [0]
+    moved = model.nodes.copy()
+    moved[0] += (0.0, 0.0, 5.0)
+    model.nodes = moved
+    with pytest.raises(ModelError, match="has no node within"):
+        s.select(model, s.Points((tuple(first),)), "nodes")
+    assert s.select(model, s.Points((tuple(moved[0]),)), "nodes").tolist() == [0]
+    model.add_nodes([[100.0, 100.0, 100.0]])
+    new = model.n_nodes - 1
+    assert s.select(model, s.Points(((100.0, 100.0, 100.0),)), "nodes").tolist() == [new]

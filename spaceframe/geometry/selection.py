@@ -296,19 +296,18 @@ def _ids_mask(ids: np.ndarray, size: int) -> np.ndarray:
 
 
 def _nearest(ctx: _Context, points: np.ndarray, tol: float, what: str) -> np.ndarray:
-    from scipy.spatial import cKDTree
-
     m = ctx.model
     mask = np.zeros(m.n_nodes, dtype=bool)
     if points.shape[0] == 0:
         return mask
     if m.n_nodes == 0:
         raise ModelError(f"{ctx.where}: the model has no nodes to match {what} to")
-    dist, idx = cKDTree(m.nodes).query(points, k=1, distance_upper_bound=tol)
+    tree = m.node_tree()
+    dist, idx = tree.query(points, k=1, distance_upper_bound=tol)
     missing = np.flatnonzero(~np.isfinite(dist))
     if missing.size:
         j = int(missing[0])
-        d_near, i_near = cKDTree(m.nodes).query(points[j], k=1)
+        d_near, i_near = tree.query(points[j], k=1)
         raise ModelError(
             f"{ctx.where}: {what} {j} at {points[j].tolist()} m has no node within "
             f"{tol:g} m (nearest is node {int(i_near)} at {d_near:.4g} m)"

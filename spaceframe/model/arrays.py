@@ -138,7 +138,7 @@ class ModelArrays:
     """The arrays of a Model, their derived geometry and the checks of ids and values."""
 
     def __init__(self) -> None:
-        self._cache: dict[str, np.ndarray] = {}
+        self._cache: dict[str, Any] = {}
         self._nodes = _frozen(np.zeros((0, 3)))
         self._members = _frozen(np.zeros((0, 2), dtype=np.int64))
         self.area = np.zeros(0)
@@ -217,6 +217,12 @@ class ModelArrays:
         self._members = _frozen(out)
         self._invalidate()
 
+    def __getstate__(self) -> dict[str, Any]:
+        # The node tree is not copied or sent along (a study ships the model
+        # to every worker): it is rebuilt from the nodes where needed.
+        return {**self.__dict__,
+                "_cache": {k: v for k, v in self._cache.items() if k != "node_tree"}}
+
     def __setstate__(self, state: dict[str, Any]) -> None:
         # copy.deepcopy and pickle (parameter studies) make writeable copies.
         self.__dict__.update(state)
@@ -259,6 +265,19 @@ class ModelArrays:
                 self._cache["directions"] = d / length[:, None]
             self._cache["lengths"] = length
         return self._cache[key]
+
+    def node_tree(self) -> Any:
+        """A k-d tree of the nodes (``scipy.spatial.cKDTree``), kept until the geometry changes.
+
+        Built once for the many point selections of a model file (one per load
+        case of a load moved over a roof) instead of once per selection.
+        """
+        tree = self._cache.get("node_tree")
+        if tree is None:
+            from scipy.spatial import cKDTree
+
+            tree = self._cache["node_tree"] = cKDTree(self.nodes)
+        return tree
 
     @property
     def lengths(self) -> np.ndarray:
