@@ -334,30 +334,69 @@ def write_arrays(
         "E": np.asarray(model.E, dtype=np.float64),
         "result_names": np.array(list(results.keys()), dtype=str),
         "result_kinds": np.array([r.kind for r in items], dtype=str),
-        "displacements": np.stack([r.displacements for r in items]),
-        "reactions": np.stack([r.reactions for r in items]),
-        "axial_forces": np.stack([r.axial_forces for r in items]),
-        "stress": np.stack([r.stress for r in items]),
-        "loads": np.stack([r.loads for r in items]),
-        "elongations": np.stack([r.elongations for r in items]),
+        # Per result, stacked as the file is written (never in memory as one
+        # array: a thousand results of a 100k-member model are gigabytes).
+        "displacements": _Stack([r.displacements for r in items]),
+        "reactions": _Stack([r.reactions for r in items]),
+        "axial_forces": _Stack([r.axial_forces for r in items]),
+        "stress": _Stack([r.stress for r in items]),
+        "loads": _Stack([r.loads for r in items]),
+        "elongations": _Stack([r.elongations for r in items]),
         "residuals": np.array([r.residual for r in items], dtype=np.float64),
         "result_factors": np.array(json.dumps([r.factors for r in items])),
         "solver": np.array(str(results.solver)),
         "units": np.array(json.dumps(ARRAY_UNITS)),
     }
     if any(r.slack is not None for r in items):
-        arrays["slack"] = np.stack([np.zeros(model.n_members, dtype=bool) if r.slack is None
-                                    else np.asarray(r.slack, dtype=bool) for r in items])
+        arrays["slack"] = _Stack([np.zeros(model.n_members, dtype=bool) if r.slack is None
+                                  else np.asarray(r.slack, dtype=bool) for r in items])
     out.mkdir(parents=True, exist_ok=True)
     final = out / f"{prefix}{ARRAYS_FILE}"
 
     def save(tmp: Path) -> None:
-        # An open file, not a name: numpy.savez would add ".npz" to the temporary name.
-        with tmp.open("wb") as fh:
-            np.savez(fh, **arrays)
+        _save_npz(tmp, arrays)
 
     atomic_write(final, save)
     return [final]
+
+
+class _Stack:
+    """Equal arrays to be stored as one array of one more dimension (the first)."""
+
+    def __init__(self, parts: list[np.ndarray]) -> None:
+        self.parts = parts
+        first = np.asarray(parts[0])
+        self.dtype, self.shape = first.dtype, (len(parts), *first.shape)
+
+
+def _save_npz(path: Path, arrays: Mapping[str, Any]) -> None:
+    """What ``numpy.savez`` writes (an uncompressed zip of .npy files), stacks streamed.
+
+    Written here because savez takes whole arrays: a stack of a thousand
+    results would be copied into one array first (gigabytes, and as long as
+    the writing).  Each ``_Stack`` is written part after part behind one
+    .npy header; ``numpy.load`` reads the file as it reads savez's.
+    """
+    import zipfile
+
+    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_STORED, allowZip64=True) as zf:
+        for name, value in arrays.items():
+            stack = value if isinstance(value, _Stack) else None
+            parts = stack.parts if stack is not None else [np.asarray(value)]
+            dtype = stack.dtype if stack is not None else parts[0].dtype
+            shape = stack.shape if stack is not None else parts[0].shape
+            each = shape[1:] if stack is not None else shape
+            with zf.open(f"{name}.npy", "w", force_zip64=True) as fh:
+                np.lib.format.write_array_header_2_0(
+                    fh, {"descr": np.lib.format.dtype_to_descr(dtype),
+                         "fortran_order": False, "shape": shape})
+                for part in parts:
+                    arr = np.require(part, dtype=dtype, requirements="C")
+                    if arr.shape != each:
+                        raise WriteError(f"{path}: {name}: a part of shape {arr.shape} in a "
+                                         f"stack of {shape}")
+                    fh.write(arr.tobytes() if arr.dtype.hasobject or arr.ndim == 0
+                             else memoryview(arr.reshape(-1)).cast("B"))
 
 
 def read_arrays(path: str | os.PathLike[str], model: Model) -> Results:
