@@ -252,6 +252,42 @@ class _Resistances:
     buckling_governs: np.ndarray
     limit_c: np.ndarray
     gamma: dict[str, float]
+    #: Per member, for a member in tension (t) or in compression (c): the
+    #: resistance, the code of the governing check (:data:`CHECKS`) and the
+    #: slenderness limit; then λ̄ and λ as shown (NaN without a second moment).
+    res_t: np.ndarray = field(init=False)
+    res_c: np.ndarray = field(init=False)
+    ten_code: np.ndarray = field(init=False)
+    comp_code: np.ndarray = field(init=False)
+    lim_t: np.ndarray = field(init=False)
+    lim_c: np.ndarray = field(init=False)
+    lambda_bar_shown: np.ndarray = field(init=False)
+    slenderness_shown: np.ndarray = field(init=False)
+
+    def __post_init__(self) -> None:
+        cable, code = self.tension_only, CHECKS.index
+        self.res_t = np.where(cable, self.f_rd, self.n_t)
+        self.res_c = np.where(cable, self.f_rd, self.n_c)
+        self.ten_code = np.where(
+            cable, code("cable tension"),
+            np.where(self.net_governs, code("net section (6.7)"), code("tension (6.6)")),
+        ).astype(np.int8)
+        self.comp_code = np.where(
+            cable, code("cable in compression"),
+            np.where(~self.has_i, code("compression, buckling not checked: no second moment"),
+                     np.where(self.buckling_governs, code("flexural buckling (6.47)"),
+                              code("compression (6.10)"))),
+        ).astype(np.int8)
+        # The limits for the governing sign (common-practice defaults where the
+        # user gave none); cables and members without a second moment are exempt.
+        exempt = cable | ~self.has_i
+        self.lim_c = np.where(exempt, np.inf, np.where(np.isfinite(self.limit_c), self.limit_c,
+                                                       SLENDERNESS_COMPRESSION))
+        self.lim_t = np.where(exempt, np.inf, SLENDERNESS_TENSION)
+        self.lambda_bar_shown = np.where(self.has_i, self.lam_bar, np.nan)
+        self.slenderness_shown = np.where(self.has_i, self.lam, np.nan)
+        for name in ("chi", "lambda_bar_shown", "slenderness_shown"):
+            getattr(self, name).flags.writeable = False  # shared by every result's check
 
 
 def _resistances(model: Model, gamma_M0: float = 1.0, gamma_M1: float = 1.0,
@@ -376,56 +412,27 @@ def _check(model: Model, result: Any, r: _Resistances) -> MemberCheck:
         raise ModelError(
             f"check_members: the result has {tension.size} members, the model {b}"
         )
-    tension_only, steel, has_i = r.tension_only, r.steel, r.has_i
-    n_t, n_c, f_rd = r.n_t, r.n_c, r.f_rd
-    net_governs, buckling_governs = r.net_governs, r.buckling_governs
-    chi, lam, lam_bar, limit_c = r.chi, r.lam, r.lam_bar, r.limit_c
     with np.errstate(invalid="ignore", divide="ignore"):
-        u_t = np.where(tension_only, tension / f_rd, tension / n_t)
-        u_c = np.where(tension_only, compression / f_rd, compression / n_c)
-    u_t = np.nan_to_num(u_t, nan=0.0)
-    u_c = np.nan_to_num(u_c, nan=0.0)
+        u_t = np.nan_to_num(tension / r.res_t, nan=0.0, copy=False)
+        u_c = np.nan_to_num(compression / r.res_c, nan=0.0, copy=False)
     comp_governs = (u_c > u_t) | ((compression > 0) & (tension == 0))
     utilisation = np.where(comp_governs, u_c, u_t)
-    resistance = np.where(
-        tension_only, f_rd, np.where(comp_governs, n_c, n_t)
-    )
-    demand = np.where(comp_governs, -compression, tension)
-
-    governing = np.zeros(b, dtype=np.int8)
     active = (tension > 0) | (compression > 0)
-    ten = active & ~comp_governs
-    governing[ten & steel] = CHECKS.index("tension (6.6)")
-    governing[ten & steel & net_governs] = CHECKS.index("net section (6.7)")
-    comp = active & comp_governs & steel
-    governing[comp] = CHECKS.index("compression (6.10)")
-    governing[comp & buckling_governs] = CHECKS.index("flexural buckling (6.47)")
-    governing[comp & ~has_i] = CHECKS.index(
-        "compression, buckling not checked: no second moment"
-    )
-    governing[ten & tension_only] = CHECKS.index("cable tension")
-    governing[active & comp_governs & tension_only] = CHECKS.index("cable in compression")
-
-    # Slenderness λ = L_cr/i against the limit for the governing sign
-    # (common-practice defaults where the user gave none); cables are exempt.
-    limit = np.where(
-        comp_governs,
-        np.where(np.isfinite(limit_c), limit_c, SLENDERNESS_COMPRESSION),
-        SLENDERNESS_TENSION,
-    )
-    limit = np.where(tension_only | ~has_i, np.inf, limit)
+    governing = np.where(active, np.where(comp_governs, r.comp_code, r.ten_code),
+                         np.int8(0)).astype(np.int8, copy=False)
     if not np.all(np.isfinite(utilisation)):
         raise ModelError("check_members: a utilisation is not finite (zero resistance?)")
     return MemberCheck(
         result=str(getattr(result, "name", "")),
         utilisation=utilisation,
-        resistance=resistance,
+        resistance=np.where(comp_governs, r.res_c, r.res_t),
         governing=governing,
-        demand=demand,
-        chi=chi,
-        lambda_bar=np.where(has_i, lam_bar, np.nan),
-        slenderness=np.where(has_i, lam, np.nan),
-        slenderness_limit=limit,
+        demand=np.where(comp_governs, -compression, tension),
+        chi=r.chi,
+        lambda_bar=r.lambda_bar_shown,
+        slenderness=r.slenderness_shown,
+        # Slenderness λ = L_cr/i against the limit for the governing sign.
+        slenderness_limit=np.where(comp_governs, r.lim_c, r.lim_t),
         gamma=dict(r.gamma),
     )
 
