@@ -283,7 +283,8 @@ ARRAYS_FILE = "results.npz"
 #: Units of the arrays in :data:`ARRAYS_FILE` (stored in the file as ``units``).
 ARRAY_UNITS = {
     "nodes": "m", "members": "-", "groups": "-", "lengths": "m", "area": "m2", "E": "Pa",
-    "result_names": "-", "result_kinds": "-", "displacements": "m", "reaction_nodes": "-", "reactions": "N",
+    "result_names": "-", "result_kinds": "-", "displacements": "m", "reaction_nodes": "-",
+    "reactions": "N",
     "axial_forces": "N", "stress": "Pa", "loads": "N", "elongations": "m", "residuals": "-",
     "slack": "-", "result_factors": "-",
 }
