@@ -368,6 +368,9 @@ def run_checks(model: Model, results: Any, envelopes: dict[str, Any], project: A
     util[ids] = check.utilisation
     per = {}
     for n, c in check.checks.items():
+        if ids.size == b:  # every member checked: the check's own array, not a copy
+            per[n] = c.utilisation
+            continue
         u = np.full(b, np.nan)
         u[ids] = c.utilisation
         per[n] = u
