@@ -49,6 +49,17 @@ _REFINE_STEPS = 3
 #: Results recovered and checked together: the temporaries of the checks are a
 #: few arrays of (model rows x this many columns), whatever the number of cases.
 _RECOVER_BLOCK = 64
+#: ... and fewer for a large model, so that each temporary stays within this
+#: many bytes: the C library hands larger blocks to the system on every free
+#: (above its 32 MB mmap threshold), and every new one is then paged in again
+#: (1000 cases of a 100k-member model spent more time on that than on the sums).
+_BLOCK_BYTES = 16 * 2**20
+
+
+def _block_columns(model: Model) -> int:
+    """Columns per block of the solve: :data:`_RECOVER_BLOCK`, fewer for a large model."""
+    rows = max(3 * model.n_nodes, model.n_members, 1)
+    return max(4, min(_RECOVER_BLOCK, _BLOCK_BYTES // (8 * rows)))
 
 #: Relative size, against the magnitudes a member force is computed from,
 #: below which the force is round-off: 64 units of float64 round-off (2**-52),
@@ -302,8 +313,9 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     # temporaries stay a few arrays of (model rows x block) however many cases.
     blocks: list[tuple[slice, np.ndarray, np.ndarray, np.ndarray | None]] = []
     peaks: list[tuple[np.ndarray, np.ndarray]] = []
-    for lo in range(0, len(names), _RECOVER_BLOCK):
-        cols = slice(lo, lo + _RECOVER_BLOCK)
+    width = _block_columns(model)
+    for lo in range(0, len(names), width):
+        cols = slice(lo, lo + width)
         F, E0, UP = _case_columns(model, names[cols], temperature, settlement)
         U = run.solve_cases(names[cols], F, E0, UP)
         items.update(run.results([("case", name, None) for name in names[cols]], U, F, E0,
@@ -317,8 +329,8 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     for i, (_, factors) in enumerate(comb):
         for case, f in factors.items():
             weights[names.index(case), i] += f
-    for lo in range(0, len(comb) if blocks else 0, _RECOVER_BLOCK):
-        cc = slice(lo, lo + _RECOVER_BLOCK)
+    for lo in range(0, len(comb) if blocks else 0, width):
+        cc = slice(lo, lo + width)
         with np.errstate(over="ignore", invalid="ignore"):  # checked in the results
             UC = sum(U @ weights[cols, cc] for cols, U, _, _ in blocks)
             FC = sum(F @ weights[cols, cc] for cols, _, F, _ in blocks)
@@ -349,8 +361,8 @@ def _scale_terms(U: np.ndarray, E0: np.ndarray | None, absA: sp.spmatrix,
         stretch = absA.T @ np.abs(U)
         if E0 is not None:
             stretch += np.abs(E0)
-        member_scale = k[:, None] * stretch
-        return member_scale, absA @ member_scale
+        stretch *= k[:, None]  # the member scales, in place of a new array
+        return stretch, absA @ stretch
 
 
 def check_equilibrium(
