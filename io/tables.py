@@ -406,8 +406,8 @@ def _save_npz(path: Path, arrays: Mapping[str, Any]) -> None:
                     if arr.shape != each:
                         raise WriteError(f"{path}: {name}: a part of shape {arr.shape} in a "
                                          f"stack of {shape}")
-                    fh.write(arr.tobytes() if arr.dtype.hasobject or arr.ndim == 0
-                             else memoryview(arr.reshape(-1)).cast("B"))
+                    # Large parts as they lie in memory, no copy.
+                    fh.write(arr.data if arr.ndim and arr.nbytes > 2**20 else arr.tobytes())
 
 
 def read_arrays(path: str | os.PathLike[str], model: Model) -> Results:
