@@ -260,3 +260,23 @@ def test_arrays_file_of_an_earlier_version_reads_back(tmp_path: Path,
     back = tables.read_arrays(old, results.model)
     for name, r in results.items():
         np.testing.assert_array_equal(back[name].reactions, r.reactions)
+
+
+def test_streamed_arrays_file_reads_as_numpy_writes_it(tmp_path: Path) -> None:
+    # The stacks are written part after part behind one header; numpy.load must
+    # read them as the stacked arrays (texts and parts above 1 MB included).
+    from spaceframe.io.tables import _save_npz, _Stack
+
+    texts = np.array([f"group {i}" for i in range(50_000)])  # 2 MB of unicode
+    parts = [np.random.default_rng(i).random(200_000) for i in range(3)]  # 1.6 MB each
+    flags = [np.arange(5) % (i + 2) == 0 for i in range(3)]
+    _save_npz(tmp_path / "x.npz", {"texts": texts, "parts": _Stack(parts),
+                                   "flags": _Stack(flags), "one": np.array("text")})
+    with np.load(tmp_path / "x.npz") as z:
+        np.testing.assert_array_equal(z["texts"], texts)
+        np.testing.assert_array_equal(z["parts"], np.stack(parts))
+        np.testing.assert_array_equal(z["flags"], np.stack(flags))
+        assert z["parts"].dtype == np.float64 and z["flags"].dtype == bool
+        assert str(z["one"]) == "text"
+    with pytest.raises(WriteError, match="a part of shape"):
+        _save_npz(tmp_path / "bad.npz", {"parts": _Stack([np.zeros(3), np.zeros(4)])})
