@@ -358,28 +358,47 @@ def run_study(
                       failed=[i for i, r in enumerate(ordered) if r.get("error")])
 
 
-#: MALLOC_TRIM_THRESHOLD_ of the local cluster's workers, bytes (glibc's own default is
-#: dynamic, from 128 kB up; Dask's is 64 kB): large enough that a variant's arrays stay mapped.
-WORKER_MALLOC_TRIM = 1 << 30
+#: Environment of the local cluster's worker processes, set before they start (so before
+#: numpy loads).  One BLAS/OpenMP thread per worker: a worker is one core.  glibc malloc:
+#: Dask's nanny sets MALLOC_TRIM_THRESHOLD_=65536, and setting any of these variables also
+#: fixes glibc's mmap threshold at 128 kB, so every array above that is mapped afresh and
+#: freed back to the system: a 10k-member variant then faults in about 12 000 pages (about
+#: 6 000 in a plain process).  With the trim threshold at 1 GB, the mmap threshold at
+#: 32 MB (glibc's largest) and one malloc arena (the task runs on a thread of its own),
+#: a worker reuses its memory and a variant faults in a few hundred pages.
+WORKER_ENVIRON: dict[str, int] = {
+    "OMP_NUM_THREADS": 1, "OPENBLAS_NUM_THREADS": 1, "MKL_NUM_THREADS": 1,
+    "MALLOC_TRIM_THRESHOLD_": 1 << 30, "MALLOC_MMAP_THRESHOLD_": 1 << 25,
+    "MALLOC_ARENA_MAX": 1,
+}
+
+#: Dask settings of the local cluster.  Its defaults suit a dashboard: a sampling profiler
+#: in every worker every 10 ms, an event-loop tick every 20 ms, memory polled every 100 ms,
+#: about 4 % of a core per worker and 7 % in this process while idle, measured; here about
+#: 0.5 % and 1 %.  There is no dashboard (``dashboard_address=None``).
+CLUSTER_CONFIG: dict[str, Any] = {
+    "distributed.worker.profile.enabled": False,
+    "distributed.admin.tick.interval": "200ms",
+    "distributed.admin.system-monitor.interval": "2s",
+    "distributed.worker.memory.monitor-interval": "500ms",
+}
 
 
 def local_cluster(workers: int | None = None) -> Any:
     """The local Dask cluster of a study: one single-threaded process per core.
 
-    Dask's nanny starts workers with MALLOC_TRIM_THRESHOLD_=65536, so glibc hands
-    every large array back to the system and each variant faults its memory in
-    afresh: 19 % slower per 10k-member variant, measured.  The workers here hold
-    one model and allocate the same sizes over and over, so malloc may keep them
-    (:data:`WORKER_MALLOC_TRIM`).
+    The workers get :data:`WORKER_ENVIRON` and :data:`CLUSTER_CONFIG`, and import
+    this module when they start, so the first variant does not wait for numpy,
+    scipy and spaceframe to load.
     """
     import dask
     from dask.distributed import LocalCluster
 
-    key = "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_"
-    with dask.config.set({key: WORKER_MALLOC_TRIM}):
+    env = {f"distributed.nanny.pre-spawn-environ.{k}": v for k, v in WORKER_ENVIRON.items()}
+    with dask.config.set({**env, **CLUSTER_CONFIG}):
         return LocalCluster(n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
                             processes=True, dashboard_address=None,
-                            silence_logs=logging.WARNING)
+                            silence_logs=logging.WARNING, preload=[__name__])
 
 
 def _run_dask(
