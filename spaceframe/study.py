@@ -374,8 +374,8 @@ WORKER_ENVIRON: dict[str, int] = {
 
 #: Dask settings of the local cluster.  Its defaults suit a dashboard: a sampling profiler
 #: in every worker every 10 ms, an event-loop tick every 20 ms, memory polled every 100 ms,
-#: about 4 % of a core per worker and 7 % in this process while idle, measured; here about
-#: 0.5 % and 1 %.  There is no dashboard (``dashboard_address=None``).
+#: about 4.5 % of a core per worker and 6-7 % in this process while idle, measured; here
+#: about 0.5 % and 1.5 %.  There is no dashboard (``dashboard_address=None``).
 CLUSTER_CONFIG: dict[str, Any] = {
     "distributed.worker.profile.enabled": False,
     "distributed.admin.tick.interval": "200ms",
@@ -402,7 +402,7 @@ def local_cluster(workers: int | None = None) -> Any:
 
 
 #: Most variants in one Dask task.  A task costs the scheduler, this process and the worker
-#: a few milliseconds; a batch shares that cost (a 10k-member variant is about 75 ms).
+#: a few milliseconds; a batch shares that cost (a 10k-member variant is 80-100 ms).
 MAX_BATCH = 8
 
 
