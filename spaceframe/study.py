@@ -4,7 +4,7 @@ A study is a base Model plus a table of variations.  Each variant is a pure
 function of (base model, parameters) that returns one row of numbers, so a
 task can run (and be retried) on any worker.  The base model is built once
 (drawing read and healed once) and sent to every worker once; what travels
-per variant is only its parameters and its row.
+per task is the parameters of a few variants and their rows.
 
 Parameters (keys of ``vary``), each with its list of values:
 
@@ -358,28 +358,65 @@ def run_study(
                       failed=[i for i, r in enumerate(ordered) if r.get("error")])
 
 
-#: MALLOC_TRIM_THRESHOLD_ of the local cluster's workers, bytes (glibc's own default is
-#: dynamic, from 128 kB up; Dask's is 64 kB): large enough that a variant's arrays stay mapped.
-WORKER_MALLOC_TRIM = 1 << 30
+#: Environment of the local cluster's worker processes, set before they start (so before
+#: numpy loads).  One BLAS/OpenMP thread per worker: a worker is one core.  glibc malloc:
+#: Dask's nanny sets MALLOC_TRIM_THRESHOLD_=65536, and setting any of these variables also
+#: fixes glibc's mmap threshold at 128 kB, so every array above that is mapped afresh and
+#: freed back to the system: a 10k-member variant then faults in about 12 000 pages (about
+#: 6 000 in a plain process).  With the trim threshold at 1 GB, the mmap threshold at
+#: 32 MB (glibc's largest) and one malloc arena (the task runs on a thread of its own),
+#: a worker reuses its memory and a variant faults in a few hundred pages.
+WORKER_ENVIRON: dict[str, int] = {
+    "OMP_NUM_THREADS": 1, "OPENBLAS_NUM_THREADS": 1, "MKL_NUM_THREADS": 1,
+    "MALLOC_TRIM_THRESHOLD_": 1 << 30, "MALLOC_MMAP_THRESHOLD_": 1 << 25,
+    "MALLOC_ARENA_MAX": 1,
+}
+
+#: Dask settings of the local cluster.  Its defaults suit a dashboard: a sampling profiler
+#: in every worker every 10 ms, an event-loop tick every 20 ms, memory polled every 100 ms,
+#: about 4.5 % of a core per worker and 6-7 % in this process while idle, measured; here
+#: about 0.5 % and 1.5 %.  There is no dashboard (``dashboard_address=None``).
+CLUSTER_CONFIG: dict[str, Any] = {
+    "distributed.worker.profile.enabled": False,
+    "distributed.admin.tick.interval": "200ms",
+    "distributed.admin.system-monitor.interval": "2s",
+    "distributed.worker.memory.monitor-interval": "500ms",
+}
 
 
 def local_cluster(workers: int | None = None) -> Any:
     """The local Dask cluster of a study: one single-threaded process per core.
 
-    Dask's nanny starts workers with MALLOC_TRIM_THRESHOLD_=65536, so glibc hands
-    every large array back to the system and each variant faults its memory in
-    afresh: 19 % slower per 10k-member variant, measured.  The workers here hold
-    one model and allocate the same sizes over and over, so malloc may keep them
-    (:data:`WORKER_MALLOC_TRIM`).
+    The workers get :data:`WORKER_ENVIRON` and :data:`CLUSTER_CONFIG`, and import
+    this module when they start, so the first variant does not wait for numpy,
+    scipy and spaceframe to load.
     """
     import dask
     from dask.distributed import LocalCluster
 
-    key = "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_"
-    with dask.config.set({key: WORKER_MALLOC_TRIM}):
+    env = {f"distributed.nanny.pre-spawn-environ.{k}": v for k, v in WORKER_ENVIRON.items()}
+    with dask.config.set({**env, **CLUSTER_CONFIG}):
         return LocalCluster(n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
                             processes=True, dashboard_address=None,
-                            silence_logs=logging.WARNING)
+                            silence_logs=logging.WARNING, preload=[__name__])
+
+
+#: Most variants in one Dask task.  A task costs the scheduler, this process and the worker
+#: a few milliseconds; a batch shares that cost (a 10k-member variant is 80-100 ms).
+MAX_BATCH = 8
+
+
+def batch_size(variants: int, slots: int) -> int:
+    """Variants per task: at least four tasks per worker thread, at most :data:`MAX_BATCH`."""
+    return max(1, min(MAX_BATCH, variants // (4 * max(slots, 1))))
+
+
+def evaluate_batch(
+    model: Model, batch: list[dict[str, Any]], sections: Mapping[str, Section] | None = None,
+    solver: str = "auto",
+) -> list[dict[str, Any]]:
+    """The rows of several variants, one :func:`evaluate_variant` each, in order."""
+    return [evaluate_variant(model, params, sections, solver) for params in batch]
 
 
 def _run_dask(
@@ -408,14 +445,20 @@ def _run_dask(
         except (OSError, TimeoutError) as exc:
             raise ModelError(f"study: cannot reach the scheduler {scheduler}: {exc}") from None
     try:
-        # The base model goes to every worker once; each task carries its parameters.
+        # The base model goes to every worker once; each task carries the parameters
+        # of a few variants and brings back their rows.
         base = client.scatter(model, broadcast=True)
         secs = client.scatter(dict(sections), broadcast=True)
-        futures = client.map(evaluate_variant, [base] * len(params), params,
-                             [secs] * len(params), [solver] * len(params), pure=False)
-        where = {f.key: i for f, i in zip(futures, index, strict=True)}
+        size = batch_size(len(params), sum(client.nthreads().values()))
+        starts = range(0, len(params), size)
+        futures = client.map(evaluate_batch, [base] * len(starts),
+                             [params[k:k + size] for k in starts], [secs] * len(starts),
+                             [solver] * len(starts), pure=False)
+        where = {f.key: k for f, k in zip(futures, starts, strict=True)}
         for fut in as_completed(futures):
-            finished(where[fut.key], fut.result())
+            k = where[fut.key]
+            for i, row in zip(index[k:k + size], fut.result(), strict=True):
+                finished(i, row)
     finally:
         if own:
             client.close()

@@ -151,3 +151,27 @@ def test_study_command_writes_one_table_and_resumes(tmp_path, capsys):
     (tmp_path / "bad.toml").write_text('[study]\nmodel = "canopy.toml"\n', encoding="utf-8")
     assert main(["study", str(tmp_path / "bad.toml"), "--serial"]) == 2
     assert "study.vary" in capsys.readouterr().err
+
+
+def test_study_on_dask_in_batches_counts_each_variant_and_resumes(tmp_path):
+    pytest.importorskip("distributed")
+    from spaceframe.study import MAX_BATCH, batch_size
+
+    assert batch_size(12, 1) == 3 and batch_size(5, 2) == 1 and batch_size(10**4, 2) == MAX_BATCH
+    m = _grid()
+    serial = run_study(m, VARY, scheduler="serial")
+    journal = tmp_path / "study.jsonl"
+    half = {**VARY, "section.web": VARY["section.web"][:2]}
+    run_study(m, half, scheduler="serial", journal=journal)
+    calls: list[tuple[int, int]] = []
+    # 12 variants left on one worker: tasks of 3, each holding sound and failing variants.
+    again = run_study(m, VARY, workers=1, journal=journal,
+                      progress=lambda k, n: calls.append((k, n)))
+    assert again.skipped == 12
+    assert calls == [(k, 24) for k in range(13, 25)]
+    assert len(journal.read_text().splitlines()) == 24
+    assert again.failed == serial.failed and len(again.failed) == 12
+    for a, b in zip(serial.rows, again.rows, strict=True):
+        assert a["error"] == b["error"]
+        for k in ("mass_kg", "max_displacement_m", "max_utilisation"):
+            assert (math.isnan(a[k]) and math.isnan(b[k])) or a[k] == b[k], k
