@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -175,3 +176,23 @@ def test_study_on_dask_in_batches_counts_each_variant_and_resumes(tmp_path):
         assert a["error"] == b["error"]
         for k in ("mass_kg", "max_displacement_m", "max_utilisation"):
             assert (math.isnan(a[k]) and math.isnan(b[k])) or a[k] == b[k], k
+
+
+def test_worker_settings_example_matches_the_local_cluster() -> None:
+    # examples/dask-workers.yaml is what README tells users of their own cluster to use.
+    yaml = pytest.importorskip("yaml")
+    from spaceframe import study
+
+    path = Path(__file__).resolve().parents[1] / "examples" / "dask-workers.yaml"
+    cfg = yaml.safe_load(path.read_text(encoding="utf-8"))
+
+    def get(key: str) -> object:
+        node: object = cfg
+        for part in key.split("."):
+            assert isinstance(node, dict) and part in node, key
+            node = node[part]
+        return node
+
+    assert get("distributed.nanny.pre-spawn-environ") == study.WORKER_ENVIRON
+    for key, value in study.CLUSTER_CONFIG.items():
+        assert get(key) == value, key
