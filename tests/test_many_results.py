@@ -187,3 +187,13 @@ def test_command_line_lists_the_results_with_files(tmp_path: Path,
     text = capsys.readouterr().out
     assert f"and {cases + 2 - 3} more results" in text
     assert "--every-result" in text
+
+
+def test_a_result_pictured_by_name_is_drawn_though_it_has_no_files(tmp_path: Path) -> None:
+    pytest.importorskip("pyvista")
+    cases = outputs.PER_RESULT_LIMIT + 1
+    out = job.run(_many_file(tmp_path, cases), tmp_path / "out", pictures="p17")
+    assert "p17" not in out.summary["results_with_files"]
+    pics = sorted(p.name for p in (out.output / "pictures").glob("p17_*.png"))
+    assert "p17_iso.png" in pics
+    assert not list((out.output / "pictures").glob("p16_*.png"))

@@ -112,10 +112,22 @@ def write_outputs(
                   if design is not None else {})
         files.append(Path(vtk.write(folder / "vtk", results, progress=progress, **vtk_kw)))
         if pictures:
-            files += _write_pictures_and_report(folder, results, loaded, pictures, progress,
+            files += _write_pictures_and_report(folder, _pictured(every, results, pictures),
+                                                loaded, pictures, progress,
                                                 extra, design, envelopes, plots)
     files += tables.write_envelopes(folder, every, envelopes)
     return files
+
+
+def _pictured(every: Results, shown: Results, pictures: bool | str) -> Results:
+    """The results pictures are drawn from: those with files, and any asked for by name."""
+    from spaceframe.viewer.pictures import PICTURE_CHOICES
+
+    if not isinstance(pictures, str) or pictures in PICTURE_CHOICES:
+        return shown
+    asked = [n for n in (t.strip() for t in pictures.split(",")) if n in every
+             and n not in shown]
+    return every.subset([*shown, *asked]) if asked else shown
 
 
 #: Mode shapes pictured per buckling result and for the frequencies: the lowest few.
