@@ -117,3 +117,41 @@ def test_cable_presets_give_breaking_force_and_modulus():
     assert p.E == 150e9  # EN 1993-1-11 Table B.2 (from memory)
     with pytest.raises(sf.ModelError, match="presets"):
         cable_preset("rope")
+
+
+def _cable_on_spring(spring: bool) -> sf.Model:
+    # A 2 m cable (EA/L = 1e7 N/m) from a support to a node held by springs of 1e6 N/m
+    # (invented demo data); pushing the node puts the cable in compression.
+    m = sf.Model()
+    m.add_nodes([[0.0, 0.0, 0.0], [2.0, 0.0, 0.0]])
+    m.add_members([[0, 1]], area=1e-4, E=200e9)
+    m.set_member_properties([0], tension_only=True)
+    m.add_support([0])
+    if spring:
+        m.add_spring([1], kx=1e6, ky=1e6, kz=1e6)
+    else:
+        m.add_support([1], x=False)
+    m.add_load("push", [1], (-1e3, 0.0, 0.0))
+    m.add_load("pull", [1], (1e3, 0.0, 0.0))
+    return m
+
+
+def test_every_member_slack_leaves_the_load_to_the_springs():
+    # Closed form (common practice): with the cable slack the spring alone takes the
+    # push, u = F / k; pulled, cable and spring act in parallel, u = F / (EA/L + k), and
+    # each carries its stiffness' share.
+    res = _cable_on_spring(True).solve()
+    push, pull = res["push"], res["pull"]
+    assert push.slack.tolist() == [True] and push.axial_forces.tolist() == [0.0]
+    assert push.displacements[1, 0] == pytest.approx(-1e3 / 1e6, rel=1e-12)
+    np.testing.assert_allclose(push.reactions[1], [1e3, 0.0, 0.0], rtol=1e-12, atol=0.0)
+    assert push.residual <= 1e-15
+    u = 1e3 / (1e7 + 1e6)
+    assert pull.slack.tolist() == [False]
+    assert pull.displacements[1, 0] == pytest.approx(u, rel=1e-12)
+    assert pull.axial_forces[0] == pytest.approx(1e7 * u, rel=1e-12)
+
+
+def test_every_member_slack_without_springs_is_a_mechanism_named():
+    with pytest.raises(sf.MechanismError, match="node 1 is free along x with no spring"):
+        _cable_on_spring(False).solve()

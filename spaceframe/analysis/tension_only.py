@@ -108,23 +108,19 @@ def _solve_set(model: Model, name: str, kind: str, factors: dict[str, float],
                 f"(the iteration cycles; {int(np.sum(t_only & ~active))} members slack)"
             )
         seen.add(key)
-        if not np.any(active):
-            loaded = np.flatnonzero(np.any(lc.forces != 0, axis=1))
-            raise MechanismError(
-                f"with members {_ids(np.arange(b))} slack the frame is a mechanism under "
-                f"{kind} {name!r}: no member is left to carry the load"
-                + (f" at node {int(loaded[0])}" if loaded.size else ""),
-                nodes=loaded, directions=[],
-            )
-        sub = _submodel(model, active, lc)
-        try:
-            res = solve_static(sub, solver=solver)[lc.name]
-        except MechanismError as exc:
-            raise MechanismError(
-                f"with members {_ids(np.flatnonzero(~active))} slack the frame is a "
-                f"mechanism under {kind} {name!r}: {exc}",
-                nodes=exc.nodes, directions=exc.directions,
-            ) from None
+        if np.any(active):
+            sub = _submodel(model, active, lc)
+            try:
+                res = solve_static(sub, solver=solver)[lc.name]
+            except MechanismError as exc:
+                raise MechanismError(
+                    f"with members {_ids(np.flatnonzero(~active))} slack the frame is a "
+                    f"mechanism under {kind} {name!r}: {exc}",
+                    nodes=exc.nodes, directions=exc.directions,
+                ) from None
+        else:  # every member slack: the supports and springs alone (no Model of no members)
+            res = _held_alone(model, lc, f"with members {_ids(np.arange(b))} slack the frame "
+                              f"is a mechanism under {kind} {name!r}")
         u = res.displacements
         d = u[model.members[:, 1]] - u[model.members[:, 0]]
         elong = np.einsum("ij,ij->i", d, model.directions)
@@ -148,6 +144,42 @@ def _solve_set(model: Model, name: str, kind: str, factors: dict[str, float],
     raise SolverError(
         f"{kind} {name!r}: the slack members did not settle in {MAX_ITERATIONS} iterations"
     )
+
+
+def _held_alone(model: Model, lc: LoadCase, label: str) -> CaseResult:
+    """The nodes on their supports and springs alone, as a solve with no member would give.
+
+    Each free direction moves by its load over its spring stiffness, each
+    restrained one by its settlement; the supports and springs take the loads
+    (R = -f).  A free direction without a spring is a mechanism, named.
+    """
+    free = ~model.restraint
+    springs = model.springs
+    loose = free & ~(springs > 0)
+    if np.any(loose):
+        loaded = np.any(lc.forces != 0, axis=1)
+        nodes = np.flatnonzero(np.any(loose, axis=1))
+        first = nodes[np.argmax(loaded[nodes])] if np.any(loaded[nodes]) else nodes[0]
+        axis = "xyz"[int(np.argmax(loose[first]))]
+        raise MechanismError(
+            f"{label}: no member is left to carry the load, and node {int(first)} is free "
+            f"along {axis} with no spring"
+            + (f" ({nodes.size} such nodes)" if nodes.size > 1 else ""),
+            nodes=nodes, directions=[],
+        )
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u = np.where(free, lc.forces / np.where(free, springs, 1.0),
+                     np.where(lc.settlement_mask, lc.settlement, 0.0))
+    reactions = np.where(free, -springs * u, -lc.forces) + 0.0  # no -0.0 in the tables
+    if not (np.all(np.isfinite(u)) and np.all(np.isfinite(reactions))):
+        raise SolverError(f"{label}: the displacements on the springs are not finite")
+    scale = float(np.abs(lc.forces).sum() + np.abs(reactions).sum())
+    residual = float(np.abs(lc.forces + reactions).sum()) / scale if scale > 0 else 0.0
+    # Of the members that carry anything -- none (as a solve of the active
+    # members returns the forces of those alone).
+    return CaseResult(name=lc.name, kind="case", displacements=u, axial_forces=np.zeros(0),
+                      reactions=reactions, loads=lc.forces.copy(), elongations=np.zeros(0),
+                      residual=residual, area=np.zeros(0))
 
 
 def solve_tension_only(model: Model, solver: str = "auto") -> Results:
