@@ -8,8 +8,9 @@ Subcommands:
 - ``new FOLDER``: write a starter project (model file and drawing) from a demo.
 - ``view MODEL``: open the 3D viewer, or ``--screenshot out.png`` off-screen.
 
-Bad input gives one line on stderr and exit code 2; an unstable frame found
-by ``check`` gives exit code 1.
+Bad input gives one line on stderr and exit code 2; an unstable frame (a
+mechanism found by ``check``, or one that stops ``run`` or ``study``) gives
+exit code 1.
 """
 
 from __future__ import annotations
@@ -517,7 +518,7 @@ def _has_display() -> bool:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the `spaceframe` command; returns the exit code."""
-    from spaceframe.errors import SpaceframeError
+    from spaceframe.errors import MechanismError, SpaceframeError
 
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -529,6 +530,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         return EXIT_BAD_INPUT
     try:
         return commands[args.command](args, out)
+    except MechanismError as exc:  # the frame, not the input: what `check` reports as 1
+        print(f"spaceframe {args.command}: error: {exc}", file=sys.stderr)
+        return EXIT_UNSTABLE
     except SpaceframeError as exc:
         msg = str(exc)
         if args.command == "check":  # readers advise the Python keyword

@@ -124,7 +124,8 @@ def test_failed_run_keeps_old_results(canopy: Path, tmp_path: Path) -> None:
     assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 0
     before = sorted(p.name for p in out.iterdir())
     canopy.write_text(canopy.read_text().replace('restrain = "pinned"', 'restrain = "z"'))
-    assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 2
+    # Supported along z only, the canopy is a mechanism: exit 1, as check gives.
+    assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 1
     assert sorted(p.name for p in out.iterdir()) == before
 
 
@@ -261,3 +262,23 @@ def test_view_results_folder_reads_the_run_and_does_not_solve(
     err = capsys.readouterr().err
     assert "results.npz: the results are of another model" in err
     assert "run it again" in err
+
+
+def test_run_of_a_mechanism_exits_1_as_check_does(tmp_path: Path,
+                                                 capsys: pytest.CaptureFixture[str]) -> None:
+    # The same flat frame as above, loaded: check and run agree that it is unstable.
+    toml = tmp_path / "flat.toml"
+    toml.write_text(
+        "[geometry]\nnodes = [[0,0,0],[1,0,0],[2,0,0],[0.5,1,0],[1.5,1,0]]\n"
+        "members = [[0,1],[1,2],[0,3],[1,3],[1,4],[2,4],[3,4]]\n"
+        "[sections]\ns = { shape = \"bar\", diameter = 0.02 }\n"
+        "[assign]\ndefault = { section = \"s\", material = \"steel\" }\n"
+        "[[supports]]\nnodes = [0, 2]\nrestrain = \"pinned\"\n"
+        "[loads.down]\n[[loads.down.nodal]]\nnodes = [1]\nforce = [0, 0, -1000]\n"
+    )
+    assert main(["check", str(toml)]) == 1
+    capsys.readouterr()
+    assert main(["run", str(toml), "-o", str(tmp_path / "out"), "--no-pictures"]) == 1
+    err = capsys.readouterr().err
+    assert err.startswith("spaceframe run: error:") and "node 1" in err
+    assert not (tmp_path / "out").exists()
