@@ -210,3 +210,20 @@ def test_supported_nodes_include_springs(tripod: sf.Model) -> None:
     tripod.add_nodes([[5.0, 0.0, 0.0]])
     tripod.add_spring([4], kz=1e6)
     assert supported_nodes(tripod).tolist() == [0, 1, 2, 4]
+
+
+def test_group_lookup_of_the_summary_equals_groups_of() -> None:
+    # The summary finds a member's groups by binary search; it must list what
+    # Model.groups_of lists, in the same order (unsorted ids, overlaps, none).
+    from spaceframe.results.summary import _GroupsOf
+
+    m = sf.Model()
+    m.add_nodes(np.c_[np.arange(8.0), np.zeros(8), np.zeros(8)])
+    m.add_members(np.c_[np.arange(7), np.arange(1, 8)], area=1e-4, E=200e9)
+    m.add_group("b", [5, 1, 3])
+    m.add_group("a", [3, 0])
+    m.add_group("empty", np.zeros(0, dtype=int))
+    look = _GroupsOf(m)
+    for member in range(m.n_members):
+        assert look(member) == m.groups_of(member), member
+    assert look(3) == ["b", "a"] and look(6) == []

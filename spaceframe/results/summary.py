@@ -184,18 +184,40 @@ def _vec(a: np.ndarray) -> list[float]:
     return [float(v) for v in np.asarray(a, dtype=float).ravel()]
 
 
-def _member_entry(model: Model, result: CaseResult, member: int) -> dict[str, Any]:
+class _GroupsOf:
+    """``model.groups_of`` by binary search in each group's sorted ids, sorted once.
+
+    ``groups_of`` compares a member with every id of every group; a summary of
+    a thousand results asks for seven members each.
+    """
+
+    def __init__(self, model: Model) -> None:
+        self.sorted = {g: np.sort(np.asarray(ids, dtype=np.int64)) for g, ids in
+                       model.groups.items()}
+
+    def __call__(self, member: int) -> list[str]:
+        out = []
+        for g, ids in self.sorted.items():
+            i = int(np.searchsorted(ids, member))
+            if i < ids.size and ids[i] == member:
+                out.append(g)
+        return out
+
+
+def _member_entry(model: Model, result: CaseResult, member: int,
+                  groups_of: Any = None) -> dict[str, Any]:
     return {
         "member": int(member),
         "nodes": [int(v) for v in model.members[member]],
-        "groups": model.groups_of(int(member)),
+        "groups": (groups_of or model.groups_of)(int(member)),
         "force": float(result.axial_forces[member]),
         "stress": float(result.axial_forces[member] / model.area[member]),
         "length": float(model.lengths[member]),
     }
 
 
-def critical_members(model: Model, result: CaseResult, n: int = 5) -> list[dict[str, Any]]:
+def critical_members(model: Model, result: CaseResult, n: int = 5, *,
+                     groups_of: Any = None) -> list[dict[str, Any]]:
     """The ``n`` members with the largest absolute axial force in one result.
 
     Returns
@@ -212,7 +234,7 @@ def critical_members(model: Model, result: CaseResult, n: int = 5) -> list[dict[
     # Stable order: by decreasing |N|, ties by member id; forces equal to 12
     # significant digits are ties (equal in closed form, apart in round-off).
     top = top[np.lexsort((top, -_tie_key(a)[top]))]
-    return [_member_entry(model, result, int(i)) for i in top]
+    return [_member_entry(model, result, int(i), groups_of) for i in top]
 
 
 def _tie_key(a: np.ndarray) -> np.ndarray:
@@ -223,8 +245,12 @@ def _tie_key(a: np.ndarray) -> np.ndarray:
     return np.round(a / peak, 12)
 
 
-def case_summary(model: Model, result: CaseResult, n_critical: int = 5) -> dict[str, Any]:
-    """The figures of one load case or combination (see :func:`summary`)."""
+def case_summary(model: Model, result: CaseResult, n_critical: int = 5, *,
+                 groups_of: Any = None) -> dict[str, Any]:
+    """The figures of one load case or combination (see :func:`summary`).
+
+    ``groups_of``: a callable member -> group names (default ``model.groups_of``).
+    """
     u = result.displacements
     mag = np.sqrt(np.einsum("ij,ij->i", u, u))
     node = int(np.argmax(mag)) if mag.size else 0
@@ -252,15 +278,16 @@ def case_summary(model: Model, result: CaseResult, n_critical: int = 5) -> dict[
         },
         # None when no member is in tension (or in compression): a stable key
         # with a null value rather than a misleading zero-force member.
-        "max_tension": _member_entry(model, result, i_t) if t[i_t] > 0 else None,
-        "max_compression": _member_entry(model, result, i_c) if t[i_c] < 0 else None,
+        "max_tension": _member_entry(model, result, i_t, groups_of) if t[i_t] > 0 else None,
+        "max_compression": (_member_entry(model, result, i_c, groups_of) if t[i_c] < 0
+                            else None),
         "max_abs_stress": {"value": float(abs(stress[i_s])), "member": i_s},
         "applied_total": _vec(applied),
         "reaction_total": _vec(reacted),
         "imbalance": _vec(imbalance),
         "residual": float(result.residual),
         "equilibrium_ok": balance_ok and residual_ok,
-        "critical_members": critical_members(model, result, n_critical),
+        "critical_members": critical_members(model, result, n_critical, groups_of=groups_of),
     }
 
 
@@ -315,6 +342,7 @@ def summary(results: Results, n_critical: int = 5) -> dict[str, Any]:
         governing ``result``).  All values SI, tension positive.
     """
     model = results.model
+    groups_of = _GroupsOf(model)
     lo, hi = model.extents()
     lengths = model.lengths
     mass = model.mass
@@ -352,7 +380,8 @@ def summary(results: Results, n_critical: int = 5) -> dict[str, Any]:
         "solver": results.solver,
         "model": model_part,
         "results": {
-            name: case_summary(model, results[name], n_critical) for name in results
+            name: case_summary(model, results[name], n_critical, groups_of=groups_of)
+            for name in results
         },
         "critical_members": _governing(results, n_critical),
     }
