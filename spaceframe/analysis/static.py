@@ -104,12 +104,7 @@ def _column_norms(X: np.ndarray) -> np.ndarray:
 
 def _check_finite(names: list[str], uf: np.ndarray, what: str = "displacements") -> None:
     """Fail closed on NaN or infinity in a solution (one column per case)."""
-    if uf.size and not np.all(np.isfinite(uf)):
-        col = int(np.flatnonzero(~np.isfinite(uf).all(axis=0))[0])
-        raise SolverError(
-            f"case {names[col]!r}: the solver returned non-finite {what} (numbers beyond "
-            "the range of float64: check the units of E, areas and loads)"
-        )
+    _finite_columns([("case", name, None) for name in names], what, uf)
 
 
 def full_matrix(K: sp.spmatrix, backend: str) -> sp.spmatrix:
@@ -191,6 +186,7 @@ class _Static:
         self.has_springs = bool(np.any(self.spring > 0))
         self.area = np.array(model.area, dtype=float)
         self.area.flags.writeable = False  # one snapshot, shared by every result
+        self.peaks: list[tuple[np.ndarray, np.ndarray]] = []
 
     def solve_cases(self, names: list[str], F: np.ndarray, E0: np.ndarray | None,
                     UP: np.ndarray | None) -> np.ndarray:
@@ -251,9 +247,14 @@ class _Static:
         return True
 
     def results(self, labels: list[tuple[str, str, dict[str, float] | None]],
-                U: np.ndarray, F: np.ndarray, E0: np.ndarray | None,
-                refine: bool) -> dict[str, CaseResult]:
-        """The checked results of the columns U (refined first when ``refine``)."""
+                U: np.ndarray, F: np.ndarray, E0: np.ndarray | None, refine: bool
+                ) -> tuple[dict[str, CaseResult], np.ndarray, np.ndarray]:
+        """The checked results of the columns U (refined first when ``refine``).
+
+        Also the displacements and loads as the results hold them (column by
+        column, shared), for the combinations; each result's largest
+        displacement goes into ``self.peaks``.
+        """
         t = time.perf_counter()
         A, k = self.A, self.k
         for step in range(_REFINE_STEPS + 1):
@@ -267,11 +268,15 @@ class _Static:
             scales = _scale_terms(U, E0, self.absA, k)
             if not self._refine([lab[1] for lab in labels], U, F, out, scales[1]):
                 break
+        self.peaks.append(_peak_displacements(U))
+        # Stored column by column before the checks, so that the results and
+        # the combinations share the one copy (_make_results keeps it as it is).
+        U, F = _column_major(U), _column_major(F)
         items = _make_results(self.model, labels, U, T, None, F, elong, E0, A, self.absA,
                               self.spring, self.restrained, area=self.area,
                               known=(out, scales))
         self.timings["recover"] += time.perf_counter() - t
-        return items
+        return items, U, F
 
 
 def solve_static(model: Model, solver: str = "auto") -> Results:
@@ -312,16 +317,15 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     # Cases a block of columns at a time, from loads to checked results: the
     # temporaries stay a few arrays of (model rows x block) however many cases.
     blocks: list[tuple[slice, np.ndarray, np.ndarray, np.ndarray | None]] = []
-    peaks: list[tuple[np.ndarray, np.ndarray]] = []
     width = _block_columns(model)
     for lo in range(0, len(names), width):
         cols = slice(lo, lo + width)
         F, E0, UP = _case_columns(model, names[cols], temperature, settlement)
         U = run.solve_cases(names[cols], F, E0, UP)
-        items.update(run.results([("case", name, None) for name in names[cols]], U, F, E0,
-                                 refine=True))
+        done, U, F = run.results([("case", name, None) for name in names[cols]], U, F, E0,
+                                 refine=True)
+        items.update(done)
         blocks.append((cols, U, F, E0))
-        peaks.append(_peak_displacements(U))
     # Combinations: a combination's column is U @ w over the cases, so each
     # result is what the combined load vector gives on its own.
     comb = list(model.combinations.items())
@@ -338,11 +342,10 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
                   if temperature else None)
         items.update(run.results([("combination", c, f) for c, f in comb[cc]],
                                  np.asarray(UC), np.asarray(FC),
-                                 None if EC is None else np.asarray(EC), refine=False))
-        peaks.append(_peak_displacements(np.asarray(UC)))
-    if peaks:
-        _warn_large(model, list(items), np.concatenate([p for p, _ in peaks]),
-                    np.concatenate([q for _, q in peaks]))
+                                 None if EC is None else np.asarray(EC), refine=False)[0])
+    if run.peaks:
+        _warn_large(model, list(items), np.concatenate([p for p, _ in run.peaks]),
+                    np.concatenate([q for _, q in run.peaks]))
     timings["total"] = time.perf_counter() - t0
     return Results(model, items, solver=factor.name if factor is not None else "none",
                    timings=timings, info={"dofs": int(free.size), "nnz": int(K.nnz)})
