@@ -392,11 +392,11 @@ def _save_npz(path: Path, arrays: Mapping[str, Any]) -> None:
 
     with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_STORED, allowZip64=True) as zf:
         for name, value in arrays.items():
-            stack = value if isinstance(value, _Stack) else None
-            parts = stack.parts if stack is not None else [np.asarray(value)]
-            dtype = stack.dtype if stack is not None else parts[0].dtype
-            shape = stack.shape if stack is not None else parts[0].shape
-            each = shape[1:] if stack is not None else shape
+            if not isinstance(value, _Stack):  # one array: a stack of one, no new axis
+                value = np.asarray(value)
+                parts, dtype, shape, each = [value], value.dtype, value.shape, value.shape
+            else:
+                parts, dtype, shape, each = value.parts, value.dtype, value.shape, value.shape[1:]
             with zf.open(f"{name}.npy", "w", force_zip64=True) as fh:
                 np.lib.format.write_array_header_2_0(
                     fh, {"descr": np.lib.format.dtype_to_descr(dtype),
