@@ -361,7 +361,7 @@ def run(
     design = _check_members(loaded, results, envelopes, sizing, summ, progress, timings)
     modes = _analyses(loaded, results, solver, summ, progress, timings)
     paths = _load_paths(loaded, summ, progress, timings)
-    shown, note = results_with_files(results, every_result)
+    shown, note = results_with_files(summ["results"], every_result)
     if note is not None:  # said in the summary and by the command
         summ["warnings"].append(note)
         summ["results_with_files"] = shown

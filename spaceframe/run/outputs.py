@@ -24,21 +24,28 @@ if TYPE_CHECKING:
 PER_RESULT_LIMIT = 50
 
 
-def results_with_files(results: Results, every: bool = False) -> tuple[list[str], str | None]:
+def results_with_files(figures: dict[str, Any],
+                       every: bool = False) -> tuple[list[str], str | None]:
     """The results that get files of their own, and a note when that is not all of them.
 
-    Up to :data:`PER_RESULT_LIMIT` results (or with ``every``): all.  Above:
-    the combinations (the first :data:`PER_RESULT_LIMIT`) and the cases that
-    give the largest displacement, the largest tension and the largest
-    compression of all results.
+    ``figures``: each result's figures, the "results" of
+    :func:`spaceframe.results.summary.summary` (kind, largest displacement,
+    tension and compression).  Up to :data:`PER_RESULT_LIMIT` results (or with
+    ``every``): all.  Above: the combinations (the first
+    :data:`PER_RESULT_LIMIT`) and the cases that give the largest
+    displacement, the largest tension and the largest compression of all.
     """
-    names = list(results)
+    names = list(figures)
     if every or len(names) <= PER_RESULT_LIMIT:
         return names, None
-    chosen = results.combinations[:PER_RESULT_LIMIT]
-    peaks = np.array([[results[n].max_displacement()[1], results[n].max_tension()[1],
-                       -results[n].max_compression()[1]] for n in names])
-    peaks = np.maximum(peaks, 0.0)  # no tension anywhere: no case of largest tension
+    chosen = [n for n in names if figures[n]["kind"] == "combination"][:PER_RESULT_LIMIT]
+
+    def force(entry: dict[str, Any] | None) -> float:
+        return 0.0 if entry is None else abs(float(entry["force"]))
+
+    # None where no member is in tension (or compression): no case of the largest.
+    peaks = np.array([[float(f["max_displacement"]["value"]), force(f["max_tension"]),
+                       force(f["max_compression"])] for f in figures.values()])
     for j, peak in zip(np.argmax(peaks, axis=0), peaks.max(axis=0), strict=True):
         if peak > 0 and names[j] not in chosen:
             chosen.append(names[j])
