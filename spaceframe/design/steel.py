@@ -236,56 +236,25 @@ def _require(model: Model, missing: np.ndarray, kind: str, what: str, fix: str) 
 
 @dataclass
 class _Resistances:
-    """A model's member resistances (those of :func:`check_members`), shared by its results."""
+    """A model's member resistances (those of :func:`check_members`), shared by its results.
 
-    n_t: np.ndarray
-    n_c: np.ndarray
-    n_pl: np.ndarray
-    f_rd: np.ndarray
-    steel: np.ndarray
-    tension_only: np.ndarray
-    has_i: np.ndarray
+    Per member, for a member in tension (t) or in compression (c): the
+    resistance, the code of the governing check (:data:`CHECKS`) and the
+    slenderness limit; then χ, λ̄ and λ as shown (NaN without a second moment).
+    """
+
+    res_t: np.ndarray
+    res_c: np.ndarray
+    ten_code: np.ndarray
+    comp_code: np.ndarray
+    lim_t: np.ndarray
+    lim_c: np.ndarray
     chi: np.ndarray
-    lam: np.ndarray
-    lam_bar: np.ndarray
-    net_governs: np.ndarray
-    buckling_governs: np.ndarray
-    limit_c: np.ndarray
+    lambda_bar_shown: np.ndarray
+    slenderness_shown: np.ndarray
     gamma: dict[str, float]
-    #: Per member, for a member in tension (t) or in compression (c): the
-    #: resistance, the code of the governing check (:data:`CHECKS`) and the
-    #: slenderness limit; then λ̄ and λ as shown (NaN without a second moment).
-    res_t: np.ndarray = field(init=False)
-    res_c: np.ndarray = field(init=False)
-    ten_code: np.ndarray = field(init=False)
-    comp_code: np.ndarray = field(init=False)
-    lim_t: np.ndarray = field(init=False)
-    lim_c: np.ndarray = field(init=False)
-    lambda_bar_shown: np.ndarray = field(init=False)
-    slenderness_shown: np.ndarray = field(init=False)
 
     def __post_init__(self) -> None:
-        cable, code = self.tension_only, CHECKS.index
-        self.res_t = np.where(cable, self.f_rd, self.n_t)
-        self.res_c = np.where(cable, self.f_rd, self.n_c)
-        self.ten_code = np.where(
-            cable, code("cable tension"),
-            np.where(self.net_governs, code("net section (6.7)"), code("tension (6.6)")),
-        ).astype(np.int8)
-        self.comp_code = np.where(
-            cable, code("cable in compression"),
-            np.where(~self.has_i, code("compression, buckling not checked: no second moment"),
-                     np.where(self.buckling_governs, code("flexural buckling (6.47)"),
-                              code("compression (6.10)"))),
-        ).astype(np.int8)
-        # The limits for the governing sign (common-practice defaults where the
-        # user gave none); cables and members without a second moment are exempt.
-        exempt = cable | ~self.has_i
-        self.lim_c = np.where(exempt, np.inf, np.where(np.isfinite(self.limit_c), self.limit_c,
-                                                       SLENDERNESS_COMPRESSION))
-        self.lim_t = np.where(exempt, np.inf, SLENDERNESS_TENSION)
-        self.lambda_bar_shown = np.where(self.has_i, self.lam_bar, np.nan)
-        self.slenderness_shown = np.where(self.has_i, self.lam, np.nan)
         for name in ("chi", "lambda_bar_shown", "slenderness_shown"):
             getattr(self, name).flags.writeable = False  # shared by every result's check
 
@@ -347,10 +316,29 @@ def _resistances(model: Model, gamma_M0: float = 1.0, gamma_M1: float = 1.0,
     buckling_governs = has_i & (n_b < n_pl)
     f_rd = breaking / gamma_cable
 
+    code = CHECKS.index
+    # The limits for the governing sign (common-practice defaults where the
+    # user gave none); cables and members without a second moment are exempt.
+    exempt = tension_only | ~has_i
     return _Resistances(
-        n_t=n_t, n_c=n_c, n_pl=n_pl, f_rd=f_rd, steel=steel, tension_only=tension_only,
-        has_i=has_i, chi=chi, lam=lam, lam_bar=lam_bar, net_governs=net_governs,
-        buckling_governs=buckling_governs, limit_c=limit_c,
+        res_t=np.where(tension_only, f_rd, n_t),
+        res_c=np.where(tension_only, f_rd, n_c),
+        ten_code=np.where(
+            tension_only, code("cable tension"),
+            np.where(net_governs, code("net section (6.7)"), code("tension (6.6)")),
+        ).astype(np.int8),
+        comp_code=np.where(
+            tension_only, code("cable in compression"),
+            np.where(~has_i, code("compression, buckling not checked: no second moment"),
+                     np.where(buckling_governs, code("flexural buckling (6.47)"),
+                              code("compression (6.10)"))),
+        ).astype(np.int8),
+        lim_t=np.where(exempt, np.inf, SLENDERNESS_TENSION),
+        lim_c=np.where(exempt, np.inf, np.where(np.isfinite(limit_c), limit_c,
+                                                SLENDERNESS_COMPRESSION)),
+        chi=chi,
+        lambda_bar_shown=np.where(has_i, lam_bar, np.nan),
+        slenderness_shown=np.where(has_i, lam, np.nan),
         gamma={"gamma_M0": gamma_M0, "gamma_M1": gamma_M1, "gamma_M2": gamma_M2,
                "gamma_cable": gamma_cable})
 
