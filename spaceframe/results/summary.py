@@ -291,7 +291,7 @@ def case_summary(model: Model, result: CaseResult, n_critical: int = 5, *,
     }
 
 
-def _governing(results: Results, n: int) -> list[dict[str, Any]]:
+def _governing(results: Results, n: int, groups_of: Any = None) -> list[dict[str, Any]]:
     model = results.model
     best = np.full(model.n_members, -1.0)
     which = np.full(model.n_members, -1, dtype=np.int64)
@@ -310,7 +310,7 @@ def _governing(results: Results, n: int) -> list[dict[str, Any]]:
     out = []
     for i in top:
         name = names[int(which[i])]
-        entry = _member_entry(model, results[name], int(i))
+        entry = _member_entry(model, results[name], int(i), groups_of)
         entry["result"] = name
         out.append(entry)
     return out
@@ -383,5 +383,5 @@ def summary(results: Results, n_critical: int = 5) -> dict[str, Any]:
             name: case_summary(model, results[name], n_critical, groups_of=groups_of)
             for name in results
         },
-        "critical_members": _governing(results, n_critical),
+        "critical_members": _governing(results, n_critical, groups_of),
     }
