@@ -357,7 +357,12 @@ def run(
         loaded = load(path, cache=cache)
     results, sizing, solve_notes = _solve(loaded, solver, progress, timings)
     envelopes = loaded.project.envelope_results(results) if loaded.project is not None else {}
-    summ = _summary(loaded, results, envelopes, solve_notes)
+    from spaceframe.results.summary import summary as make_summary
+
+    # The results' own figures, summarised once (seconds at 1000 results) and
+    # written into summary.json as they are.
+    base = make_summary(results)
+    summ = _summary(loaded, results, base, envelopes, solve_notes)
     design = _check_members(loaded, results, envelopes, sizing, summ, progress, timings)
     modes = _analyses(loaded, results, solver, summ, progress, timings)
     paths = _load_paths(loaded, summ, progress, timings)
@@ -372,8 +377,6 @@ def run(
             keys = ("source", "title", "warnings", "envelopes", "design", "analysis",
                     "nonlinear")
             extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
-            # The results' own figures, summarised once (seconds at 1000 results).
-            base = {k: v for k, v in summ.items() if k not in (*keys, "results_with_files")}
             return write_outputs(folder, results, loaded, pictures, progress, extra, design,
                                  dxf_options={"requested": dxf, "deformed": dxf_deformed},
                                  envelopes=envelopes, modes=modes, paths=paths, shown=shown,
@@ -431,13 +434,12 @@ def _solve(loaded: Loaded, solver: str, progress: Progress,
     return results, sizing, solve_notes
 
 
-def _summary(loaded: Loaded, results: Results, envelopes: dict[str, Any],
-             solve_notes: list[str]) -> dict[str, Any]:
-    """The run's summary: the results' figures, the envelopes, source, title, warnings."""
+def _summary(loaded: Loaded, results: Results, base: dict[str, Any],
+             envelopes: dict[str, Any], solve_notes: list[str]) -> dict[str, Any]:
+    """The run's summary: the results' figures ``base``, the envelopes, source, title, warnings."""
     from spaceframe.io.tables import envelope_summary
-    from spaceframe.results.summary import summary as make_summary
 
-    summ = make_summary(results)
+    summ = dict(base)
     summ["envelopes"] = envelope_summary(results, envelopes)
     summ["source"] = str(loaded.path.resolve())
     summ["title"] = loaded.title
