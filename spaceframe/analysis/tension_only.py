@@ -157,9 +157,8 @@ def _held_alone(model: Model, lc: LoadCase, label: str) -> CaseResult:
     springs = model.springs
     loose = free & ~(springs > 0)
     if np.any(loose):
-        loaded = np.any(lc.forces != 0, axis=1)
         nodes = np.flatnonzero(np.any(loose, axis=1))
-        first = nodes[np.argmax(loaded[nodes])] if np.any(loaded[nodes]) else nodes[0]
+        first = nodes[np.argmax(np.any(lc.forces[nodes] != 0, axis=1))]  # a loaded one first
         axis = "xyz"[int(np.argmax(loose[first]))]
         raise MechanismError(
             f"{label}: no member is left to carry the load, and node {int(first)} is free "
