@@ -45,15 +45,19 @@ def test_check_reports_geometry_and_stability(canopy: Path,
     assert rep["extents"] == [[0.0, 0.0, 6.0], [24.0, 15.0, 8.0]]
 
 
+#: A flat frame on two pinned supports: its middle nodes can move out of plane.
+FLAT = (
+    "[geometry]\nnodes = [[0,0,0],[1,0,0],[2,0,0],[0.5,1,0],[1.5,1,0]]\n"
+    "members = [[0,1],[1,2],[0,3],[1,3],[1,4],[2,4],[3,4]]\n"
+    "[sections]\ns = { shape = \"bar\", diameter = 0.02 }\n"
+    "[assign]\ndefault = { section = \"s\", material = \"steel\" }\n"
+    "[[supports]]\nnodes = [0, 2]\nrestrain = \"pinned\"\n"
+)
+
+
 def test_check_names_a_mechanism(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     toml = tmp_path / "flat.toml"
-    toml.write_text(
-        "[geometry]\nnodes = [[0,0,0],[1,0,0],[2,0,0],[0.5,1,0],[1.5,1,0]]\n"
-        "members = [[0,1],[1,2],[0,3],[1,3],[1,4],[2,4],[3,4]]\n"
-        "[sections]\ns = { shape = \"bar\", diameter = 0.02 }\n"
-        "[assign]\ndefault = { section = \"s\", material = \"steel\" }\n"
-        "[[supports]]\nnodes = [0, 2]\nrestrain = \"pinned\"\n"
-    )
+    toml.write_text(FLAT)
     assert main(["check", str(toml)]) == 1
     err = capsys.readouterr().err
     assert "node 1 has no stiffness along z" in err
@@ -268,14 +272,8 @@ def test_run_of_a_mechanism_exits_1_as_check_does(tmp_path: Path,
                                                  capsys: pytest.CaptureFixture[str]) -> None:
     # The same flat frame as above, loaded: check and run agree that it is unstable.
     toml = tmp_path / "flat.toml"
-    toml.write_text(
-        "[geometry]\nnodes = [[0,0,0],[1,0,0],[2,0,0],[0.5,1,0],[1.5,1,0]]\n"
-        "members = [[0,1],[1,2],[0,3],[1,3],[1,4],[2,4],[3,4]]\n"
-        "[sections]\ns = { shape = \"bar\", diameter = 0.02 }\n"
-        "[assign]\ndefault = { section = \"s\", material = \"steel\" }\n"
-        "[[supports]]\nnodes = [0, 2]\nrestrain = \"pinned\"\n"
-        "[loads.down]\n[[loads.down.nodal]]\nnodes = [1]\nforce = [0, 0, -1000]\n"
-    )
+    toml.write_text(FLAT + "[loads.down]\n[[loads.down.nodal]]\nnodes = [1]\n"
+                    "force = [0, 0, -1000]\n")
     assert main(["check", str(toml)]) == 1
     capsys.readouterr()
     assert main(["run", str(toml), "-o", str(tmp_path / "out"), "--no-pictures"]) == 1
