@@ -42,6 +42,7 @@ __all__ = [
     "Factor",
     "Inertia",
     "LDLFactor",
+    "PardisoFactor",
     "SingularFactor",
     "available_backends",
     "factorize",
@@ -182,12 +183,19 @@ class _SuperLUFactor:
             return x / self._scale
 
 
-class _PardisoFactor:
+class PardisoFactor:
+    """PARDISO's Cholesky of a symmetric positive definite matrix (its upper triangle).
+
+    What :func:`factorize` returns for the "pardiso" back-end; :meth:`refactor`
+    factorises another matrix of the same pattern reusing the analysis.
+    """
+
     name = "pardiso"
 
     def __init__(self, K_upper: sp.spmatrix, refine: bool = True) -> None:
         import pypardiso
 
+        self._refine = refine
         self._A, self._scale = _scaled(sp.csr_matrix(K_upper))
         self._A.sort_indices()
         solver = pypardiso.PyPardisoSolver(mtype=2)
@@ -258,7 +266,35 @@ class _PardisoFactor:
             # not known here; the caller names the mechanism from its modes.
             raise SingularFactor(f"PARDISO: {small.size} zero pivots")
 
+    def refactor(self, K_upper: sp.spmatrix) -> None:
+        """Factorise a matrix of the first one's pattern: the numerical phase only.
+
+        The ordering and symbolic factorisation are reused (a load path
+        factorises tangents of one pattern many times).  Raises SingularFactor
+        as the first factorisation does (the handle is then freed).
+        """
+        import pypardiso
+
+        A, scale = _scaled(sp.csr_matrix(K_upper))
+        A.sort_indices()
+        solver = self._solver
+        if not hasattr(solver, "_call_pardiso"):  # another pypardiso: analyse afresh
+            solver.free_memory(everything=True)
+            self.__init__(K_upper, self._refine)  # type: ignore[misc]
+            return
+        solver.set_phase(22)
+        try:
+            solver._call_pardiso(A, np.zeros((A.shape[0], 1)))
+        except pypardiso.pardiso_wrapper.PyPardisoError as exc:
+            solver.free_memory(everything=True)
+            raise SingularFactor(f"PARDISO: {exc}") from exc
+        # What pypardiso's own factorize records, so that its solve uses this factor.
+        solver.factorized_A = A.copy()
+        self._A, self._scale = A, scale
+        self._check_pivots(solver)
+
     def solve(self, rhs: np.ndarray) -> np.ndarray:
+        """K⁻¹ rhs for one column or several."""
         import pypardiso
 
         b = np.asfortranarray(np.asarray(rhs, dtype=float))
@@ -332,7 +368,7 @@ def factorize(K: sp.spmatrix, backend: str = "auto", *, refine: bool = True) -> 
     """
     name = resolve_backend(backend)
     if name == "pardiso":
-        return _PardisoFactor(K if _is_upper_csr(K) else sp.triu(K, format="csr"), refine)
+        return PardisoFactor(K if _is_upper_csr(K) else sp.triu(K, format="csr"), refine)
     return _SuperLUFactor(K)
 
 

@@ -71,9 +71,8 @@ import scipy.sparse as sp
 from spaceframe.assembly import free_dof_map, member_dofs
 from spaceframe.errors import MechanismError, ModelError
 from spaceframe.solvers import (
+    PardisoFactor,
     SingularFactor,
-    _PardisoFactor,
-    _scaled,
     factorize,
     factorize_ldlt,
     resolve_backend,
@@ -85,49 +84,11 @@ if TYPE_CHECKING:
 __all__ = ["Bars", "CholeskySlot", "State", "Tangent", "first_state", "reference_load"]
 
 
-class _Cholesky(_PardisoFactor):
-    """PARDISO's Cholesky whose analysis (ordering, symbolic factorisation) is reused.
-
-    Its solves skip iterative refinement (half their time): the Newton
-    iteration corrects what the direct solve leaves.
-    """
-
-    def __init__(self, K_upper: sp.csr_matrix) -> None:
-        super().__init__(K_upper)
-        self._solver.set_iparm(8, 0)
-
-    def refactor(self, K_upper: sp.csr_matrix) -> None:
-        """Factorise a matrix of the first one's pattern: the numerical phase only.
-
-        Raises SingularFactor as the first factorisation does (the handle is
-        then freed).
-        """
-        import pypardiso
-
-        A, scale = _scaled(sp.csr_matrix(K_upper))
-        A.sort_indices()
-        solver = self._solver
-        if not hasattr(solver, "_call_pardiso"):  # another pypardiso: analyse afresh
-            solver.free_memory(everything=True)
-            self.__init__(K_upper)  # type: ignore[misc]
-            return
-        solver.set_phase(22)
-        try:
-            solver._call_pardiso(A, np.zeros((A.shape[0], 1)))
-        except pypardiso.pardiso_wrapper.PyPardisoError as exc:
-            solver.free_memory(everything=True)
-            raise SingularFactor(f"PARDISO: {exc}") from exc
-        # What pypardiso's own factorize records, so that its solve uses this factor.
-        solver.factorized_A = A.copy()
-        self._A, self._scale = A, scale
-        self._check_pivots(solver)
-
-
 class CholeskySlot:
     """One live PARDISO Cholesky for the tangents of one pattern (module notes)."""
 
     def __init__(self) -> None:
-        self._factor: _Cholesky | None = None
+        self._factor: PardisoFactor | None = None
         self.generation = 0
         self.worth_trying = True  # the last tangent was positive definite
 
@@ -136,7 +97,9 @@ class CholeskySlot:
         self.generation += 1
         try:
             if self._factor is None:
-                self._factor = _Cholesky(upper)
+                # No iterative refinement in its solves (half their time): the
+                # Newton iteration corrects what the direct solve leaves.
+                self._factor = PardisoFactor(upper, refine=False)
             else:
                 self._factor.refactor(upper)
         except SingularFactor:
