@@ -396,6 +396,12 @@ def parse_quantity(text: str, kind: str) -> float:
     """
     k = KINDS[kind]
     number, unit = _split(text)
+    common = COMMON_UNITS.get(unit)
+    if common is not None and common[1] == k.dims:
+        # The common units without pint (a model file with a thousand load
+        # cases spent 1.7 s in pint's parser); others, and a common unit of
+        # the wrong kind (for pint's message), go through pint.
+        return number * common[0]
     return number * _pint_si(unit, k, text)
 
 

@@ -140,12 +140,15 @@ def test_pint_is_imported_only_for_strings_outside_the_table() -> None:
         "iu = u.InputUnits.from_names({'length': 'mm', 'force': 'kN', 'stress': 'MPa'})\n"
         "iu.to_si(5, 'force')\n"
         "print('pint' in sys.modules)\n"
-        "u.parse_quantity('5 kN', 'force')\n"
+        "assert u.parse_quantity('5 kN', 'force') == 5000.0\n"
+        "print('pint' in sys.modules)\n"
+        "assert abs(u.parse_quantity('5 kip', 'force') - 22241.1) < 0.1\n"
         "print('pint' in sys.modules)\n"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.split()
-    assert out == ["False", "True"]
+    # 1 kip = 1000 lbf = 4448.2216 N (NIST SP 811, appendix B).
+    assert out == ["False", "False", "True"]
 
 
 @pytest.mark.parametrize(
