@@ -63,6 +63,27 @@ def test_cases_in_several_blocks_match_closed_form() -> None:
     np.testing.assert_allclose(res["mid"].axial_forces, _leg_force(mid), rtol=1e-12)
 
 
+def test_blocks_recovered_side_by_side_equal_one_at_a_time(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    # Blocks recovered on threads (and refined there, through one factor)
+    # give the very numbers of one block after another, in the same order.
+    m = _tripod(3 * static._RECOVER_BLOCK + 5)
+    for k in range(0, 3 * static._RECOVER_BLOCK, 37):
+        m.add_combination(f"c{k}", {f"p{k}": 1.35, f"p{k + 5}": -0.5})
+    monkeypatch.setattr(static, "REFINE_ABOVE", -1.0)  # every column refined
+    monkeypatch.setattr(static, "_SOLVE_COLUMNS", 2 * static._RECOVER_BLOCK)
+    monkeypatch.setattr(static, "_RECOVER_THREADS", 2)
+    two = m.solve()
+    monkeypatch.setattr(static, "_RECOVER_THREADS", 1)
+    one = m.solve()
+    assert list(two) == list(one)
+    for name in one:
+        for what in ("displacements", "axial_forces", "reactions", "loads", "elongations"):
+            np.testing.assert_array_equal(getattr(two[name], what), getattr(one[name], what))
+    np.testing.assert_allclose(two["c74"].axial_forces,
+                               _leg_force(1.35 * 75e3 - 0.5 * 80e3), rtol=1e-12)
+
+
 def test_refinement_from_the_recovery_residual(monkeypatch: pytest.MonkeyPatch) -> None:
     # A bar of 0 forces every column through every refinement step: the
     # steps solve the recovery's own residual and keep the answer.

@@ -9,8 +9,11 @@ Each result then checks itself (finite values, residual, balance per axis).
 
 from __future__ import annotations
 
+import os
+import threading
 import time
 import warnings
+from concurrent.futures import ThreadPoolExecutor
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -56,10 +59,34 @@ _RECOVER_BLOCK = 64
 _BLOCK_BYTES = 16 * 2**20
 
 
+#: Right-hand sides solved in one call, at most this many bytes of them:
+#: PARDISO's forward and back substitution read the whole factor once per
+#: call, so wide blocks cost far less per column (100k members: 8 ms a column
+#: in blocks of 20, 4 ms in blocks of 100); they are recovered in narrower ones.
+_SOLVE_BYTES = 64 * 2**20
+_SOLVE_COLUMNS = 128
+#: Threads that recover blocks of columns side by side (numpy's and scipy's
+#: loops over large arrays run without the GIL).
+_RECOVER_THREADS = min(2, os.cpu_count() or 1)
+
+
+#: A result's (kind, name, factors), and a block of columns to recover:
+#: (labels, U, F, E0, refine).
+_Label = tuple[str, str, "dict[str, float] | None"]
+_Block = tuple[list[_Label], np.ndarray, np.ndarray, "np.ndarray | None", bool]
+
+
 def _block_columns(model: Model) -> int:
-    """Columns per block of the solve: :data:`_RECOVER_BLOCK`, fewer for a large model."""
+    """Columns per block of the recovery: :data:`_RECOVER_BLOCK`, fewer for a large model."""
     rows = max(3 * model.n_nodes, model.n_members, 1)
     return max(4, min(_RECOVER_BLOCK, _BLOCK_BYTES // (8 * rows)))
+
+
+def _solve_columns(model: Model, width: int) -> int:
+    """Columns per call of the solve: a multiple of the recovery's ``width``."""
+    rows = max(3 * model.n_nodes, model.n_members, 1)
+    wide = min(_SOLVE_COLUMNS, _SOLVE_BYTES // (8 * rows))
+    return max(width, wide // width * width)
 
 #: Relative size, against the magnitudes a member force is computed from,
 #: below which the force is round-off: 64 units of float64 round-off (2**-52),
@@ -187,6 +214,9 @@ class _Static:
         self.area = np.array(model.area, dtype=float)
         self.area.flags.writeable = False  # one snapshot, shared by every result
         self.peaks: list[tuple[np.ndarray, np.ndarray]] = []
+        # One solve at a time through the factor (the refinement of blocks
+        # recovered side by side): a PARDISO handle is not shared by threads.
+        self.lock = threading.Lock()
 
     def solve_cases(self, names: list[str], F: np.ndarray, E0: np.ndarray | None,
                     UP: np.ndarray | None) -> np.ndarray:
@@ -237,25 +267,25 @@ class _Static:
         again = np.flatnonzero(~(omega <= REFINE_ABOVE) & np.isfinite(omega))
         if not again.size:
             return False
-        t = time.perf_counter()
         free = self.free
         res = out[np.ix_(free, again)] + self.spring[free, None] * U[np.ix_(free, again)]
-        step = self.factor.solve(-res).reshape(free.size, again.size)
+        with self.lock:
+            step = self.factor.solve(-res).reshape(free.size, again.size)
         _check_finite([names[j] for j in again], step)
         U[np.ix_(free, again)] += step
-        self.timings["solve"] += time.perf_counter() - t
         return True
 
     def results(self, labels: list[tuple[str, str, dict[str, float] | None]],
                 U: np.ndarray, F: np.ndarray, E0: np.ndarray | None, refine: bool
-                ) -> tuple[dict[str, CaseResult], np.ndarray, np.ndarray]:
+                ) -> tuple[dict[str, CaseResult], np.ndarray, np.ndarray,
+                           tuple[np.ndarray, np.ndarray]]:
         """The checked results of the columns U (refined first when ``refine``).
 
         Also the displacements and loads as the results hold them (column by
-        column, shared), for the combinations; each result's largest
-        displacement goes into ``self.peaks``.
+        column, shared), for the combinations, and each result's largest
+        displacement and its node (:func:`_peak_displacements`).  Safe to
+        call from several threads at once (the factor's solves take turns).
         """
-        t = time.perf_counter()
         A, k = self.A, self.k
         for step in range(_REFINE_STEPS + 1):
             with np.errstate(over="ignore", invalid="ignore"):
@@ -268,15 +298,32 @@ class _Static:
             scales = _scale_terms(U, E0, self.absA, k)
             if not self._refine([lab[1] for lab in labels], U, F, out, scales[1]):
                 break
-        self.peaks.append(_peak_displacements(U))
+        peak = _peak_displacements(U)
         # Stored column by column before the checks, so that the results and
         # the combinations share the one copy (_make_results keeps it as it is).
         U, F = _column_major(U), _column_major(F)
         items = _make_results(self.model, labels, U, T, None, F, elong, E0, A, self.absA,
                               self.spring, self.restrained, area=self.area,
                               known=(out, scales))
+        return items, U, F, peak
+
+    def recover(self, blocks: list[_Block]
+                ) -> list[tuple[dict[str, CaseResult], np.ndarray, np.ndarray]]:
+        """:meth:`results` of each (labels, U, F, E0, refine) block, in order.
+
+        Blocks are recovered side by side on :data:`_RECOVER_THREADS` threads
+        (the first error, in block order, is raised); their largest
+        displacements go into ``self.peaks``.
+        """
+        t = time.perf_counter()
+        if len(blocks) > 1 and _RECOVER_THREADS > 1:
+            with ThreadPoolExecutor(_RECOVER_THREADS, thread_name_prefix="recover") as pool:
+                done = list(pool.map(lambda b: self.results(*b), blocks))
+        else:
+            done = [self.results(*b) for b in blocks]
+        self.peaks.extend(d[3] for d in done)
         self.timings["recover"] += time.perf_counter() - t
-        return items, U, F
+        return [d[:3] for d in done]
 
 
 def solve_static(model: Model, solver: str = "auto") -> Results:
@@ -316,16 +363,23 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     items: dict[str, CaseResult] = {}
     # Cases a block of columns at a time, from loads to checked results: the
     # temporaries stay a few arrays of (model rows x block) however many cases.
+    # The solve takes wider blocks than the recovery (_solve_columns).
     blocks: list[tuple[slice, np.ndarray, np.ndarray, np.ndarray | None]] = []
     width = _block_columns(model)
-    for lo in range(0, len(names), width):
-        cols = slice(lo, lo + width)
-        F, E0, UP = _case_columns(model, names[cols], temperature, settlement)
-        U = run.solve_cases(names[cols], F, E0, UP)
-        done, U, F = run.results([("case", name, None) for name in names[cols]], U, F, E0,
-                                 refine=True)
-        items.update(done)
-        blocks.append((cols, U, F, E0))
+    wide = _solve_columns(model, width)
+    for lo in range(0, len(names), wide):
+        part = names[lo:lo + wide]
+        F, E0, UP = _case_columns(model, part, temperature, settlement)
+        U = run.solve_cases(part, F, E0, UP)
+        subs = [slice(a, a + width) for a in range(0, len(part), width)]
+        todo: list[_Block] = [
+            ([("case", name, None) for name in part[c]], np.ascontiguousarray(U[:, c]),
+             np.ascontiguousarray(F[:, c]),
+             None if E0 is None else np.ascontiguousarray(E0[:, c]), True) for c in subs]
+        del U, F, UP
+        for c, (done, Ub, Fb), job in zip(subs, run.recover(todo), todo, strict=True):
+            items.update(done)
+            blocks.append((slice(lo + c.start, lo + c.stop), Ub, Fb, job[3]))
     # Combinations: a combination's column is U @ w over the cases, so each
     # result is what the combined load vector gives on its own.
     comb = list(model.combinations.items())
@@ -333,16 +387,20 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     for i, (_, factors) in enumerate(comb):
         for case, f in factors.items():
             weights[names.index(case), i] += f
-    for lo in range(0, len(comb) if blocks else 0, width):
-        cc = slice(lo, lo + width)
-        with np.errstate(over="ignore", invalid="ignore"):  # checked in the results
-            UC = sum(U @ weights[cols, cc] for cols, U, _, _ in blocks)
-            FC = sum(F @ weights[cols, cc] for cols, _, F, _ in blocks)
-            EC = (sum(E0 @ weights[cols, cc] for cols, _, _, E0 in blocks if E0 is not None)
-                  if temperature else None)
-        items.update(run.results([("combination", c, f) for c, f in comb[cc]],
-                                 np.asarray(UC), np.asarray(FC),
-                                 None if EC is None else np.asarray(EC), refine=False)[0])
+    starts = list(range(0, len(comb) if blocks else 0, width))
+    for group in range(0, len(starts), _RECOVER_THREADS):  # as many blocks as threads
+        todo = []
+        for lo in starts[group:group + _RECOVER_THREADS]:
+            cc = slice(lo, lo + width)
+            with np.errstate(over="ignore", invalid="ignore"):  # checked in the results
+                UC = sum(U @ weights[cols, cc] for cols, U, _, _ in blocks)
+                FC = sum(F @ weights[cols, cc] for cols, _, F, _ in blocks)
+                EC = (sum(E0 @ weights[cols, cc] for cols, _, _, E0 in blocks
+                          if E0 is not None) if temperature else None)
+            todo.append(([("combination", c, f) for c, f in comb[cc]], np.asarray(UC),
+                         np.asarray(FC), None if EC is None else np.asarray(EC), False))
+        for done, _, _ in run.recover(todo):
+            items.update(done)
     if run.peaks:
         _warn_large(model, list(items), np.concatenate([p for p, _ in run.peaks]),
                     np.concatenate([q for _, q in run.peaks]))
