@@ -133,6 +133,32 @@ def test_failed_run_keeps_old_results(canopy: Path, tmp_path: Path) -> None:
     assert sorted(p.name for p in out.iterdir()) == before
 
 
+@pytest.mark.parametrize("broken", ["write_arrays", "write_envelopes"])
+def test_a_writer_that_fails_leaves_the_old_results(canopy: Path, tmp_path: Path,
+                                                    monkeypatch: pytest.MonkeyPatch,
+                                                    broken: str) -> None:
+    # results.npz is written on a thread of its own while the other files are
+    # made: its failure, or another writer's, fails the run (exit 1, one
+    # line), the old results stay, and no thread is left writing.
+    import threading
+
+    from spaceframe.errors import WriteError
+    from spaceframe.io import tables
+
+    out = tmp_path / "res"
+    assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 0
+    before = {str(p.relative_to(out)): p.stat().st_mtime_ns for p in out.rglob("*")}
+
+    def fail(*args: object, **kwargs: object) -> None:
+        raise WriteError(f"{broken}: disk full (test)")
+
+    monkeypatch.setattr(tables, broken, fail)
+    assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) != 0
+    assert {str(p.relative_to(out)): p.stat().st_mtime_ns for p in out.rglob("*")} == before
+    assert not [t for t in threading.enumerate() if t.name == "write results.npz"]
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".res")]
+
+
 def test_new_writes_a_starter_project(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     assert main(["new", str(tmp_path / "p"), "--demo", "dome"]) == 0
     assert (tmp_path / "p" / "dome.toml").exists() and (tmp_path / "p" / "dome.vtu").exists()

@@ -6,6 +6,8 @@ Each writer runs when its library is installed; the tables always.
 from __future__ import annotations
 
 import importlib.util
+import threading
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -56,6 +58,30 @@ def results_with_files(figures: dict[str, Any],
     return chosen, note
 
 
+class _InBackground:
+    """A call run on a thread of its own: :meth:`result` waits for it and re-raises."""
+
+    def __init__(self, fn: Callable[[], list[Path]], name: str) -> None:
+        self._fn = fn
+        self._out: list[Path] = []
+        self._exc: BaseException | None = None
+        self._thread = threading.Thread(target=self._run, name=name, daemon=True)
+        self._thread.start()
+
+    def _run(self) -> None:
+        try:
+            self._out = self._fn()
+        except BaseException as exc:  # handed to the caller by result()
+            self._exc = exc
+
+    def result(self) -> list[Path]:
+        """The call's return value, once it has finished; its exception raised here."""
+        self._thread.join()
+        if self._exc is not None:
+            raise self._exc
+        return self._out
+
+
 def write_outputs(
     folder: Path,
     results: Results,
@@ -101,15 +127,38 @@ def write_outputs(
             extra["warnings"].append(note)
     # Mode shapes first, so that summary.json can list their files.
     files = _write_modes(folder, results, modes or [], pictures, progress, has_pyvista, extra)
-    files += [Path(p) for p in tables.write(folder, every, extra=extra, columns=list(results),
-                                                 summary_data=summary_data)]
-    files += tables.write_arrays(folder, every)  # what `view RESULTS_DIR` reads back
+    # results.npz (what `view RESULTS_DIR` reads back) holds every result: at
+    # a thousand cases of a 100k-member model it is gigabytes, written at the
+    # disk's speed, so it is written while the other files are made.
+    arrays = _InBackground(lambda: tables.write_arrays(folder, every), "write results.npz")
+    try:
+        files += _write_files(folder, every, results, loaded, pictures, progress, extra, design,
+                              dxf_opt, envelopes, paths or [], summary_data, has_ezdxf,
+                              has_pyvista)
+    except BaseException:
+        try:  # the folder is not left while a thread still writes into it
+            arrays.result()
+        except Exception:
+            pass  # the first error is the one reported
+        raise
+    return files + arrays.result()
+
+
+def _write_files(folder: Path, every: Results, results: Results, loaded: Loaded,
+                 pictures: bool | str, progress: Progress, extra: dict[str, Any], design: Any,
+                 dxf_opt: dict[str, Any], envelopes: dict[str, Any], paths: list[Any],
+                 summary_data: dict[str, Any] | None, has_ezdxf: bool,
+                 has_pyvista: bool) -> list[Path]:
+    """The files of :func:`write_outputs` after the mode shapes, but results.npz."""
+    from spaceframe.io import tables
+
+    files = [Path(p) for p in tables.write(folder, every, extra=extra, columns=list(results),
+                                           summary_data=summary_data)]
     if design is not None:
         files += _write_member_design(folder, results, design)
     if has_ezdxf:
         files += _write_dxf(folder, results, design, dxf_opt, progress)
-    path_files = _write_paths(folder, results.model, paths or [], pictures, progress,
-                              has_pyvista)
+    path_files = _write_paths(folder, results.model, paths, pictures, progress, has_pyvista)
     files += path_files
     plots = [f for f in path_files if f.suffix == ".png"]
     if has_pyvista:
