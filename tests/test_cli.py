@@ -133,17 +133,18 @@ def test_failed_run_keeps_old_results(canopy: Path, tmp_path: Path) -> None:
     assert sorted(p.name for p in out.iterdir()) == before
 
 
-@pytest.mark.parametrize("broken", ["write_arrays", "write_envelopes"])
-def test_a_writer_that_fails_leaves_the_old_results(canopy: Path, tmp_path: Path,
+@pytest.mark.parametrize("broken", ["write_arrays", "write_envelopes", "summary"])
+def test_a_step_that_fails_leaves_the_old_results(canopy: Path, tmp_path: Path,
                                                     monkeypatch: pytest.MonkeyPatch,
                                                     broken: str) -> None:
-    # results.npz is written on a thread of its own while the other files are
-    # made: its failure, or another writer's, fails the run (exit 1, one
-    # line), the old results stay, and no thread is left writing.
+    # results.npz is written on a thread of its own while the summary, the
+    # checks and the other files are made: its failure, or another step's,
+    # fails the run, the old results stay, and no thread is left writing.
     import threading
 
     from spaceframe.errors import WriteError
     from spaceframe.io import tables
+    from spaceframe.results import summary
 
     out = tmp_path / "res"
     assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) == 0
@@ -152,7 +153,7 @@ def test_a_writer_that_fails_leaves_the_old_results(canopy: Path, tmp_path: Path
     def fail(*args: object, **kwargs: object) -> None:
         raise WriteError(f"{broken}: disk full (test)")
 
-    monkeypatch.setattr(tables, broken, fail)
+    monkeypatch.setattr(summary if broken == "summary" else tables, broken, fail)
     assert main(["run", str(canopy), "-o", str(out), "--no-pictures", "-q"]) != 0
     assert {str(p.relative_to(out)): p.stat().st_mtime_ns for p in out.rglob("*")} == before
     assert not [t for t in threading.enumerate() if t.name == "write results.npz"]

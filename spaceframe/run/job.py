@@ -20,7 +20,7 @@ import numpy as np
 
 from spaceframe.errors import MechanismError, SpaceframeWarning
 from spaceframe.run.folder import FAULT_ENV, MARKER, write_folder
-from spaceframe.run.outputs import results_with_files, write_outputs
+from spaceframe.run.outputs import arrays_in_background, results_with_files, write_outputs
 
 if TYPE_CHECKING:
     from spaceframe.model import Model
@@ -357,12 +357,51 @@ def run(
         loaded = load(path, cache=cache)
     results, sizing, solve_notes = _solve(loaded, solver, progress, timings)
     envelopes = loaded.project.envelope_results(results) if loaded.project is not None else {}
+    notes = [*loaded.warnings, *solve_notes]  # the summary's warnings, the folder's notes too
+    made: dict[str, Any] = {}
+
+    def fill(folder: Path) -> list[Path]:
+        # results.npz is written from here on, while the checks, the
+        # summary, the other analyses and the other files are made.
+        arrays = arrays_in_background(folder, results)
+        try:
+            summ, design, base, modes, paths, shown = _post_process(
+                loaded, results, envelopes, notes, sizing, solver, every_result, progress,
+                timings)
+            made.update(summary=summ, design=design)
+            with _timed(timings, "write"):
+                progress("write tables")
+                keys = ("source", "title", "warnings", "envelopes", "design", "analysis",
+                        "nonlinear")
+                extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
+                return write_outputs(folder, results, loaded, pictures, progress, extra, design,
+                                     dxf_options={"requested": dxf, "deformed": dxf_deformed},
+                                     envelopes=envelopes, modes=modes, paths=paths,
+                                     shown=shown, summary_data=base, arrays=arrays)
+        except BaseException:
+            arrays.wait()  # the folder is not removed while a thread still writes into it
+            raise
+
+    final, files = write_folder(Path(output) if output is not None else loaded.output,
+                                loaded, force, fill, notes)
+    return RunOutcome(results, made["summary"], final, files, timings, made["design"])
+
+
+def _post_process(loaded: Loaded, results: Results, envelopes: dict[str, Any],
+                  notes: list[str], sizing: Any, solver: str, every_result: bool,
+                  progress: Progress, timings: dict[str, float]
+                  ) -> tuple[dict[str, Any], Any, dict[str, Any], Any, Any, list[str]]:
+    """The summary, design checks, other analyses and load paths of a solved run.
+
+    Returns (summary, design, the results' own figures, modes, load paths,
+    the results with files of their own).
+    """
     from spaceframe.results.summary import summary as make_summary
 
     # The results' own figures, summarised once (seconds at 1000 results) and
     # written into summary.json as they are.
     base = make_summary(results)
-    summ = _summary(loaded, results, base, envelopes, solve_notes)
+    summ = _summary(loaded, results, base, envelopes, notes)
     design = _check_members(loaded, results, envelopes, sizing, summ, progress, timings)
     modes = _analyses(loaded, results, solver, summ, progress, timings)
     paths = _load_paths(loaded, summ, progress, timings)
@@ -370,21 +409,7 @@ def run(
     if note is not None:  # said in the summary and by the command
         summ["warnings"].append(note)
         summ["results_with_files"] = shown
-
-    def fill(folder: Path) -> list[Path]:
-        with _timed(timings, "write"):
-            progress("write tables")
-            keys = ("source", "title", "warnings", "envelopes", "design", "analysis",
-                    "nonlinear")
-            extra: dict[str, Any] = {k: summ[k] for k in keys if k in summ}
-            return write_outputs(folder, results, loaded, pictures, progress, extra, design,
-                                 dxf_options={"requested": dxf, "deformed": dxf_deformed},
-                                 envelopes=envelopes, modes=modes, paths=paths, shown=shown,
-                                 summary_data=base)
-
-    final, files = write_folder(Path(output) if output is not None else loaded.output,
-                                loaded, force, fill, summ["warnings"])
-    return RunOutcome(results, summ, final, files, timings, design)
+    return summ, design, base, modes, paths, shown
 
 
 @contextmanager
@@ -435,15 +460,19 @@ def _solve(loaded: Loaded, solver: str, progress: Progress,
 
 
 def _summary(loaded: Loaded, results: Results, base: dict[str, Any],
-             envelopes: dict[str, Any], solve_notes: list[str]) -> dict[str, Any]:
-    """The run's summary: the results' figures ``base``, the envelopes, source, title, warnings."""
+             envelopes: dict[str, Any], notes: list[str]) -> dict[str, Any]:
+    """The run's summary: the results' figures ``base``, the envelopes, source, title, warnings.
+
+    ``notes`` (the reader's and the solve's warnings) becomes the summary's
+    warning list itself, so that what is added to it later is in the summary.
+    """
     from spaceframe.io.tables import envelope_summary
 
     summ = dict(base)
     summ["envelopes"] = envelope_summary(results, envelopes)
     summ["source"] = str(loaded.path.resolve())
     summ["title"] = loaded.title
-    summ["warnings"] = [*loaded.warnings, *solve_notes]
+    summ["warnings"] = notes
     return summ
 
 

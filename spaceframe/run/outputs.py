@@ -58,7 +58,7 @@ def results_with_files(figures: dict[str, Any],
     return chosen, note
 
 
-class _InBackground:
+class InBackground:
     """A call run on a thread of its own: :meth:`result` waits for it and re-raises."""
 
     def __init__(self, fn: Callable[[], list[Path]], name: str) -> None:
@@ -81,6 +81,23 @@ class _InBackground:
             raise self._exc
         return self._out
 
+    def wait(self) -> None:
+        """Wait for the call to finish, whatever it gives (the caller has an error of its own)."""
+        self._thread.join()
+
+
+def arrays_in_background(folder: Path, results: Results) -> InBackground:
+    """results.npz of every result, written on a thread while the caller goes on.
+
+    At a thousand cases of a 100k-member model it is gigabytes, written at
+    the disk's speed: the checks, the summary and the other files are made
+    meanwhile.  The caller must call ``result()`` (or ``wait()`` on an error
+    of its own) before the folder is swapped in or removed.
+    """
+    from spaceframe.io import tables
+
+    return InBackground(lambda: tables.write_arrays(folder, results), "write results.npz")
+
 
 def write_outputs(
     folder: Path,
@@ -97,6 +114,7 @@ def write_outputs(
     paths: list[Any] | None = None,
     shown: list[str] | None = None,
     summary_data: dict[str, Any] | None = None,
+    arrays: InBackground | None = None,
 ) -> list[Path]:
     """Every writer that is installed into ``folder``; tables always; the paths written.
 
@@ -108,10 +126,10 @@ def write_outputs(
     ``pictures/paths/<result>.png``; ``shown``: the results that get files of
     their own (:func:`results_with_files`; default all), the summary and
     results.npz hold every result; ``summary_data``: the results' summary
-    when the caller has it (:func:`spaceframe.results.summary.summary`).
+    when the caller has it (:func:`spaceframe.results.summary.summary`);
+    ``arrays``: the writing of results.npz when the caller has started it
+    (:func:`arrays_in_background`), else it is started here.
     """
-    from spaceframe.io import tables
-
     envelopes = envelopes or {}
     every = results
     if shown is not None and len(shown) < len(results):
@@ -127,19 +145,15 @@ def write_outputs(
             extra["warnings"].append(note)
     # Mode shapes first, so that summary.json can list their files.
     files = _write_modes(folder, results, modes or [], pictures, progress, has_pyvista, extra)
-    # results.npz (what `view RESULTS_DIR` reads back) holds every result: at
-    # a thousand cases of a 100k-member model it is gigabytes, written at the
-    # disk's speed, so it is written while the other files are made.
-    arrays = _InBackground(lambda: tables.write_arrays(folder, every), "write results.npz")
+    # results.npz is what `view RESULTS_DIR` reads back.
+    if arrays is None:
+        arrays = arrays_in_background(folder, every)
     try:
         files += _write_files(folder, every, results, loaded, pictures, progress, extra, design,
                               dxf_opt, envelopes, paths or [], summary_data, has_ezdxf,
                               has_pyvista)
     except BaseException:
-        try:  # the folder is not left while a thread still writes into it
-            arrays.result()
-        except Exception:
-            pass  # the first error is the one reported
+        arrays.wait()  # the folder is not removed while a thread still writes into it
         raise
     return files + arrays.result()
 
