@@ -196,6 +196,80 @@ def test_check_results_finds_the_governing_combination():
     assert g.worst_per_group(m.groups)["legs"][1] == pytest.approx(g.utilisation.max())
 
 
+def _mixed_tripod() -> sf.Model:
+    """The tripod's legs as a strut with a slenderness limit of 20, a strut without a
+    second moment and a cable (breaking force 150 kN): one of each way to fail."""
+    m, _ = _tripod()
+    m.set_member_properties([0, 1], yield_strength=FY)
+    m.set_member_properties([0], second_moment=TUBE.second_moment, buckling_curve="a",
+                            slenderness_limit=20.0)
+    m.set_member_properties([2], tension_only=True, breaking_force=150e3)
+    return m
+
+
+def test_derived_fields_follow_the_governing_sign_member_by_member():
+    m, _ = _tripod()
+    m.set_member_properties([0, 1, 2], second_moment=TUBE.second_moment, yield_strength=FY,
+                            buckling_curve="a")
+    # Leg 0 in tension governs, leg 1 in compression, leg 2 idle.
+    env = SimpleNamespace(name="env", axial_max=np.array([1000e3, 50e3, 0.0]),
+                          axial_min=np.array([-100e3, -700e3, 0.0]))
+    c = sf.check_members(m, env)
+    # N_t,Rd = 1430.2 kN (6.6), N_b,Rd = 801.25 kN (6.47): the worked tie and strut above.
+    np.testing.assert_allclose(c.resistance, [1430.2e3, 801.25e3, 1430.2e3], rtol=1e-4)
+    np.testing.assert_array_equal(c.demand, [1000e3, -700e3, 0.0])
+    # Common practice: ties 400, struts 180.
+    np.testing.assert_array_equal(c.slenderness_limit, [400.0, 180.0, 400.0])
+    assert [c.check_name(j) for j in range(3)] == ["tension (6.6)",
+                                                    "flexural buckling (6.47)", "none"]
+    assert c.governing.dtype == np.int8
+    assert {c.resistance.dtype, c.demand.dtype, c.slenderness_limit.dtype} == {np.dtype(float)}
+    # The members asked for, as the whole arrays give them.
+    part = c.at([2, 1])
+    for key, value in part.items():
+        np.testing.assert_array_equal(value, getattr(c, key)[[2, 1]])
+    # A single force (a static result): demand is the force itself.
+    one = sf.check_members(m, SimpleNamespace(name="one",
+                                              axial_forces=np.array([30e3, -40e3, 0.0])))
+    np.testing.assert_array_equal(one.demand, [30e3, -40e3, 0.0])
+    np.testing.assert_allclose(one.utilisation, [30 / 1430.2, 40 / 801.25, 0.0], rtol=1e-4)
+
+
+def test_passes_is_every_check_of_every_result():
+    m = _mixed_tripod()
+    pull = SimpleNamespace(name="pull", axial_forces=np.array([10e3, 5e3, 1e3]))
+    push = SimpleNamespace(name="push", axial_forces=np.array([-10e3, -5e3, -1e3]))
+    c_pull, c_push = sf.check_members(m, pull), sf.check_members(m, push)
+    # In tension everything passes (lambda = 5000 / 56.75 = 88 against 400 for ties).
+    assert c_pull.passes.tolist() == [True, True, True]
+    # In compression: too slender (88 > 20), buckling not checked, cable in compression.
+    assert c_push.slenderness_ok.tolist() == [False, True, True]
+    assert c_push.unchecked.tolist() == [False, True, False]
+    assert c_push.check_name(2) == "cable in compression"
+    assert c_push.passes.tolist() == [False, False, False]
+    g = sf.check_results(m, {"pull": pull, "push": push}, ["pull", "push"])
+    assert g.passes.tolist() == [False, False, False]
+    assert g.too_slender.tolist() == [True, False, False]
+    assert g.unchecked.tolist() == [False, True, False]
+    assert sf.check_results(m, {"pull": pull}, ["pull"]).failing.tolist() == []
+
+
+def test_governing_result_is_the_first_of_equal_utilisations():
+    m, _ = _tripod()
+    m.set_member_properties([0, 1, 2], second_moment=TUBE.second_moment, yield_strength=FY,
+                            buckling_curve="a")
+    forces = {"A": [100e3, 100e3, -50e3], "B": [100e3, 100e3, -50e3],
+              "C": [50e3, 200e3, -50e3]}
+    results = {n: SimpleNamespace(name=n, axial_forces=np.array(f)) for n, f in forces.items()}
+    g = sf.check_results(m, results, ["A", "B", "C"])
+    # Member 0: A and B tie, A first; member 1: C; member 2: all three tie.
+    assert g.result_index.tolist() == [0, 2, 0]
+    stack = np.stack([g.checks[n].utilisation for n in g.names])
+    np.testing.assert_array_equal(g.result_index, np.argmax(stack, axis=0))
+    np.testing.assert_array_equal(g.utilisation, stack.max(axis=0))
+    assert g.governing_check(1) == "tension (6.6)"
+
+
 def test_buckling_curves_from_table_6_2():
     assert sf.design.buckling_curve_for("chs", "hot", 355e6) == "a"  # Table 6.2, S235-S420
     assert sf.design.buckling_curve_for("chs", "hot", 460e6) == "a0"  # Table 6.2, S460

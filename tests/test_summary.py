@@ -227,3 +227,63 @@ def test_group_lookup_of_the_summary_equals_groups_of() -> None:
     for member in range(m.n_members):
         assert look(member) == m.groups_of(member), member
     assert look(3) == ["b", "a"] and look(6) == []
+
+
+def test_top_pick_is_the_partition_pick() -> None:
+    # _smallest skips the full partition when the pick is unique: it must give
+    # exactly numpy's argpartition set, with or without ties at the k-th place.
+    from spaceframe.results.summary import _smallest
+
+    rng = np.random.default_rng(7)
+    spread = rng.standard_normal(5000)
+    steps = np.round(rng.standard_normal(5000), 1)  # many exact ties
+    tied = spread.copy()
+    tied[np.argsort(tied)[4:9]] = np.sort(tied)[4]  # five equal across 5th place
+    nan = spread.copy()
+    nan[::3] = np.nan
+    for values in (spread, steps, tied, nan, np.zeros(5000), spread[:40]):
+        for k in (1, 5, 40):
+            expect = np.argpartition(values, k - 1)[:k]
+            assert sorted(_smallest(values, k).tolist()) == sorted(expect.tolist())
+
+
+def test_node_totals_equal_the_whole_array_sums() -> None:
+    # Sums of the non-zero rows only must be the sums of every row, to the bit
+    # (signed zeros included): the summary's JSON does not change.
+    from spaceframe.results.summary import _node_totals
+
+    rng = np.random.default_rng(3)
+    f = np.zeros((3000, 3))
+    rows = rng.choice(3000, 40, replace=False)
+    f[rows] = rng.standard_normal((40, 3)) * 10.0 ** rng.integers(-6, 6, (40, 1))
+    f[rows[:5], 0] = -0.0
+    f[7] = -0.0
+    dense = rng.standard_normal((3000, 3))
+    for a in (f, -f, np.zeros((3000, 3)), -np.zeros((4, 3)), dense, np.asfortranarray(f),
+              f[::2], np.zeros((0, 3))):
+        loaded, total, ref = _node_totals(a)
+        assert loaded == np.count_nonzero(np.any(a != 0.0, axis=1))
+        expect = a.sum(axis=0)
+        assert total.tobytes() == expect.tobytes()
+        assert ref == float(np.abs(a).sum(axis=0).max(initial=0.0))
+
+
+def test_critical_members_of_a_long_chain() -> None:
+    # 2000 members in a line, forces 0..1999 kN with signs alternating and two
+    # exact ties: the largest |N| first, ties by member id.
+    b = 2000
+    m = sf.Model()
+    m.add_nodes(np.c_[np.arange(b + 1.0), np.zeros(b + 1), np.zeros(b + 1)])
+    m.add_members(np.c_[np.arange(b), np.arange(1, b + 1)], area=AREA, E=E)
+    t = np.arange(b) * 1e3 * np.where(np.arange(b) % 2, -1.0, 1.0)
+    t[[17, 250]] = [-1998e3, 1998e3]  # tie with member 1998
+    res = sf.CaseResult(name="c", kind="case", displacements=np.zeros((b + 1, 3)),
+                        axial_forces=t, reactions=np.zeros((b + 1, 3)),
+                        loads=np.zeros((b + 1, 3)), elongations=np.zeros(b), residual=0.0,
+                        area=m.area)
+    crit = critical_members(m, res, n=5)
+    assert [c["member"] for c in crit] == [1999, 17, 250, 1998, 1997]
+    assert [c["force"] for c in crit] == [-1999e3, -1998e3, 1998e3, 1998e3, -1997e3]
+    t[40] = 1997e3  # a tie with member 1997, both in the six largest
+    assert [c["member"] for c in critical_members(m, res, n=6)] == [1999, 17, 250, 1998,
+                                                                     40, 1997]

@@ -133,9 +133,13 @@ def buckling_curve_for(shape: str, fabrication: str = "hot", yield_strength: flo
     )
 
 
-@dataclass
 class MemberCheck:
     """Axial checks of every member for one result (SI, tension positive).
+
+    A check keeps only its utilisation and governing-check codes; the other
+    per-member figures are worked out when asked for, from the resistances
+    shared by every result of the model and the result's axial forces (the
+    result is referenced, not copied: change its forces and they follow).
 
     Attributes
     ----------
@@ -143,11 +147,11 @@ class MemberCheck:
         Name of the result checked.
     utilisation : (b,) float
         Demand over design resistance of the governing check.
+    governing : (b,) int8
+        Index into :data:`CHECKS` of the governing check.
     resistance : (b,) float
         Design resistance, N, for the member's governing force sign
         (N_t,Rd or N_b,Rd; the cable resistance for tension-only members).
-    governing : (b,) int
-        Index into :data:`CHECKS` of the governing check.
     demand : (b,) float
         The governing axial force, N (signed).
     chi : (b,) float
@@ -162,22 +166,104 @@ class MemberCheck:
         Partial factors used.
     """
 
-    result: str
-    utilisation: np.ndarray
-    resistance: np.ndarray
-    governing: np.ndarray
-    demand: np.ndarray
-    chi: np.ndarray
-    lambda_bar: np.ndarray
-    slenderness: np.ndarray
-    slenderness_limit: np.ndarray
-    gamma: dict[str, float] = field(default_factory=dict)
+    def __init__(self, result: str, utilisation: np.ndarray, governing: np.ndarray,
+                 resistances: _Resistances, forces: Any) -> None:
+        self.result = result
+        self.utilisation = utilisation
+        self.governing = governing
+        self.gamma = dict(resistances.gamma)
+        self._r = resistances
+        self._forces = forces
+
+    def __repr__(self) -> str:
+        return f"MemberCheck(result={self.result!r}, members={self.utilisation.size})"
+
+    def _compression(self, rows: Any = None) -> np.ndarray:
+        """(b,) bool (or at ``rows``): the compression check governs.
+
+        A member's tension and compression codes differ, and an idle member's
+        code (0) is neither, so the code tells the sign.
+        """
+        if rows is None:
+            return self.governing == self._r.comp_code
+        return self.governing[rows] == self._r.comp_code[rows]
+
+    @property
+    def chi(self) -> np.ndarray:
+        """(b,) float: buckling reduction χ, shared by every result (NaN without I)."""
+        return self._r.chi
+
+    @property
+    def lambda_bar(self) -> np.ndarray:
+        """(b,) float: non-dimensional slenderness λ̄, shared by every result."""
+        return self._r.lambda_bar_shown
+
+    @property
+    def slenderness(self) -> np.ndarray:
+        """(b,) float: λ = L_cr / i, shared by every result."""
+        return self._r.slenderness_shown
+
+    @property
+    def resistance(self) -> np.ndarray:
+        """(b,) float: design resistance for the governing sign, N."""
+        return self.at()["resistance"]
+
+    @property
+    def demand(self) -> np.ndarray:
+        """(b,) float: the governing axial force, N (signed)."""
+        return self.at()["demand"]
+
+    @property
+    def slenderness_limit(self) -> np.ndarray:
+        """(b,) float: the slenderness limit for the governing sign."""
+        return self.at()["slenderness_limit"]
+
+    def at(self, rows: Any = None) -> dict[str, np.ndarray]:
+        """Resistance, demand and slenderness limit of the members ``rows`` (default all).
+
+        Returns
+        -------
+        dict
+            ``resistance``, ``demand`` and ``slenderness_limit``, each an
+            array with one value per row, as the attributes of those names.
+        """
+        r = self._r
+        comp = self._compression(rows)
+        high, low = _forces_of(self._forces)
+        if rows is not None:
+            high, low = high[rows], None if low is None else low[rows]
+        tension, compression = _demands(high, low)
+
+        def pick(c_value: np.ndarray, t_value: np.ndarray) -> np.ndarray:
+            if rows is None:
+                return np.where(comp, c_value, t_value)
+            return np.where(comp, c_value[rows], t_value[rows])
+
+        return {
+            "resistance": pick(r.res_c, r.res_t),
+            "demand": np.where(comp, -compression, tension),
+            # Slenderness λ = L_cr/i against the limit for the governing sign.
+            "slenderness_limit": pick(r.lim_c, r.lim_t),
+        }
+
+    def _by_sign(self, table_t: np.ndarray, table_c: np.ndarray,
+                 scratch: tuple[np.ndarray, np.ndarray] | None = None) -> np.ndarray:
+        """(b,) bool: per member ``table_c`` where compression governs, else ``table_t``.
+
+        Into the second of the two (b,) bool ``scratch`` arrays, if given.
+        """
+        comp, out = scratch if scratch is not None else (None, None)
+        comp = np.equal(self.governing, self._r.comp_code, out=comp)
+        if out is None:
+            return np.where(comp, table_c, table_t)
+        np.copyto(out, table_t)
+        np.copyto(out, table_c, where=comp)
+        return out
 
     @property
     def slenderness_ok(self) -> np.ndarray:
         """(b,) bool: λ within its limit (members with no limit pass)."""
-        with np.errstate(invalid="ignore"):
-            return ~(self.slenderness > self.slenderness_limit)
+        return ~self._by_sign(self._r.too_slender_t, self._r.too_slender_c)
 
     @property
     def unchecked(self) -> np.ndarray:
@@ -189,8 +275,17 @@ class MemberCheck:
     @property
     def passes(self) -> np.ndarray:
         """(b,) bool: every check passed (unchecked buckling and cable compression fail)."""
-        cable_c = self.governing == CHECKS.index("cable in compression")
-        return (self.utilisation <= 1.0) & self.slenderness_ok & ~self.unchecked & ~cable_c
+        return self._and_passes(np.ones(self.utilisation.shape, dtype=bool))
+
+    def _and_passes(self, ok: np.ndarray, scratch: tuple[np.ndarray, np.ndarray] | None = None
+                    ) -> np.ndarray:
+        """``ok &= passes`` in place, through two (b,) bool ``scratch`` arrays if given."""
+        if scratch is None:
+            scratch = (np.empty_like(ok), np.empty_like(ok))
+        fail = self._by_sign(self._r.fails_t, self._r.fails_c, scratch)
+        ok &= np.invert(fail, out=fail)
+        ok &= np.less_equal(self.utilisation, 1.0, out=fail)
+        return ok
 
     @property
     def failing(self) -> np.ndarray:
@@ -202,19 +297,36 @@ class MemberCheck:
         return CHECKS[int(self.governing[member])]
 
 
-def _demands(result: Any) -> tuple[np.ndarray, np.ndarray]:
-    """Largest tension and largest compression (both ≥ 0) per member of a result."""
-    if hasattr(result, "axial_max"):
-        tension = np.maximum(np.asarray(result.axial_max, dtype=float), 0.0)
-        compression = np.maximum(-np.asarray(result.axial_min, dtype=float), 0.0)
-    elif hasattr(result, "axial_forces"):
-        n = np.asarray(result.axial_forces, dtype=float)
-        tension, compression = np.maximum(n, 0.0), np.maximum(-n, 0.0)
-    else:
-        raise ModelError(
-            f"check_members: {type(result).__name__} is not a static result or an envelope"
-        )
-    if not (np.all(np.isfinite(tension)) and np.all(np.isfinite(compression))):
+def _forces_of(result: Any) -> tuple[np.ndarray, np.ndarray | None]:
+    """(axial force or largest force, None or smallest force) of a result or an envelope.
+
+    Each attribute is read once: it may be worked out when read.
+    """
+    high = getattr(result, "axial_max", None)
+    if high is not None:
+        return np.asarray(high, dtype=float), np.asarray(result.axial_min, dtype=float)
+    forces = getattr(result, "axial_forces", None)
+    if forces is not None:
+        return np.asarray(forces, dtype=float), None
+    raise ModelError(
+        f"check_members: {type(result).__name__} is not a static result or an envelope"
+    )
+
+
+def _demands(high: np.ndarray, low: np.ndarray | None,
+             out: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Largest tension and largest compression (both ≥ 0) per member.
+
+    From the forces ``high`` and ``low`` of :func:`_forces_of`; into the two
+    arrays ``out``, if given.
+    """
+    t_out, c_out = out if out is not None else (None, None)
+    tension = np.maximum(high, 0.0, out=t_out)
+    compression = np.negative(high if low is None else low, out=c_out)
+    np.maximum(compression, 0.0, out=compression)
+    # Both are ≥ 0 or NaN, and a maximum keeps a NaN: two reductions, no mask.
+    if not (np.isfinite(tension.max(initial=0.0))
+            and np.isfinite(compression.max(initial=0.0))):
         raise ModelError("check_members: the result holds non-finite axial forces")
     return tension, compression
 
@@ -253,9 +365,25 @@ class _Resistances:
     lambda_bar_shown: np.ndarray
     slenderness_shown: np.ndarray
     gamma: dict[str, float]
+    too_slender_t: np.ndarray = field(init=False, repr=False)
+    too_slender_c: np.ndarray = field(init=False, repr=False)
+    fails_t: np.ndarray = field(init=False, repr=False)
+    fails_c: np.ndarray = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
-        for name in ("chi", "lambda_bar_shown", "slenderness_shown"):
+        # Per member and governing sign: λ above its limit; and any check
+        # failing whatever the utilisation (the slenderness, a cable in
+        # compression, buckling not checked).  Every result reads them.
+        with np.errstate(invalid="ignore"):
+            self.too_slender_t = self.slenderness_shown > self.lim_t
+            self.too_slender_c = self.slenderness_shown > self.lim_c
+        self.fails_t = self.too_slender_t
+        self.fails_c = self.too_slender_c | np.isin(
+            self.comp_code, [CHECKS.index("cable in compression"),
+                             CHECKS.index("compression, buckling not checked: no second moment")])
+        for name in ("chi", "lambda_bar_shown", "slenderness_shown", "res_t", "res_c",
+                     "ten_code", "comp_code", "lim_t", "lim_c", "too_slender_t",
+                     "too_slender_c", "fails_c"):
             getattr(self, name).flags.writeable = False  # shared by every result's check
 
 
@@ -392,37 +520,49 @@ def check_members(
                                               gamma_cable))
 
 
-def _check(model: Model, result: Any, r: _Resistances) -> MemberCheck:
-    """:func:`check_members` of one result against resistances computed before."""
+def _scratch(b: int) -> dict[str, np.ndarray]:
+    """Work arrays for :func:`_check`, reused from one result to the next."""
+    return {"tension": np.empty(b), "compression": np.empty(b), "u_c": np.empty(b),
+            "comp": np.empty(b, dtype=bool), "active": np.empty(b, dtype=bool),
+            "above": np.empty(b, dtype=bool)}
+
+
+def _nan_to_zero(u: np.ndarray) -> np.ndarray:
+    """``np.nan_to_num(u, nan=0.0, copy=False)``, in two reductions when all is finite."""
+    if np.isfinite(u.min(initial=0.0)) and np.isfinite(u.max(initial=0.0)):
+        return u
+    return np.nan_to_num(u, nan=0.0, copy=False)
+
+
+def _check(model: Model, result: Any, r: _Resistances,
+           scratch: dict[str, np.ndarray] | None = None) -> MemberCheck:
+    """:func:`check_members` of one result against resistances computed before.
+
+    ``scratch`` (from :func:`_scratch`) holds the intermediate arrays, so that
+    a result leaves only its utilisation and codes behind.
+    """
     b = model.n_members
-    tension, compression = _demands(result)
-    if tension.shape != (b,):
-        raise ModelError(
-            f"check_members: the result has {tension.size} members, the model {b}"
-        )
+    high, low = _forces_of(result)
+    if high.shape != (b,):
+        raise ModelError(f"check_members: the result has {high.size} members, the model {b}")
+    w = scratch if scratch is not None else _scratch(b)
+    tension, compression = _demands(high, low, out=(w["tension"], w["compression"]))
+    active = np.greater(tension, 0.0, out=w["active"])
+    comp = np.greater(compression, 0.0, out=w["comp"])
+    # Compression governs where there is compression and no tension, or u_c > u_t.
+    np.greater(comp, active, out=comp)
+    active |= comp
     with np.errstate(invalid="ignore", divide="ignore"):
-        u_t = np.nan_to_num(tension / r.res_t, nan=0.0, copy=False)
-        u_c = np.nan_to_num(compression / r.res_c, nan=0.0, copy=False)
-    comp_governs = (u_c > u_t) | ((compression > 0) & (tension == 0))
-    utilisation = np.where(comp_governs, u_c, u_t)
-    active = (tension > 0) | (compression > 0)
-    governing = np.where(active, np.where(comp_governs, r.comp_code, r.ten_code),
-                         np.int8(0)).astype(np.int8, copy=False)
-    if not np.all(np.isfinite(utilisation)):
+        u_t = _nan_to_zero(np.divide(tension, r.res_t, out=tension))
+        u_c = _nan_to_zero(np.divide(compression, r.res_c, out=w["u_c"]))
+    comp |= np.greater(u_c, u_t, out=w["above"])
+    utilisation = np.where(comp, u_c, u_t)
+    governing = np.where(comp, r.comp_code, r.ten_code)
+    governing *= active  # idle members: code 0, "none"
+    if not (np.isfinite(utilisation.min(initial=0.0))
+            and np.isfinite(utilisation.max(initial=0.0))):
         raise ModelError("check_members: a utilisation is not finite (zero resistance?)")
-    return MemberCheck(
-        result=str(getattr(result, "name", "")),
-        utilisation=utilisation,
-        resistance=np.where(comp_governs, r.res_c, r.res_t),
-        governing=governing,
-        demand=np.where(comp_governs, -compression, tension),
-        chi=r.chi,
-        lambda_bar=r.lambda_bar_shown,
-        slenderness=r.slenderness_shown,
-        # Slenderness λ = L_cr/i against the limit for the governing sign.
-        slenderness_limit=np.where(comp_governs, r.lim_c, r.lim_t),
-        gamma=dict(r.gamma),
-    )
+    return MemberCheck(str(getattr(result, "name", "")), utilisation, governing, r, result)
 
 
 @dataclass
@@ -450,9 +590,29 @@ class GoverningCheck:
     def passes(self) -> np.ndarray:
         """(b,) bool: every check of every result passed."""
         ok = np.ones(self.utilisation.shape, dtype=bool)
+        scratch = (np.empty_like(ok), np.empty_like(ok))
         for c in self.checks.values():
-            ok &= c.passes
+            c._and_passes(ok, scratch)
         return ok
+
+    @property
+    def unchecked(self) -> np.ndarray:
+        """(b,) bool: in compression with buckling not checked, in some result."""
+        code = CHECKS.index("compression, buckling not checked: no second moment")
+        bad = np.zeros(self.utilisation.shape, dtype=bool)
+        scratch = np.empty_like(bad)
+        for c in self.checks.values():
+            bad |= np.equal(c.governing, code, out=scratch)
+        return bad
+
+    @property
+    def too_slender(self) -> np.ndarray:
+        """(b,) bool: λ above its limit for the governing sign, in some result."""
+        bad = np.zeros(self.utilisation.shape, dtype=bool)
+        scratch = (np.empty_like(bad), np.empty_like(bad))
+        for c in self.checks.values():
+            bad |= c._by_sign(c._r.too_slender_t, c._r.too_slender_c, scratch)
+        return bad
 
     @property
     def failing(self) -> np.ndarray:
@@ -501,12 +661,18 @@ def check_results(
         raise ModelError("check_results: no result to check")
     # The resistances once: they depend on the members, not on the result.
     r = _resistances(model, **gammas)
-    checks = {n: _check(model, results[n], r) for n in names}
-    stack = np.stack([checks[n].utilisation for n in names])
-    idx = np.argmax(stack, axis=0)
-    return GoverningCheck(
-        names=list(names),
-        utilisation=stack[idx, np.arange(stack.shape[1])],
-        result_index=idx,
-        checks=checks,
-    )
+    b = model.n_members
+    scratch = _scratch(b)
+    checks: dict[str, MemberCheck] = {}
+    # Running maximum over the results (utilisations are finite), the first
+    # result winning ties as argmax would: two arrays, not one per result.
+    best = np.full(b, -np.inf)
+    which = np.zeros(b, dtype=np.intp)
+    better = np.empty(b, dtype=bool)
+    for j, n in enumerate(names):
+        c = checks[n] = _check(model, results[n], r, scratch)
+        np.greater(c.utilisation, best, out=better)
+        np.copyto(best, c.utilisation, where=better)
+        np.copyto(which, j, where=better)
+    return GoverningCheck(names=list(names), utilisation=best, result_index=which,
+                          checks=checks)

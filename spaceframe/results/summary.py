@@ -226,23 +226,78 @@ def critical_members(model: Model, result: CaseResult, n: int = 5, *,
         Keys ``member``, ``nodes``, ``groups``, ``force`` (N, tension positive),
         ``stress`` (Pa) and ``length`` (m), largest first.
     """
-    a = np.abs(result.axial_forces)
-    k = min(int(n), a.size)
+    return _critical(model, result, n, groups_of, np.negative(np.abs(result.axial_forces)))
+
+
+def _critical(model: Model, result: CaseResult, n: int, groups_of: Any,
+              neg: np.ndarray) -> list[dict[str, Any]]:
+    """:func:`critical_members`, given ``neg`` = -|axial force|."""
+    k = min(int(n), neg.size)
     if k <= 0:
         return []
-    top = np.argpartition(-a, k - 1)[:k]
+    top = _smallest(neg, k)
+    a = np.abs(result.axial_forces[top])
     # Stable order: by decreasing |N|, ties by member id; forces equal to 12
     # significant digits are ties (equal in closed form, apart in round-off).
-    top = top[np.lexsort((top, -_tie_key(a)[top]))]
+    top = top[np.lexsort((top, -_tie_key(a, -float(neg.min()))))]
     return [_member_entry(model, result, int(i), groups_of) for i in top]
 
 
-def _tie_key(a: np.ndarray) -> np.ndarray:
-    """|values| rounded to 12 significant digits of the largest, for ordering with ties."""
-    peak = float(a.max(initial=0.0))
+def _smallest(values: np.ndarray, k: int) -> np.ndarray:
+    """The ids ``np.argpartition(values, k - 1)[:k]`` picks (in any order), 0 < k <= size.
+
+    That partition is a pass with an id array as large as ``values``.  Here
+    the candidates are those at or below the k-th smallest of every 16th
+    value (a bound no lower than the k-th smallest of all); when exactly k
+    values lie at or below the k-th smallest, they are the only set the
+    partition can give.  A tie across the k-th place (or too many
+    candidates) falls back to the partition itself, so the pick never changes.
+    """
+    sample = values[::16]
+    if sample.size >= k:
+        candidates = np.flatnonzero(values <= np.partition(sample, k - 1)[k - 1])
+        if k <= candidates.size <= values.size // 8:
+            v = values[candidates]
+            inside = v <= np.partition(v, k - 1)[k - 1]
+            if np.count_nonzero(inside) == k:
+                return candidates[inside]
+    return np.argpartition(values, k - 1)[:k]
+
+
+def _tie_key(a: np.ndarray, peak: float | None = None) -> np.ndarray:
+    """|values| rounded to 12 significant digits of the largest, for ordering with ties.
+
+    ``peak``: the largest of all the values, when ``a`` holds some of them.
+    """
+    peak = float(a.max(initial=0.0)) if peak is None else peak
     if not (peak > 0 and np.isfinite(peak)):
         return a
     return np.round(a / peak, 12)
+
+
+def _node_totals(f: np.ndarray) -> tuple[int, np.ndarray, float]:
+    """Of an (n, 3) array: rows with a non-zero entry, the column sums, the largest |column| sum.
+
+    Exactly ``np.count_nonzero(np.any(f != 0, axis=1))``, ``f.sum(axis=0)`` and
+    ``np.abs(f).sum(axis=0).max(initial=0.0)``: when few rows are non-zero,
+    of those rows only (an axis-0 sum of a row-major array adds row after
+    row from +0, and a zero row changes nothing), else of every row.
+    """
+    nonzero = f != 0.0
+    if not f.flags.c_contiguous or np.count_nonzero(nonzero) * 8 > f.size:
+        return (int(np.count_nonzero(np.any(nonzero, axis=1))), f.sum(axis=0),
+                float(np.abs(f).sum(axis=0).max(initial=0.0)))
+    rows = np.unique(np.flatnonzero(nonzero) // f.shape[1])
+    part = f[rows]
+    return int(rows.size), part.sum(axis=0), float(np.abs(part).sum(axis=0).max(initial=0.0))
+
+
+class _Work:
+    """Arrays reused from one result's summary to the next (one per member or node)."""
+
+    def __init__(self, model: Model) -> None:
+        self.member = np.empty(model.n_members)
+        self.node = np.empty(model.n_nodes)
 
 
 def case_summary(model: Model, result: CaseResult, n_critical: int = 5, *,
@@ -251,25 +306,31 @@ def case_summary(model: Model, result: CaseResult, n_critical: int = 5, *,
 
     ``groups_of``: a callable member -> group names (default ``model.groups_of``).
     """
+    return _case_summary(model, result, n_critical, groups_of, _Work(model))
+
+
+def _case_summary(model: Model, result: CaseResult, n_critical: int, groups_of: Any,
+                  work: _Work) -> dict[str, Any]:
+    """:func:`case_summary`, its per-member and per-node arrays in ``work``."""
     u = result.displacements
-    mag = np.sqrt(np.einsum("ij,ij->i", u, u))
+    mag = np.sqrt(np.einsum("ij,ij->i", u, u, out=work.node), out=work.node)
     node = int(np.argmax(mag)) if mag.size else 0
     t = result.axial_forces
     i_t = int(np.argmax(t))
     i_c = int(np.argmin(t))
-    stress = t / model.area
-    i_s = int(np.argmax(np.abs(stress)))
-    applied = result.loads.sum(axis=0)
-    reacted = result.reactions.sum(axis=0)
+    stress = np.abs(np.divide(t, model.area, out=work.member), out=work.member)
+    i_s = int(np.argmax(stress))
+    s_max = float(stress[i_s])
+    loaded, applied, ref_f = _node_totals(result.loads)
+    _, reacted, ref_r = _node_totals(result.reactions)
     imbalance = applied + reacted
-    ref = max(float(np.abs(result.loads).sum(axis=0).max(initial=0.0)),
-              float(np.abs(result.reactions).sum(axis=0).max(initial=0.0)))
+    ref = max(ref_f, ref_r)
     balance_ok = bool(ref == 0.0 or np.abs(imbalance).max() <= BALANCE_TOLERANCE * ref)
     residual_ok = bool(result.residual <= RESIDUAL_TOLERANCE)
     return {
         "kind": result.kind,
         "factors": {k: float(v) for k, v in result.factors.items()},
-        "loaded_nodes": int(np.count_nonzero(np.any(result.loads != 0.0, axis=1))),
+        "loaded_nodes": loaded,
         "max_displacement": {
             "value": float(mag[node]) if mag.size else 0.0,
             "node": node,
@@ -281,13 +342,14 @@ def case_summary(model: Model, result: CaseResult, n_critical: int = 5, *,
         "max_tension": _member_entry(model, result, i_t, groups_of) if t[i_t] > 0 else None,
         "max_compression": (_member_entry(model, result, i_c, groups_of) if t[i_c] < 0
                             else None),
-        "max_abs_stress": {"value": float(abs(stress[i_s])), "member": i_s},
+        "max_abs_stress": {"value": s_max, "member": i_s},
         "applied_total": _vec(applied),
         "reaction_total": _vec(reacted),
         "imbalance": _vec(imbalance),
         "residual": float(result.residual),
         "equilibrium_ok": balance_ok and residual_ok,
-        "critical_members": critical_members(model, result, n_critical, groups_of=groups_of),
+        "critical_members": _critical(model, result, n_critical, groups_of,
+                                      np.negative(np.abs(t, out=work.member), out=work.member)),
     }
 
 
@@ -295,18 +357,20 @@ def _governing(results: Results, n: int, groups_of: Any = None) -> list[dict[str
     model = results.model
     best = np.full(model.n_members, -1.0)
     which = np.full(model.n_members, -1, dtype=np.int64)
+    a = np.empty(model.n_members)
+    better = np.empty(model.n_members, dtype=bool)
     names = list(results)
     # Running maximum over results, so memory stays at two arrays of b.
     for j, name in enumerate(names):
-        a = np.abs(results[name].axial_forces)
-        better = a > best
-        best[better] = a[better]
-        which[better] = j
+        np.abs(results[name].axial_forces, out=a)
+        np.greater(a, best, out=better)
+        np.copyto(best, a, where=better)
+        np.copyto(which, j, where=better)
     k = min(int(n), best.size)
     if k <= 0 or not names:
         return []
-    top = np.argpartition(-best, k - 1)[:k]
-    top = top[np.lexsort((top, -_tie_key(best)[top]))]
+    top = _smallest(-best, k)
+    top = top[np.lexsort((top, -_tie_key(best[top], float(best.max(initial=0.0)))))]
     out = []
     for i in top:
         name = names[int(which[i])]
@@ -343,6 +407,7 @@ def summary(results: Results, n_critical: int = 5) -> dict[str, Any]:
     """
     model = results.model
     groups_of = _GroupsOf(model)
+    work = _Work(model)
     lo, hi = model.extents()
     lengths = model.lengths
     mass = model.mass
@@ -380,7 +445,7 @@ def summary(results: Results, n_critical: int = 5) -> dict[str, Any]:
         "solver": results.solver,
         "model": model_part,
         "results": {
-            name: case_summary(model, results[name], n_critical, groups_of=groups_of)
+            name: _case_summary(model, results[name], n_critical, groups_of, work)
             for name in results
         },
         "critical_members": _governing(results, n_critical, groups_of),

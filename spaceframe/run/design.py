@@ -119,16 +119,36 @@ class _Members:
 
 
 class _Forces:
-    """One result's axial forces (or envelope) restricted to some members."""
+    """One result's axial forces restricted to some members, taken when read.
+
+    A check keeps its result to work out its demands on request; holding the
+    full result and the ids, not a copy of the forces, keeps that free.
+    """
 
     def __init__(self, result: Any, ids: np.ndarray) -> None:
         self.name = getattr(result, "name", "")
         self.kind = getattr(result, "kind", "")
-        if hasattr(result, "axial_max"):
-            self.axial_max = np.asarray(result.axial_max)[ids]
-            self.axial_min = np.asarray(result.axial_min)[ids]
-        else:
-            self.axial_forces = np.asarray(result.axial_forces)[ids]
+        self._result, self._ids = result, ids
+
+    @property
+    def axial_forces(self) -> np.ndarray:
+        return np.asarray(self._result.axial_forces)[self._ids]
+
+
+class _EnvelopeForces(_Forces):
+    """:class:`_Forces` of an envelope (largest and smallest force)."""
+
+    @property
+    def axial_max(self) -> np.ndarray:
+        return np.asarray(self._result.axial_max)[self._ids]
+
+    @property
+    def axial_min(self) -> np.ndarray:
+        return np.asarray(self._result.axial_min)[self._ids]
+
+
+def _forces(result: Any, ids: np.ndarray) -> _Forces:
+    return (_EnvelopeForces if hasattr(result, "axial_max") else _Forces)(result, ids)
 
 
 @dataclass
@@ -178,10 +198,7 @@ class DesignOutcome:
 
         They have no second moment in some result, and count as failing.
         """
-        bad = np.zeros(self.members.size, dtype=bool)
-        for c in self.check.checks.values():
-            bad |= c.unchecked
-        return self.members[bad]
+        return self.members[self.check.unchecked]
 
     def governing(self, j: int) -> tuple[float, float, str, str]:
         """(force N, resistance N, result, check) governing member ``j`` (a model id)."""
@@ -190,7 +207,8 @@ class DesignOutcome:
             return float("nan"), float("nan"), "", "not checked"
         name = self.check.governing_result(k)
         c = self.check.checks[name]
-        return float(c.demand[k]), float(c.resistance[k]), name, c.check_name(k)
+        at = c.at([k])
+        return float(at["demand"][0]), float(at["resistance"][0]), name, c.check_name(k)
 
     def columns(self) -> dict[str, np.ndarray]:
         """Per member of the model: governing force, resistance, result, check (arrays)."""
@@ -205,14 +223,21 @@ class DesignOutcome:
         ids = self.members
         if ids.size:
             names = np.array(g.names, dtype=object)
+            words = np.array(CHECKS, dtype=object)
+            # The members each result governs, in one sort rather than a pass per result.
+            order = np.argsort(g.result_index, kind="stable")
+            bounds = np.searchsorted(g.result_index[order], np.arange(len(g.names) + 1))
             for r, name in enumerate(g.names):
-                rows = np.flatnonzero(g.result_index == r)
+                rows = order[bounds[r]:bounds[r + 1]]
+                if not rows.size:
+                    continue
                 c = g.checks[name]
-                force[ids[rows]] = c.demand[rows]
-                resistance[ids[rows]] = c.resistance[rows]
-                check[ids[rows]] = np.array(CHECKS, dtype=object)[c.governing[rows]]
+                at = c.at(rows)
+                force[ids[rows]] = at["demand"]
+                resistance[ids[rows]] = at["resistance"]
+                check[ids[rows]] = words[c.governing[rows]]
                 lam[ids[rows]] = c.slenderness[rows]
-                lam_limit[ids[rows]] = c.slenderness_limit[rows]
+                lam_limit[ids[rows]] = at["slenderness_limit"]
             result[ids] = names[g.result_index]
         lam_limit[~np.isfinite(lam_limit)] = np.nan  # no limit (cables): shown empty
         return {"force": force, "resistance": resistance, "result": result, "check": check,
@@ -221,10 +246,7 @@ class DesignOutcome:
     @property
     def too_slender(self) -> np.ndarray:
         """Ids of members whose slenderness L_cr/i exceeds its limit in some result."""
-        bad = np.zeros(self.members.size, dtype=bool)
-        for c in self.check.checks.values():
-            bad |= ~c.slenderness_ok
-        return self.members[bad]
+        return self.members[self.check.too_slender]
 
     def summary(self, model: Model) -> dict[str, Any]:
         """The JSON-able "design" block of summary.json."""
@@ -359,7 +381,7 @@ def run_checks(model: Model, results: Any, envelopes: dict[str, Any], project: A
         check = check_results(model, pool, names, **gammas)
     elif ids.size:
         sub = _Members(model, ids)
-        check = check_results(sub, {n: _Forces(pool[n], ids) for n in names},  # type: ignore[arg-type]
+        check = check_results(sub, {n: _forces(pool[n], ids) for n in names},  # type: ignore[arg-type]
                               names, **gammas)
     else:
         check = GoverningCheck(names=names, utilisation=np.zeros(0),
