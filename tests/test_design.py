@@ -424,3 +424,19 @@ def test_self_weight_refuses_upward_or_zero_gravity():
     for g in (-9.81, 0.0, float("nan")):
         with pytest.raises(ModelError, match=r"must be (positive|a finite number)"):
             m.add_self_weight("G", g=g)
+
+
+@pytest.mark.parametrize("what", ["yield_strength", "breaking_force"])
+def test_a_zero_resistance_set_in_place_fails_closed(what: str) -> None:
+    # The property arrays are public: a zero written into one after
+    # set_member_properties refused it makes a demand over a zero resistance,
+    # which must stop the check (not pass as the largest float).
+    m, _ = _tripod(load=-30e3)
+    if what == "breaking_force":
+        m.set_member_properties([0, 1, 2], tension_only=True, breaking_force=150e3)
+    else:
+        m.set_member_properties([0, 1, 2], second_moment=TUBE.second_moment, yield_strength=FY,
+                                buckling_curve="a")
+    getattr(m, what)[1] = 0.0
+    with pytest.raises(ModelError, match=r"member 1 .*utilisation is not finite"):
+        sf.check_members(m, m.solve()["P"])

@@ -528,10 +528,15 @@ def _scratch(b: int) -> dict[str, np.ndarray]:
 
 
 def _nan_to_zero(u: np.ndarray) -> np.ndarray:
-    """``np.nan_to_num(u, nan=0.0, copy=False)``, in two reductions when all is finite."""
+    """NaN (no demand against no resistance) as 0, in two reductions when all is finite.
+
+    Infinities stay: a demand against a zero resistance fails the check
+    closed (numpy's nan_to_num would make it the largest float, a pass of
+    the finiteness test).
+    """
     if np.isfinite(u.min(initial=0.0)) and np.isfinite(u.max(initial=0.0)):
         return u
-    return np.nan_to_num(u, nan=0.0, copy=False)
+    return np.nan_to_num(u, nan=0.0, posinf=np.inf, neginf=-np.inf, copy=False)
 
 
 def _check(model: Model, result: Any, r: _Resistances,
@@ -561,7 +566,11 @@ def _check(model: Model, result: Any, r: _Resistances,
     governing *= active  # idle members: code 0, "none"
     if not (np.isfinite(utilisation.min(initial=0.0))
             and np.isfinite(utilisation.max(initial=0.0))):
-        raise ModelError("check_members: a utilisation is not finite (zero resistance?)")
+        i = int(np.flatnonzero(~np.isfinite(utilisation))[0])
+        res = r.res_c[i] if comp[i] else r.res_t[i]
+        raise ModelError(f"check_members: member {i}{model._group_text(i)}: the utilisation "
+                         f"is not finite (a resistance of {float(res):.6g} N): check its "
+                         "area, yield strength or breaking force")
     return MemberCheck(str(getattr(result, "name", "")), utilisation, governing, r, result)
 
 
