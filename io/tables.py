@@ -285,7 +285,8 @@ ARRAY_UNITS = {
     "nodes": "m", "members": "-", "groups": "-", "lengths": "m", "area": "m2", "E": "Pa",
     "result_names": "-", "result_kinds": "-", "displacements": "m", "reaction_nodes": "-",
     "reactions": "N",
-    "axial_forces": "N", "loads": "N", "elongations": "m", "residuals": "-",
+    "axial_forces": "N", "load_counts": "-", "load_nodes": "-", "load_values": "N",
+    "elongations": "m", "residuals": "-",
     "slack": "-", "result_factors": "-",
 }
 
@@ -303,7 +304,10 @@ def write_arrays(
     3) [m], ``reaction_nodes`` (k,) the nodes where some result has a
     reaction (supports and springs), ``reactions`` (r, k, 3) [N] at those
     nodes (zero at every other node), ``axial_forces`` (r, b) [N, tension
-    positive], ``loads`` (r, n, 3) applied nodal forces [N], ``elongations``
+    positive], the applied nodal forces at the nodes that have any, result
+    after result: ``load_counts`` (r,) how many nodes each result loads,
+    ``load_nodes`` (k,) those nodes and ``load_values`` (k, 3) their forces
+    [N] (zero at every other node), ``elongations``
     (r, b) [m], ``residuals`` (r,) relative equilibrium residuals, ``slack``
     (r, b) tension-only members carrying nothing (present only when the model
     has tension-only members) and ``result_factors`` the combinations' case
@@ -335,6 +339,7 @@ def write_arrays(
     for r in items:
         held |= np.any(r.reactions != 0, axis=1)
     reaction_nodes = np.flatnonzero(held)
+    loaded = [np.flatnonzero(np.any(r.loads != 0.0, axis=1)) for r in items]
     arrays: dict[str, Any] = {
         "nodes": np.asarray(model.nodes, dtype=np.float64),
         "members": np.asarray(model.members, dtype=np.int64),
@@ -352,7 +357,13 @@ def write_arrays(
         "reaction_nodes": reaction_nodes,
         "reactions": _Stack([r.reactions[reaction_nodes] for r in items]),
         "axial_forces": _Stack([r.axial_forces for r in items]),
-        "loads": _Stack([r.loads for r in items]),
+        # Loads only at the nodes each result loads: a load moved over a roof in
+        # a thousand cases is one node per case, and the full stack would be 0.6
+        # GB of zeros at 100k members.
+        "load_counts": np.array([k.size for k in loaded], dtype=np.int64),
+        "load_nodes": _Rows(loaded, np.int64),
+        "load_values": _Rows([r.loads[k] for r, k in zip(items, loaded, strict=True)],
+                             np.float64),
         "elongations": _Stack([r.elongations for r in items]),
         "residuals": np.array([r.residual for r in items], dtype=np.float64),
         "result_factors": np.array(json.dumps([r.factors for r in items])),
@@ -379,6 +390,18 @@ class _Stack:
         self.parts = parts
         first = np.asarray(parts[0])
         self.dtype, self.shape = first.dtype, (len(parts), *first.shape)
+        self.each = first.shape
+
+
+class _Rows(_Stack):
+    """Arrays of equal rows (and ``dtype``) to be stored one after another, as one array."""
+
+    def __init__(self, parts: list[np.ndarray], dtype: Any) -> None:
+        self.parts = parts
+        first = np.asarray(parts[0])
+        self.dtype = np.dtype(dtype)
+        self.shape = (sum(int(np.shape(p)[0]) for p in parts), *first.shape[1:])
+        self.each = first.shape[1:]
 
 
 def _save_npz(path: Path, arrays: Mapping[str, Any]) -> None:
@@ -393,18 +416,19 @@ def _save_npz(path: Path, arrays: Mapping[str, Any]) -> None:
 
     with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_STORED, allowZip64=True) as zf:
         for name, value in arrays.items():
+            rows = isinstance(value, _Rows)
             if not isinstance(value, _Stack):  # one array: a stack of one, no new axis
                 value = np.asarray(value)
                 parts, dtype, shape, each = [value], value.dtype, value.shape, value.shape
             else:
-                parts, dtype, shape, each = value.parts, value.dtype, value.shape, value.shape[1:]
+                parts, dtype, shape, each = value.parts, value.dtype, value.shape, value.each
             with zf.open(f"{name}.npy", "w", force_zip64=True) as fh:
                 np.lib.format.write_array_header_2_0(
                     fh, {"descr": np.lib.format.dtype_to_descr(dtype),
                          "fortran_order": False, "shape": shape})
                 for part in parts:
                     arr = np.require(part, dtype=dtype, requirements="C")
-                    if arr.shape != each:
+                    if (arr.shape[1:] if rows else arr.shape) != each:
                         raise WriteError(f"{path}: {name}: a part of shape {arr.shape} in a "
                                          f"stack of {shape}")
                     # Large parts as they lie in memory, no copy.
@@ -432,8 +456,10 @@ def read_arrays(path: str | os.PathLike[str], model: Model) -> Results:
     except (OSError, ValueError) as exc:
         raise ReadError(f"{where}: cannot be read as a results file ({exc})") from None
     missing = [k for k in ("nodes", "members", "result_names", "result_kinds", "displacements",
-                           "reactions", "axial_forces", "loads", "elongations", "residuals",
+                           "reactions", "axial_forces", "elongations", "residuals",
                            "result_factors", "area") if k not in data]
+    if "loads" not in data and "load_values" not in data:
+        missing.append("load_values")
     if missing:
         raise ReadError(f"{where}: not a results file of spaceframe (no {missing[0]!r} array)")
     if (data["nodes"].shape != model.nodes.shape or data["members"].shape != model.members.shape
@@ -451,12 +477,17 @@ def read_arrays(path: str | os.PathLike[str], model: Model) -> Results:
         full = np.zeros((reactions.shape[0], model.n_nodes, 3))
         full[:, data["reaction_nodes"]] = reactions
         reactions = full
+    loads = data.get("loads")  # files of earlier versions: every node of every result
+    if loads is None:
+        loads = np.zeros((len(data["result_names"]), model.n_nodes, 3))
+        which = np.repeat(np.arange(loads.shape[0]), data["load_counts"])
+        loads[which, data["load_nodes"]] = data["load_values"]
     items = {}
     for i, name in enumerate(data["result_names"].tolist()):
         items[name] = CaseResult(
             name=name, kind=str(data["result_kinds"][i]),
             displacements=data["displacements"][i], axial_forces=data["axial_forces"][i],
-            reactions=reactions[i], loads=data["loads"][i],
+            reactions=reactions[i], loads=loads[i],
             elongations=data["elongations"][i], residual=float(data["residuals"][i]),
             area=data["area"], factors={k: float(v) for k, v in factors[i].items()},
             slack=None if slack is None else slack[i])

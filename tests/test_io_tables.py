@@ -252,33 +252,57 @@ def test_arrays_file_of_another_model_is_refused(tmp_path: Path, results: sf.Res
 
 def test_arrays_file_of_an_earlier_version_reads_back(tmp_path: Path,
                                                       results: sf.Results) -> None:
-    # Files written before reaction_nodes held the reactions of every node.
+    # Files written before reaction_nodes and load_nodes held the reactions
+    # and loads of every node.
     (path,) = tables.write_arrays(tmp_path, results)
     with np.load(path) as z:
-        data = {k: z[k] for k in z.files if k != "reaction_nodes"}
+        data = {k: z[k] for k in z.files
+                if k not in ("reaction_nodes", "load_counts", "load_nodes", "load_values")}
     data["reactions"] = np.stack([r.reactions for r in results.values()])
+    data["loads"] = np.stack([r.loads for r in results.values()])
     old = tmp_path / "old.npz"
     np.savez(old, **data)
     back = tables.read_arrays(old, results.model)
     for name, r in results.items():
         np.testing.assert_array_equal(back[name].reactions, r.reactions)
+        np.testing.assert_array_equal(back[name].loads, r.loads)
+
+
+def test_arrays_file_keeps_loads_at_loaded_nodes_only(tmp_path: Path,
+                                                      results: sf.Results) -> None:
+    (path,) = tables.write_arrays(tmp_path, results)
+    with np.load(path) as z:
+        assert "loads" not in z.files
+        counts, nodes, values = z["load_counts"], z["load_nodes"], z["load_values"]
+    start = np.r_[0, np.cumsum(counts)]
+    for i, r in enumerate(results.values()):
+        at = np.flatnonzero(np.any(r.loads != 0, axis=1))
+        np.testing.assert_array_equal(nodes[start[i]:start[i + 1]], at)
+        np.testing.assert_array_equal(values[start[i]:start[i + 1]], r.loads[at])
+        assert 0 < at.size < r.loads.shape[0]  # the mast is loaded at some nodes only
 
 
 def test_streamed_arrays_file_reads_as_numpy_writes_it(tmp_path: Path) -> None:
     # The stacks are written part after part behind one header; numpy.load must
     # read them as the stacked arrays (texts and parts above 1 MB included).
-    from spaceframe.io.tables import _save_npz, _Stack
+    from spaceframe.io.tables import _Rows, _save_npz, _Stack
 
     texts = np.array([f"group {i}" for i in range(50_000)])  # 2 MB of unicode
     parts = [np.random.default_rng(i).random(200_000) for i in range(3)]  # 1.6 MB each
     flags = [np.arange(5) % (i + 2) == 0 for i in range(3)]
+    rows = [np.arange(6.0).reshape(2, 3), np.zeros((0, 3)), np.ones((1, 3))]
     _save_npz(tmp_path / "x.npz", {"texts": texts, "parts": _Stack(parts),
-                                   "flags": _Stack(flags), "one": np.array("text")})
+                                   "flags": _Stack(flags), "one": np.array("text"),
+                                   "rows": _Rows(rows, np.float64)})
     with np.load(tmp_path / "x.npz") as z:
         np.testing.assert_array_equal(z["texts"], texts)
         np.testing.assert_array_equal(z["parts"], np.stack(parts))
         np.testing.assert_array_equal(z["flags"], np.stack(flags))
         assert z["parts"].dtype == np.float64 and z["flags"].dtype == bool
         assert str(z["one"]) == "text"
+        np.testing.assert_array_equal(z["rows"], np.concatenate(rows))
     with pytest.raises(WriteError, match="a part of shape"):
         _save_npz(tmp_path / "bad.npz", {"parts": _Stack([np.zeros(3), np.zeros(4)])})
+    with pytest.raises(WriteError, match="a part of shape"):
+        _save_npz(tmp_path / "bad.npz", {"rows": _Rows([np.zeros((2, 3)), np.zeros((1, 2))],
+                                                       np.float64)})
