@@ -309,6 +309,9 @@ class PardisoFactor:
             self._solver.set_phase(33)
             x = np.asarray(self._solver._call_pardiso(self._A, b))
             with np.errstate(over="ignore"):
+                if x is not b and x.flags.writeable and x.dtype == np.float64:
+                    x /= self._scale  # PARDISO's own new array: no second copy
+                    return x
                 return x / self._scale
         except pypardiso.pardiso_wrapper.PyPardisoError as exc:
             raise SolverError(f"PARDISO solve failed: {exc}") from exc

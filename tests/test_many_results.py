@@ -84,6 +84,33 @@ def test_blocks_recovered_side_by_side_equal_one_at_a_time(
                                _leg_force(1.35 * 75e3 - 0.5 * 80e3), rtol=1e-12)
 
 
+def test_free_rows_copied_by_runs_or_by_columns_alike(monkeypatch: pytest.MonkeyPatch) -> None:
+    # A flat grid held along z at every node: its free directions are short
+    # runs (x, y of each node), copied run by run or column by column.
+    m = sf.Model()
+    xy = np.array([[i, j, 0.0] for j in range(4) for i in range(4)], dtype=float)
+    m.add_nodes(xy)
+    ids = np.arange(16).reshape(4, 4)
+    bars = [*zip(ids[:, :-1].ravel(), ids[:, 1:].ravel(), strict=True),
+            *zip(ids[:-1].ravel(), ids[1:].ravel(), strict=True),
+            *zip(ids[:-1, :-1].ravel(), ids[1:, 1:].ravel(), strict=True)]
+    m.add_members(bars, area=AREA, E=E)
+    m.add_support(np.arange(16), (False, False, True))
+    m.add_support([0])
+    m.add_support([3], (False, True, True))
+    for k in range(5):
+        m.add_load(f"p{k}", [15 - k], (1.0e3 * (k + 1), -2.0e3, 0.0))
+    by_runs = m.solve()
+    monkeypatch.setattr(static, "_FEW_RUNS", 0)  # 15 runs of 29 free rows: by columns
+    by_columns = m.solve()
+    for name in by_runs:
+        np.testing.assert_array_equal(by_runs[name].displacements, by_columns[name].displacements)
+        assert np.abs(by_runs[name].displacements[:, 2]).max() == 0.0
+    # Equilibrium of the whole (common practice): the reactions balance the load.
+    np.testing.assert_allclose(by_runs["p2"].reactions.sum(axis=0), [-3.0e3, 2.0e3, 0.0],
+                               atol=1e-6)
+
+
 def test_refinement_from_the_recovery_residual(monkeypatch: pytest.MonkeyPatch) -> None:
     # A bar of 0 forces every column through every refinement step: the
     # steps solve the recovery's own residual and keep the answer.
@@ -100,6 +127,30 @@ def test_refinement_from_the_recovery_residual(monkeypatch: pytest.MonkeyPatch) 
     res = m.solve()
     assert len(calls) == 2 * static._REFINE_STEPS  # two blocks, every step taken
     np.testing.assert_allclose(res["p69"].axial_forces, _leg_force(70e3), rtol=1e-12)
+
+
+def test_refined_displacements_are_the_ones_kept(monkeypatch: pytest.MonkeyPatch) -> None:
+    # The results hold the solve's column-major block; a refinement step works
+    # on a row-major copy, and its columns must be copied back.  Each step
+    # here also moves the apex by a part in 1e12 (within every tolerance), so
+    # that an unrefined column could not pass for a refined one.
+    m = _tripod(70)
+    last: dict[int, np.ndarray] = {}
+    original = static._Static._refine
+
+    def nudged(self, names, U, F, out, scales):  # type: ignore[no-untyped-def]
+        again = original(self, names, U, F, out, scales)
+        U[9:12, again] *= 1.0 + 1e-12
+        for j in again:
+            last[int(names[j][1:])] = U[:, j].copy()
+        return again
+
+    monkeypatch.setattr(static, "REFINE_ABOVE", -1.0)
+    monkeypatch.setattr(static._Static, "_refine", nudged)
+    res = m.solve()
+    assert sorted(last) == list(range(70))
+    for k, u in last.items():
+        np.testing.assert_array_equal(res[f"p{k}"].displacements.ravel(), u)
 
 
 def test_a_nan_in_the_residual_is_not_refined_and_fails_closed(

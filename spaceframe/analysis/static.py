@@ -73,7 +73,13 @@ _RECOVER_THREADS = min(2, os.cpu_count() or 1)
 #: A result's (kind, name, factors), and a block of columns to recover:
 #: (labels, U, F, E0, refine).
 _Label = tuple[str, str, "dict[str, float] | None"]
-_Block = tuple[list[_Label], np.ndarray, np.ndarray, "np.ndarray | None", bool]
+_Block = tuple[list[_Label], np.ndarray, np.ndarray, "np.ndarray | None", bool,
+               "tuple[np.ndarray, np.ndarray] | None"]
+
+
+#: Runs of free directions copied run by run up to this many (or one per 256
+#: free directions); more and shorter runs are copied column by column.
+_FEW_RUNS = 64
 
 
 def _block_columns(model: Model) -> int:
@@ -184,9 +190,11 @@ def _case_columns(model: Model, names: list[str], temperature: bool,
     100k-member model each would be 0.6-0.8 GB of zeros).
     """
     n, b, c = model.n_nodes, model.n_members, len(names)
-    F = np.empty((3 * n, c))
-    E0 = np.zeros((b, c)) if temperature else None
-    UP = np.zeros((3 * n, c)) if settlement else None
+    # Column by column (each case's column contiguous): filled a column at a
+    # time, solved as PARDISO takes them, and kept as the results hold them.
+    F = np.empty((3 * n, c), order="F")
+    E0 = np.zeros((b, c), order="F") if temperature else None
+    UP = np.zeros((3 * n, c), order="F") if settlement else None
     for j, name in enumerate(names):
         lc = model.cases[name]
         F[:, j] = lc.forces.reshape(-1)
@@ -211,6 +219,12 @@ class _Static:
         self.restrained = model.restraint.ravel()
         self.restrained_rows = np.flatnonzero(self.restrained)
         self.has_springs = bool(np.any(self.spring > 0))
+        # The free directions as runs of consecutive rows: (first, end, place
+        # in the free rows) each.
+        cut = np.flatnonzero(np.diff(free) != 1) + 1
+        first = np.r_[0, cut] if free.size else np.zeros(0, dtype=np.intp)
+        last = np.r_[cut, free.size] if free.size else np.zeros(0, dtype=np.intp)
+        self.runs = np.c_[free[first], free[last - 1] + 1, first].astype(np.intp)
         self.area = np.array(model.area, dtype=float)
         self.area.flags.writeable = False  # one snapshot, shared by every result
         self.peaks: list[tuple[np.ndarray, np.ndarray]] = []
@@ -220,28 +234,51 @@ class _Static:
 
     def solve_cases(self, names: list[str], F: np.ndarray, E0: np.ndarray | None,
                     UP: np.ndarray | None) -> np.ndarray:
-        """Displacements (3n x c) of the cases whose columns are F, E0 and UP."""
+        """Displacements (3n x c, column by column) of the cases whose columns are F, E0, UP."""
         t = time.perf_counter()
         A, k, free = self.A, self.k, self.free
-        U = np.zeros_like(F) if UP is None else UP
+        U = np.zeros(F.shape, order="F") if UP is None else np.asfortranarray(UP)
         if self.factor is not None:
             if E0 is not None or UP is not None:
                 # Free elongations less those the prescribed displacements impose.
                 e = (0.0 if E0 is None else E0) - (0.0 if UP is None else A.T @ UP)
-                rhs = (F + A @ (k[:, None] * e))[free]
+                rhs = np.asfortranarray((F + A @ (k[:, None] * e))[free])
             else:
-                rhs = F[free]
+                rhs = np.empty((free.size, F.shape[1]), order="F")
+                self._copy_rows(F, rhs, gather=True)
             # Both back-ends reject zero pivots (solvers.PIVOT_TOLERANCE), so a
             # mechanism the loads happen to miss is caught without a probe column.
             sol = self.factor.solve(rhs).reshape(free.size, F.shape[1])
             _check_finite(names, sol)
-            U[free] = sol
+            self._copy_rows(U, sol, gather=False)
         self.timings["solve"] += time.perf_counter() - t
         return U
 
+    def _copy_rows(self, full: np.ndarray, part: np.ndarray, gather: bool) -> None:
+        """``part[:] = full[free]`` (``gather``) or ``full[free] = part``, column-major blocks.
+
+        Free directions come in long runs between the few restrained ones:
+        slices of runs copy several times faster than numpy's row index
+        (measured 60-70 ms for 80 columns of a 100k-member model); with many
+        short runs, column by column.
+        """
+        runs = self.runs
+        if runs.shape[0] <= max(_FEW_RUNS, self.free.size // 256):
+            for a, b, c in runs:
+                if gather:
+                    part[c:c + b - a] = full[a:b]
+                else:
+                    full[a:b] = part[c:c + b - a]
+            return
+        for j in range(part.shape[1]):
+            if gather:
+                np.take(full[:, j], self.free, out=part[:, j])
+            else:
+                full[self.free, j] = part[:, j]
+
     def _refine(self, names: list[str], U: np.ndarray, F: np.ndarray,
-                out: np.ndarray, scale_terms: np.ndarray) -> bool:
-        """One step of iterative refinement of the columns that need it; True if any did.
+                out: np.ndarray, scale_terms: np.ndarray) -> np.ndarray:
+        """One step of iterative refinement of the columns that need it; those columns.
 
         The out-of-balance forces at free directions, plus the springs' k u,
         are the solve's own residual K u - f; |A| k (|A^T| |u| + |e0|) + |f|
@@ -250,7 +287,7 @@ class _Static:
         own terms (Skeel's test, with a bound no smaller than its own).
         """
         if self.factor is None:
-            return False
+            return np.zeros(0, dtype=np.intp)
         s = self.spring[:, None]
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
             # Over every row at once (rows picked out by an index would be
@@ -266,27 +303,32 @@ class _Static:
             omega = np.fmax.reduce(ratio, axis=0, initial=0.0)
         again = np.flatnonzero(~(omega <= REFINE_ABOVE) & np.isfinite(omega))
         if not again.size:
-            return False
+            return again
         free = self.free
         res = out[np.ix_(free, again)] + self.spring[free, None] * U[np.ix_(free, again)]
         with self.lock:
             step = self.factor.solve(-res).reshape(free.size, again.size)
         _check_finite([names[j] for j in again], step)
         U[np.ix_(free, again)] += step
-        return True
+        return again
 
     def results(self, labels: list[tuple[str, str, dict[str, float] | None]],
-                U: np.ndarray, F: np.ndarray, E0: np.ndarray | None, refine: bool
+                U: np.ndarray, F: np.ndarray, E0: np.ndarray | None, refine: bool,
+                kept: tuple[np.ndarray, np.ndarray] | None = None
                 ) -> tuple[dict[str, CaseResult], np.ndarray, np.ndarray,
                            tuple[np.ndarray, np.ndarray]]:
         """The checked results of the columns U (refined first when ``refine``).
 
         Also the displacements and loads as the results hold them (column by
         column, shared), for the combinations, and each result's largest
-        displacement and its node (:func:`_peak_displacements`).  Safe to
-        call from several threads at once (the factor's solves take turns).
+        displacement and its node (:func:`_peak_displacements`).  ``kept``:
+        the same U and F stored column by column, for the results to hold
+        (refined columns are copied into it), else U and F are copied so.
+        Safe to call from several threads at once (the factor's solves take
+        turns).
         """
         A, k = self.A, self.k
+        refined: list[np.ndarray] = []
         for step in range(_REFINE_STEPS + 1):
             with np.errstate(over="ignore", invalid="ignore"):
                 elong = A.T @ U
@@ -296,12 +338,20 @@ class _Static:
             if not refine or step == _REFINE_STEPS:
                 break
             scales = _scale_terms(U, E0, self.absA, k)
-            if not self._refine([lab[1] for lab in labels], U, F, out, scales[1]):
+            again = self._refine([lab[1] for lab in labels], U, F, out, scales[1])
+            if not again.size:
                 break
+            refined.append(again)
         peak = _peak_displacements(U)
         # Stored column by column before the checks, so that the results and
         # the combinations share the one copy (_make_results keeps it as it is).
-        U, F = _column_major(U), _column_major(F)
+        if kept is None:
+            U, F = _column_major(U), _column_major(F)
+        else:
+            if refined:
+                cols = np.unique(np.concatenate(refined))
+                kept[0][:, cols] = U[:, cols]
+            U, F = kept
         items = _make_results(self.model, labels, U, T, None, F, elong, E0, A, self.absA,
                               self.spring, self.restrained, area=self.area,
                               known=(out, scales))
@@ -309,7 +359,7 @@ class _Static:
 
     def recover(self, blocks: list[_Block]
                 ) -> list[tuple[dict[str, CaseResult], np.ndarray, np.ndarray]]:
-        """:meth:`results` of each (labels, U, F, E0, refine) block, in order.
+        """:meth:`results` of each (labels, U, F, E0, refine, kept) block, in order.
 
         Blocks are recovered side by side on :data:`_RECOVER_THREADS` threads
         (the first error, in block order, is raised); their largest
@@ -372,10 +422,13 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
         F, E0, UP = _case_columns(model, part, temperature, settlement)
         U = run.solve_cases(part, F, E0, UP)
         subs = [slice(a, a + width) for a in range(0, len(part), width)]
+        # Each block computed row by row (what the sparse products take), kept
+        # column by column as U and F are (the results hold views of them).
         todo: list[_Block] = [
             ([("case", name, None) for name in part[c]], np.ascontiguousarray(U[:, c]),
              np.ascontiguousarray(F[:, c]),
-             None if E0 is None else np.ascontiguousarray(E0[:, c]), True) for c in subs]
+             None if E0 is None else np.ascontiguousarray(E0[:, c]), True,
+             (U[:, c], F[:, c])) for c in subs]
         del U, F, UP
         for c, (done, Ub, Fb), job in zip(subs, run.recover(todo), todo, strict=True):
             items.update(done)
@@ -398,7 +451,7 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
                 EC = (sum(E0 @ weights[cols, cc] for cols, _, _, E0 in blocks
                           if E0 is not None) if temperature else None)
             todo.append(([("combination", c, f) for c, f in comb[cc]], np.asarray(UC),
-                         np.asarray(FC), None if EC is None else np.asarray(EC), False))
+                         np.asarray(FC), None if EC is None else np.asarray(EC), False, None))
         for done, _, _ in run.recover(todo):
             items.update(done)
     if run.peaks:
