@@ -657,20 +657,31 @@ def _make_results(
             np.copyto(T, 0.0, where=tiny)
             out_of_balance = A @ T - F
         if R is None:
-            R = np.where(held[:, None], out_of_balance, 0.0)
-        elif redo.size:
-            R = R.copy()
-            R[:, redo] = np.where(held[:, None], out_of_balance[:, redo], 0.0)
+            # Only the held rows have reactions: written into zeros, stored
+            # column by column as the results hold them.
+            held_rows = np.flatnonzero(held)
+            R = np.zeros(out_of_balance.shape, order="F")
+            R[held_rows] = out_of_balance[held_rows]
+            # The residual at free directions, in place of the out-of-balance
+            # forces: what is left there (R is 0), 0 where a support holds,
+            # and with the spring's k u where one does.
+            res_free = out_of_balance
+            res_free[np.flatnonzero(restrained)] = 0.0
+            res_free[sprung] = R[sprung] + spring[sprung, None] * U[sprung]
+        else:
+            if redo.size:
+                R = R.copy()
+                R[:, redo] = np.where(held[:, None], out_of_balance[:, redo], 0.0)
+            res_free = np.where(restrained[:, None], 0.0, out_of_balance - R)
+            res_free[sprung] = out_of_balance[sprung] + spring[sprung, None] * U[sprung]
     _finite_columns(labels, "reactions", R)
     with np.errstate(over="ignore", invalid="ignore"):
-        res_free = np.where(restrained[:, None], 0.0, out_of_balance - R)
-        res_free[sprung] = out_of_balance[sprung] + spring[sprung, None] * U[sprung]
         scale = _column_norms(scale_terms) + _column_norms(F) + _column_norms(R)
         num = _column_norms(res_free)
-        F3, R3 = F.reshape(n, 3, -1), R.reshape(n, 3, -1)
-        imbalance = np.abs(F3.sum(axis=0) + R3.sum(axis=0))  # (3, columns)
-        ref = np.maximum(np.abs(F3).sum(axis=0).max(axis=0, initial=0.0),
-                         np.abs(R3).sum(axis=0).max(axis=0, initial=0.0))
+        f_total, f_size = _node_sums(F, n)
+        r_total, r_size = _node_sums(R, n)
+        imbalance = np.abs(f_total + r_total)  # (3, columns)
+        ref = np.maximum(f_size.max(axis=0, initial=0.0), r_size.max(axis=0, initial=0.0))
     # Each result's arrays are views of its column of the block arrays, which
     # the results own together, stored column by column: one copy of each
     # block, after which every result's array is contiguous (a column of a
@@ -694,6 +705,19 @@ def _make_results(
             factors=dict(factors or {}),
         )
     return items
+
+
+def _node_sums(X: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Sums over the nodes of X (3n x columns) and of |X|, each (3, columns).
+
+    Read as the block lies (column by column or row by row), without a copy;
+    each column's sum adds node after node in either layout.
+    """
+    if X.flags.f_contiguous and not X.flags.c_contiguous:
+        by_node = X.T.reshape(X.shape[1], n, 3)  # a view: columns, nodes, axes
+        return by_node.sum(axis=1).T, np.abs(by_node).sum(axis=1).T
+    X3 = X.reshape(n, 3, -1)
+    return X3.sum(axis=0), np.abs(X3).sum(axis=0)
 
 
 #: Rows copied together by :func:`_column_major`.
