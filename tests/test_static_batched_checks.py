@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 import spaceframe as sf
-from spaceframe.analysis import static
+from spaceframe.analysis import selfchecks, static
 
 sys.path.insert(0, str(Path(__file__).resolve().parent / "benchmarks"))
 from grids import double_layer_grid
@@ -39,7 +39,7 @@ def _per_column(model, labels, U, T, R, F, elong, E0, A, absA, spring, restraine
         R = np.where((restrained | (spring > 0))[:, None], A @ T - F, 0.0)
     if E0 is None:
         E0 = np.zeros_like(T)
-    return {name: static._make_result(model, name, kind, U[:, j], T[:, j], R[:, j], F[:, j],
+    return {name: selfchecks._make_result(model, name, kind, U[:, j], T[:, j], R[:, j], F[:, j],
                                       elong[:, j], E0[:, j], A, absA, spring, restrained,
                                       factors=factors)
             for j, (kind, name, factors) in enumerate(labels)}
@@ -95,8 +95,8 @@ def test_column_norms_equal_the_scaled_norm_of_each_column() -> None:
     X[:, 3] = 0.0
     X[7, 4] = np.inf
     X[9, 5] = np.nan
-    got = static._column_norms(X)
-    want = [static._norm(X[:, j]) for j in range(6)]
+    got = selfchecks._column_norms(X)
+    want = [selfchecks._norm(X[:, j]) for j in range(6)]
     np.testing.assert_allclose(got[:3], want[:3], rtol=1e-14)
     assert got[3] == 0.0 and got[4] == np.inf and np.isnan(got[5])
     np.testing.assert_allclose(got[0], np.linalg.norm(X[:, 0]), rtol=1e-14)
