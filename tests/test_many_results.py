@@ -269,3 +269,32 @@ def test_a_result_pictured_by_name_is_drawn_though_it_has_no_files(tmp_path: Pat
     pics = sorted(p.name for p in (out.output / "pictures").glob("p17_*.png"))
     assert "p17_iso.png" in pics
     assert not list((out.output / "pictures").glob("p16_*.png"))
+
+
+def test_a_run_says_when_it_waits_for_results_npz(tmp_path: Path,
+                                                   monkeypatch: pytest.MonkeyPatch) -> None:
+    # results.npz is written on its own thread; when the other files are done
+    # first, the wait for it is said as a step of its own.
+    import threading
+
+    from spaceframe.demos import write_demo
+
+    model_file = write_demo(tmp_path / "proj", "canopy")[1]
+    go = threading.Event()
+    original = tables.write_arrays
+
+    def held(*args, **kwargs):  # type: ignore[no-untyped-def]
+        go.wait(30)  # until the run has said it waits
+        return original(*args, **kwargs)
+
+    said: list[str] = []
+
+    def progress(text: str) -> None:
+        said.append(text)
+        if text.startswith("write results.npz"):
+            go.set()
+
+    monkeypatch.setattr(tables, "write_arrays", held)
+    out = job.run(model_file, tmp_path / "res", pictures=False, progress=progress)
+    assert said[-1] == "write results.npz (every result)"
+    assert (out.output / "results.npz").is_file()

@@ -81,6 +81,11 @@ class InBackground:
             raise self._exc
         return self._out
 
+    @property
+    def running(self) -> bool:
+        """True while the call has not finished."""
+        return self._thread.is_alive()
+
     def wait(self) -> None:
         """Wait for the call to finish, whatever it gives (the caller has an error of its own)."""
         self._thread.join()
@@ -155,6 +160,8 @@ def write_outputs(
     except BaseException:
         arrays.wait()  # the folder is not removed while a thread still writes into it
         raise
+    if arrays.running:  # said, as every step that can take seconds is
+        progress("write results.npz (every result)")
     return files + arrays.result()
 
 
