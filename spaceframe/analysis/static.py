@@ -19,7 +19,6 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from spaceframe.analysis.selfchecks import (
-    _column_major,
     _finite_columns,
     _make_results,
     _scale_terms,
@@ -77,7 +76,7 @@ _RECOVER_THREADS = min(2, os.cpu_count() or 1)
 
 
 #: A result's (kind, name, factors), and a block of columns to recover:
-#: (labels, U, F, E0, refine).
+#: (labels, U, F, E0, refine, kept) as :meth:`_Static.results` takes them.
 _Label = tuple[str, str, "dict[str, float] | None"]
 _Block = tuple[list[_Label], np.ndarray, np.ndarray, "np.ndarray | None", bool,
                "tuple[np.ndarray, np.ndarray] | None"]
@@ -286,17 +285,14 @@ class _Static:
     def results(self, labels: list[tuple[str, str, dict[str, float] | None]],
                 U: np.ndarray, F: np.ndarray, E0: np.ndarray | None, refine: bool,
                 kept: tuple[np.ndarray, np.ndarray] | None = None
-                ) -> tuple[dict[str, CaseResult], np.ndarray, np.ndarray,
-                           tuple[np.ndarray, np.ndarray]]:
+                ) -> tuple[dict[str, CaseResult], tuple[np.ndarray, np.ndarray]]:
         """The checked results of the columns U (refined first when ``refine``).
 
-        Also the displacements and loads as the results hold them (column by
-        column, shared), for the combinations, and each result's largest
-        displacement and its node (:func:`_peak_displacements`).  ``kept``:
-        the same U and F stored column by column, for the results to hold
-        (refined columns are copied into it), else U and F are copied so.
-        Safe to call from several threads at once (the factor's solves take
-        turns).
+        Also each result's largest displacement and its node
+        (:func:`_peak_displacements`).  ``kept``: the same U and F stored
+        column by column, for the results to hold (refined columns are copied
+        into it); without it the results hold column-major copies.  Safe to
+        call from several threads at once (the factor's solves take turns).
         """
         A, k = self.A, self.k
         refined: list[np.ndarray] = []
@@ -314,11 +310,7 @@ class _Static:
                 break
             refined.append(again)
         peak = _peak_displacements(U)
-        # Stored column by column before the checks, so that the results and
-        # the combinations share the one copy (_make_results keeps it as it is).
-        if kept is None:
-            U, F = _column_major(U), _column_major(F)
-        else:
+        if kept is not None:  # the results hold these (_make_results keeps them as they are)
             if refined:
                 cols = np.unique(np.concatenate(refined))
                 kept[0][:, cols] = U[:, cols]
@@ -326,10 +318,9 @@ class _Static:
         items = _make_results(self.model, labels, U, T, None, F, elong, E0, A, self.absA,
                               self.spring, self.restrained, area=self.area,
                               known=(out, scales))
-        return items, U, F, peak
+        return items, peak
 
-    def recover(self, blocks: list[_Block]
-                ) -> list[tuple[dict[str, CaseResult], np.ndarray, np.ndarray]]:
+    def recover(self, blocks: list[_Block]) -> list[dict[str, CaseResult]]:
         """:meth:`results` of each (labels, U, F, E0, refine, kept) block, in order.
 
         Blocks are recovered side by side on :data:`_RECOVER_THREADS` threads
@@ -342,9 +333,9 @@ class _Static:
                 done = list(pool.map(lambda b: self.results(*b), blocks))
         else:
             done = [self.results(*b) for b in blocks]
-        self.peaks.extend(d[3] for d in done)
+        self.peaks.extend(peak for _, peak in done)
         self.timings["recover"] += time.perf_counter() - t
-        return [d[:3] for d in done]
+        return [items for items, _ in done]
 
 
 def solve_static(model: Model, solver: str = "auto") -> Results:
@@ -394,16 +385,16 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
         U = run.solve_cases(part, F, E0, UP)
         subs = [slice(a, a + width) for a in range(0, len(part), width)]
         # Each block computed row by row (what the sparse products take), kept
-        # column by column as U and F are (the results hold views of them).
+        # column by column as U and F are: the results hold views of them, and
+        # the combinations are made from them.
         todo: list[_Block] = [
             ([("case", name, None) for name in part[c]], np.ascontiguousarray(U[:, c]),
              np.ascontiguousarray(F[:, c]),
              None if E0 is None else np.ascontiguousarray(E0[:, c]), True,
              (U[:, c], F[:, c])) for c in subs]
-        del U, F, UP
-        for c, (done, Ub, Fb), job in zip(subs, run.recover(todo), todo, strict=True):
+        for c, done, job in zip(subs, run.recover(todo), todo, strict=True):
             items.update(done)
-            blocks.append((slice(lo + c.start, lo + c.stop), Ub, Fb, job[3]))
+            blocks.append((slice(lo + c.start, lo + c.stop), U[:, c], F[:, c], job[3]))
     # Combinations: a combination's column is U @ w over the cases, so each
     # result is what the combined load vector gives on its own.
     comb = list(model.combinations.items())
@@ -423,7 +414,7 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
                           if E0 is not None) if temperature else None)
             todo.append(([("combination", c, f) for c, f in comb[cc]], np.asarray(UC),
                          np.asarray(FC), None if EC is None else np.asarray(EC), False, None))
-        for done, _, _ in run.recover(todo):
+        for done in run.recover(todo):
             items.update(done)
     if run.peaks:
         _warn_large(model, list(items), np.concatenate([p for p, _ in run.peaks]),
