@@ -363,8 +363,7 @@ def run(
     def fill(folder: Path) -> list[Path]:
         # results.npz is written from here on, while the checks, the
         # summary, the other analyses and the other files are made.
-        arrays = arrays_in_background(folder, results)
-        try:
+        with arrays_in_background(folder, results) as arrays:
             summ, design, base, modes, paths, shown = _post_process(
                 loaded, results, envelopes, notes, sizing, solver, every_result, progress,
                 timings)
@@ -378,9 +377,6 @@ def run(
                                      dxf_options={"requested": dxf, "deformed": dxf_deformed},
                                      envelopes=envelopes, modes=modes, paths=paths,
                                      shown=shown, summary_data=base, arrays=arrays)
-        except BaseException:
-            arrays.wait()  # the folder is not removed while a thread still writes into it
-            raise
 
     final, files = write_folder(Path(output) if output is not None else loaded.output,
                                 loaded, force, fill, notes)

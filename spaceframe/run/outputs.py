@@ -59,7 +59,13 @@ def results_with_files(figures: dict[str, Any],
 
 
 class InBackground:
-    """A call run on a thread of its own: :meth:`result` waits for it and re-raises."""
+    """A call run on a thread of its own: :meth:`result` waits for it and re-raises.
+
+    As a context manager, an error inside the block waits for the call to
+    finish before it goes on (whatever the call gives: the block's error is
+    the one reported), so that nothing removes a folder the thread still
+    writes into.
+    """
 
     def __init__(self, fn: Callable[[], list[Path]], name: str) -> None:
         self._fn = fn
@@ -86,9 +92,12 @@ class InBackground:
         """True while the call has not finished."""
         return self._thread.is_alive()
 
-    def wait(self) -> None:
-        """Wait for the call to finish, whatever it gives (the caller has an error of its own)."""
-        self._thread.join()
+    def __enter__(self) -> InBackground:
+        return self
+
+    def __exit__(self, kind: type[BaseException] | None, *_: object) -> None:
+        if kind is not None:
+            self._thread.join()
 
 
 def arrays_in_background(folder: Path, results: Results) -> InBackground:
@@ -96,8 +105,8 @@ def arrays_in_background(folder: Path, results: Results) -> InBackground:
 
     At a thousand cases of a 100k-member model it is gigabytes, written at
     the disk's speed: the checks, the summary and the other files are made
-    meanwhile.  The caller must call ``result()`` (or ``wait()`` on an error
-    of its own) before the folder is swapped in or removed.
+    meanwhile.  The caller uses it as a context manager around its own work
+    and calls ``result()`` before the folder is swapped in.
     """
     from spaceframe.io import tables
 
@@ -153,13 +162,10 @@ def write_outputs(
     # results.npz is what `view RESULTS_DIR` reads back.
     if arrays is None:
         arrays = arrays_in_background(folder, every)
-    try:
+    with arrays:
         files += _write_files(folder, every, results, loaded, pictures, progress, extra, design,
                               dxf_opt, envelopes, paths or [], summary_data, has_ezdxf,
                               has_pyvista)
-    except BaseException:
-        arrays.wait()  # the folder is not removed while a thread still writes into it
-        raise
     if arrays.running:  # said, as every step that can take seconds is
         progress("write results.npz (every result)")
     return files + arrays.result()
