@@ -178,14 +178,14 @@ class MemberCheck:
     def __repr__(self) -> str:
         return f"MemberCheck(result={self.result!r}, members={self.utilisation.size})"
 
-    def _compression(self, rows: Any = None) -> np.ndarray:
-        """(b,) bool (or at ``rows``): the compression check governs.
+    def _compression(self, rows: Any = None, out: np.ndarray | None = None) -> np.ndarray:
+        """(b,) bool (or at ``rows``; all into ``out`` if given): the compression check governs.
 
         A member's tension and compression codes differ, and an idle member's
         code (0) is neither, so the code tells the sign.
         """
         if rows is None:
-            return self.governing == self._r.comp_code
+            return np.equal(self.governing, self._r.comp_code, out=out)
         return self.governing[rows] == self._r.comp_code[rows]
 
     @property
@@ -253,7 +253,7 @@ class MemberCheck:
         Into the second of the two (b,) bool ``scratch`` arrays, if given.
         """
         comp, out = scratch if scratch is not None else (None, None)
-        comp = np.equal(self.governing, self._r.comp_code, out=comp)
+        comp = self._compression(out=comp)
         if out is None:
             return np.where(comp, table_c, table_t)
         np.copyto(out, table_t)
