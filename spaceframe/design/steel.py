@@ -51,6 +51,9 @@ CHECKS = (
     "cable in compression",
     "compression, buckling not checked: no second moment",
 )
+#: Codes of the two checks that fail whatever the utilisation.
+_CABLE_COMPRESSION = CHECKS.index("cable in compression")
+_NOT_CHECKED = CHECKS.index("compression, buckling not checked: no second moment")
 
 
 def _imperfection(curve: Any) -> tuple[np.ndarray, np.ndarray]:
@@ -268,9 +271,7 @@ class MemberCheck:
     @property
     def unchecked(self) -> np.ndarray:
         """(b,) bool: members in compression whose buckling could not be checked."""
-        return self.governing == CHECKS.index(
-            "compression, buckling not checked: no second moment"
-        )
+        return self.governing == _NOT_CHECKED
 
     @property
     def passes(self) -> np.ndarray:
@@ -379,8 +380,7 @@ class _Resistances:
             self.too_slender_c = self.slenderness_shown > self.lim_c
         self.fails_t = self.too_slender_t
         self.fails_c = self.too_slender_c | np.isin(
-            self.comp_code, [CHECKS.index("cable in compression"),
-                             CHECKS.index("compression, buckling not checked: no second moment")])
+            self.comp_code, [_CABLE_COMPRESSION, _NOT_CHECKED])
         for name in ("chi", "lambda_bar_shown", "slenderness_shown", "res_t", "res_c",
                      "ten_code", "comp_code", "lim_t", "lim_c", "too_slender_t",
                      "too_slender_c", "fails_c"):
@@ -607,11 +607,10 @@ class GoverningCheck:
     @property
     def unchecked(self) -> np.ndarray:
         """(b,) bool: in compression with buckling not checked, in some result."""
-        code = CHECKS.index("compression, buckling not checked: no second moment")
         bad = np.zeros(self.utilisation.shape, dtype=bool)
         scratch = np.empty_like(bad)
         for c in self.checks.values():
-            bad |= np.equal(c.governing, code, out=scratch)
+            bad |= np.equal(c.governing, _NOT_CHECKED, out=scratch)
         return bad
 
     @property
