@@ -28,7 +28,14 @@ from spaceframe.analysis.stability import check_conditioning, check_stability, n
 from spaceframe.assembly import equilibrium_matrix, full_symmetric, reduced_stiffness
 from spaceframe.errors import SpaceframeWarning
 from spaceframe.results import CaseResult, Results
-from spaceframe.solvers import Factor, SingularFactor, factorize, needs_upper, resolve_backend
+from spaceframe.solvers import (
+    Factor,
+    SingularFactor,
+    factorize,
+    needs_upper,
+    resolve_backend,
+    solve_into,
+)
 
 if TYPE_CHECKING:
     import scipy.sparse as sp
@@ -201,6 +208,7 @@ class _Static:
         # One solve at a time through the factor (the refinement of blocks
         # recovered side by side): a PARDISO handle is not shared by threads.
         self.lock = threading.Lock()
+        self.buffers: dict[str, np.ndarray] = {}
 
     def solve_cases(self, names: list[str], F: np.ndarray, E0: np.ndarray | None,
                     UP: np.ndarray | None) -> np.ndarray:
@@ -214,15 +222,27 @@ class _Static:
                 e = (0.0 if E0 is None else E0) - (0.0 if UP is None else A.T @ UP)
                 rhs = np.asfortranarray((F + A @ (k[:, None] * e))[free])
             else:
-                rhs = np.empty((free.size, F.shape[1]), order="F")
+                rhs = self._buffer("rhs", F.shape[1])
                 self._copy_rows(F, rhs, gather=True)
             # Both back-ends reject zero pivots (solvers.PIVOT_TOLERANCE), so a
             # mechanism the loads happen to miss is caught without a probe column.
-            sol = self.factor.solve(rhs).reshape(free.size, F.shape[1])
+            sol = solve_into(self.factor, rhs, self._buffer("solution", F.shape[1]))
             _check_finite(names, sol)
             self._copy_rows(U, sol, gather=False)
         self.timings["solve"] += time.perf_counter() - t
         return U
+
+    def _buffer(self, key: str, columns: int) -> np.ndarray:
+        """A (free rows x ``columns``) work array, column by column, the same one each block.
+
+        The solve's right-hand sides and solutions pass through these on
+        their way from F and into U: one array each for the whole solve
+        rather than two new ones per block, each paged in afresh.
+        """
+        buf = self.buffers.get(key)
+        if buf is None or buf.shape[1] < columns:
+            buf = self.buffers[key] = np.empty((self.free.size, columns), order="F")
+        return buf[:, :columns]
 
     def _copy_rows(self, full: np.ndarray, part: np.ndarray, gather: bool) -> None:
         """``part[:] = full[free]`` (``gather``) or ``full[free] = part``, column-major blocks.
@@ -315,7 +335,7 @@ class _Static:
                 cols = np.unique(np.concatenate(refined))
                 kept[0][:, cols] = U[:, cols]
             U, F = kept
-        items = _make_results(self.model, labels, U, T, None, F, elong, E0, A, self.absA,
+        items = _make_results(self.model, labels, U, T, None, F, E0, A, self.absA,
                               self.spring, self.restrained, area=self.area,
                               known=(out, scales))
         return items, peak
