@@ -31,7 +31,7 @@ def _model() -> sf.Model:
     return m
 
 
-def _per_column(model, labels, U, T, R, F, elong, E0, A, absA, spring, restrained,  # type: ignore[no-untyped-def]
+def _per_column(model, labels, U, T, R, F, E0, A, absA, spring, restrained,  # type: ignore[no-untyped-def]
                 area=None, known=None):
     # The solve hands over no reactions (they follow from equilibrium) and no free strains
     # when no case has any: the per-result checks get them written out.
@@ -39,6 +39,9 @@ def _per_column(model, labels, U, T, R, F, elong, E0, A, absA, spring, restraine
         R = np.where((restrained | (spring > 0))[:, None], A @ T - F, 0.0)
     if E0 is None:
         E0 = np.zeros_like(T)
+    # The elongations of the whole block at once, as the solve computed them
+    # before results made theirs from u when read: the two must agree exactly.
+    elong = A.T @ U
     return {name: selfchecks._make_result(model, name, kind, U[:, j], T[:, j], R[:, j], F[:, j],
                                       elong[:, j], E0[:, j], A, absA, spring, restrained,
                                       factors=factors)
@@ -80,7 +83,7 @@ def test_batched_checks_fail_closed_on_the_right_result() -> None:
     A = static.equilibrium_matrix(m)
     with pytest.raises(sf.SolverError, match=r"combination 'ULS': the solver returned non-finite "
                        "displacements"):
-        static._make_results(m, labels, U, T, R, F, E, E0, A, abs(A), m.springs.ravel(),
+        static._make_results(m, labels, U, T, R, F, E0, A, abs(A), m.springs.ravel(),
                              m.restraint.ravel())
     assert U.shape[0] == n3
 

@@ -16,6 +16,7 @@ import numpy as np
 
 from spaceframe.errors import SolverError
 from spaceframe.results import CaseResult
+from spaceframe.results.static import LinearElongations, NodeRows
 from spaceframe.tolerances import BALANCE_TOLERANCE, RESIDUAL_TOLERANCE
 
 if TYPE_CHECKING:
@@ -216,7 +217,6 @@ def _make_results(
     T: np.ndarray,
     R: np.ndarray | None,
     F: np.ndarray,
-    elong: np.ndarray,
     E0: np.ndarray | None,
     A: sp.spmatrix,
     absA: sp.spmatrix,
@@ -286,7 +286,12 @@ def _make_results(
     # block, after which every result's array is contiguous (a column of a
     # row-major block of 64 would be read one cache line per value by every
     # table, picture and check that follows).
-    U, T, R, F, elong = (_column_major(X) for X in (U, T, R, F, elong))
+    U, T, F = (_column_major(X) for X in (U, T, F))
+    # Reactions kept at the nodes that can have one (supports and springs),
+    # all results' in one array (results, nodes, axes); elongations are A^T u,
+    # made from U when read (static.LinearElongations).
+    at = np.flatnonzero(held.reshape(n, 3).any(axis=1))
+    R_at = np.ascontiguousarray(np.moveaxis(R.reshape(n, 3, -1)[at], 2, 0))
     items: dict[str, CaseResult] = {}
     for j, (kind, name, factors) in enumerate(labels):
         residual = _check_numbers(f"{kind} {name!r}", float(num[j]), float(scale[j]),
@@ -296,9 +301,9 @@ def _make_results(
             kind=kind,
             displacements=U[:, j].reshape(n, 3),
             axial_forces=T[:, j],
-            reactions=R[:, j].reshape(n, 3),
+            reactions=NodeRows(n, at, R_at[j]),  # type: ignore[arg-type]  # held compactly
             loads=F[:, j].reshape(n, 3),
-            elongations=elong[:, j],
+            elongations=LinearElongations(A, U[:, j]),  # type: ignore[arg-type]  # made when read
             residual=residual,
             area=model.area if area is None else area,
             factors=dict(factors or {}),
