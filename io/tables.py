@@ -34,9 +34,9 @@ from __future__ import annotations
 import json
 import os
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, overload
 
 import numpy as np
 
@@ -355,7 +355,7 @@ def write_arrays(
         # Reactions only where some result has one (supports and springs): zero
         # elsewhere, and a thousand results of a 100k-member model are 0.6 GB of it.
         "reaction_nodes": reaction_nodes,
-        "reactions": _Stack([r.reactions[reaction_nodes] for r in items]),
+        "reactions": _Stack(_Each(items, lambda r: r.reactions[reaction_nodes])),
         "axial_forces": _Stack([r.axial_forces for r in items]),
         # Loads only at the nodes each result loads: a load moved over a roof in
         # a thousand cases is one node per case, and the full stack would be 0.6
@@ -364,7 +364,7 @@ def write_arrays(
         "load_nodes": _Rows(loaded, np.int64),
         "load_values": _Rows([r.loads[k] for r, k in zip(items, loaded, strict=True)],
                              np.float64),
-        "elongations": _Stack([r.elongations for r in items]),
+        "elongations": _Stack(_Each(items, lambda r: r.elongations)),
         "residuals": np.array([r.residual for r in items], dtype=np.float64),
         "result_factors": np.array(json.dumps([r.factors for r in items])),
         "solver": np.array(str(results.solver)),
@@ -383,10 +383,34 @@ def write_arrays(
     return [final]
 
 
+class _Each(Sequence[np.ndarray]):
+    """``make(item)`` of each item, made when read: the parts of a stack written one by one.
+
+    Arrays a result makes when asked (its elongations, its reactions) are
+    then made one at a time as the file is written, never all together.
+    """
+
+    def __init__(self, items: list[Any], make: Callable[[Any], np.ndarray]) -> None:
+        self.items, self.make = items, make
+
+    def __len__(self) -> int:
+        return len(self.items)
+
+    @overload
+    def __getitem__(self, i: int) -> np.ndarray: ...
+    @overload
+    def __getitem__(self, i: slice) -> list[np.ndarray]: ...
+
+    def __getitem__(self, i: int | slice) -> np.ndarray | list[np.ndarray]:
+        if isinstance(i, slice):
+            return [self.make(x) for x in self.items[i]]
+        return self.make(self.items[i])
+
+
 class _Stack:
     """Equal arrays to be stored as one array of one more dimension (the first)."""
 
-    def __init__(self, parts: list[np.ndarray]) -> None:
+    def __init__(self, parts: Sequence[np.ndarray]) -> None:
         self.parts = parts
         first = np.asarray(parts[0])
         self.dtype, self.shape = first.dtype, (len(parts), *first.shape)
@@ -417,6 +441,7 @@ def _save_npz(path: Path, arrays: Mapping[str, Any]) -> None:
     with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_STORED, allowZip64=True) as zf:
         for name, value in arrays.items():
             rows = isinstance(value, _Rows)
+            parts: Sequence[np.ndarray]
             if not isinstance(value, _Stack):  # one array: a stack of one, no new axis
                 value = np.asarray(value)
                 parts, dtype, shape, each = [value], value.dtype, value.shape, value.shape

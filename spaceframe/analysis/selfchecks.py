@@ -294,6 +294,10 @@ def _make_results(
     R_at = np.ascontiguousarray(np.moveaxis(R.reshape(n, 3, -1)[at], 2, 0))
     items: dict[str, CaseResult] = {}
     for j, (kind, name, factors) in enumerate(labels):
+        # Loads at a few nodes (a point-load case) kept as those nodes' rows.
+        f3 = F[:, j].reshape(n, 3)
+        loaded = np.flatnonzero(f3.any(axis=1))
+        loads = NodeRows.of(f3, loaded) if loaded.size * _SPARSE_LOADS < n else f3
         residual = _check_numbers(f"{kind} {name!r}", float(num[j]), float(scale[j]),
                                   imbalance[:, j], float(ref[j]))
         items[name] = CaseResult(
@@ -302,7 +306,7 @@ def _make_results(
             displacements=U[:, j].reshape(n, 3),
             axial_forces=T[:, j],
             reactions=NodeRows(n, at, R_at[j]),  # type: ignore[arg-type]  # held compactly
-            loads=F[:, j].reshape(n, 3),
+            loads=loads,  # type: ignore[arg-type]  # held compactly when sparse
             elongations=LinearElongations(A, U[:, j]),  # type: ignore[arg-type]  # made when read
             residual=residual,
             area=model.area if area is None else area,
@@ -323,6 +327,10 @@ def _node_sums(X: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
     X3 = X.reshape(n, 3, -1)
     return X3.sum(axis=0), np.abs(X3).sum(axis=0)
 
+
+#: A result's loads are kept as their loaded nodes' rows when fewer than one
+#: node in this many is loaded.
+_SPARSE_LOADS = 4
 
 #: Rows copied together by :func:`_column_major`.
 _BAND_ROWS = 2048

@@ -94,7 +94,7 @@ class CaseResult:
         Forces that supports and springs exert on the nodes, N; zero elsewhere.
         May be given as a :class:`NodeRows` (read back as the full array).
     loads : (n, 3) float
-        Applied nodal forces, N.
+        Applied nodal forces, N.  May be given as a :class:`NodeRows`.
     elongations : (b,) float
         Total member elongations (elastic plus free thermal/initial), m.  May
         be given as :class:`LinearElongations` (made from the displacements
@@ -121,7 +121,7 @@ class CaseResult:
         elongations: np.ndarray
     else:
         reactions: np.ndarray = _Held()
-        loads: np.ndarray
+        loads: np.ndarray = _Held()
         elongations: np.ndarray = _Held()
     residual: float
     area: np.ndarray = field(repr=False)
