@@ -206,15 +206,21 @@ def test_one_full_check_for_many_cases(monkeypatch):
     assert calls == ["governing", "R3"]  # made when read, kept for the next read
 
 
-def test_run_design_columns_and_per_result_equal_the_per_result_checks():
+def test_run_design_columns_and_per_result_equal_the_per_result_checks(monkeypatch):
     m = _model(unknown=5)  # 65-69 without a yield strength: 67, a cable, needs none
     f = _forces(_model())  # the same members, all checkable
     results = _results(f)
     names = list(results)
     project = SimpleNamespace(design=SimpleNamespace(given=True, gammas={}, deflection=None,
                                                      generated=[]))
+    calls = []
+    real = governing._check
+    monkeypatch.setattr(governing, "_check", lambda *a, **k: calls.append(1) or real(*a, **k))
     out = run_design.run_checks(m, results, {}, project)
     assert out is not None
+    _ = out.summary(m), out.columns(), out.line()
+    assert len(calls) == 1  # the governing forces' check serves the table and the summary
+    monkeypatch.undo()
     ids = np.r_[0:65, 67]
     np.testing.assert_array_equal(out.members, ids)
     sub = run_design._Members(m, ids)
