@@ -13,15 +13,14 @@ engineer's; results must be checked by a qualified engineer.
 
 from spaceframe.design.combinations import Action, generate_combinations
 from spaceframe.design.deflection import DeflectionCheck, check_deflection
+from spaceframe.design.governing import GoverningCheck, check_results
 from spaceframe.design.sizing import SizingResult, chs_catalogue, size_groups
 from spaceframe.design.steel import (
     IMPERFECTION_FACTORS,
-    GoverningCheck,
     MemberCheck,
     buckling_curve_for,
     buckling_reduction,
     check_members,
-    check_results,
 )
 
 __all__ = [

@@ -540,14 +540,16 @@ def _nan_to_zero(u: np.ndarray) -> np.ndarray:
 
 
 def _check(model: Model, result: Any, r: _Resistances,
-           scratch: dict[str, np.ndarray] | None = None) -> MemberCheck:
+           scratch: dict[str, np.ndarray] | None = None,
+           forces: tuple[np.ndarray, np.ndarray | None] | None = None) -> MemberCheck:
     """:func:`check_members` of one result against resistances computed before.
 
     ``scratch`` (from :func:`_scratch`) holds the intermediate arrays, so that
-    a result leaves only its utilisation and codes behind.
+    a result leaves only its utilisation and codes behind; ``forces`` are the
+    result's :func:`_forces_of` when read already.
     """
     b = model.n_members
-    high, low = _forces_of(result)
+    high, low = _forces_of(result) if forces is None else forces
     if high.shape != (b,):
         raise ModelError(f"check_members: the result has {high.size} members, the model {b}")
     w = scratch if scratch is not None else _scratch(b)
@@ -573,114 +575,3 @@ def _check(model: Model, result: Any, r: _Resistances,
                          "area, yield strength or breaking force")
     return MemberCheck(str(getattr(result, "name", "")), utilisation, governing, r, result)
 
-
-@dataclass
-class GoverningCheck:
-    """The worst of several results per member.
-
-    Attributes
-    ----------
-    names : list of str
-        The results checked, in order.
-    utilisation : (b,) float
-        Largest utilisation over the results.
-    result_index : (b,) int
-        Index into ``names`` of the governing result.
-    checks : dict
-        Result name → :class:`MemberCheck`.
-    """
-
-    names: list[str]
-    utilisation: np.ndarray
-    result_index: np.ndarray
-    checks: dict[str, MemberCheck]
-
-    @property
-    def passes(self) -> np.ndarray:
-        """(b,) bool: every check of every result passed."""
-        ok = np.ones(self.utilisation.shape, dtype=bool)
-        scratch = (np.empty_like(ok), np.empty_like(ok))
-        for c in self.checks.values():
-            c._and_passes(ok, scratch)
-        return ok
-
-    @property
-    def unchecked(self) -> np.ndarray:
-        """(b,) bool: in compression with buckling not checked, in some result."""
-        bad = np.zeros(self.utilisation.shape, dtype=bool)
-        scratch = np.empty_like(bad)
-        for c in self.checks.values():
-            bad |= np.equal(c.governing, _NOT_CHECKED, out=scratch)
-        return bad
-
-    @property
-    def too_slender(self) -> np.ndarray:
-        """(b,) bool: λ above its limit for the governing sign, in some result."""
-        bad = np.zeros(self.utilisation.shape, dtype=bool)
-        scratch = (np.empty_like(bad), np.empty_like(bad))
-        for c in self.checks.values():
-            bad |= c._by_sign(c._r.too_slender_t, c._r.too_slender_c, scratch)
-        return bad
-
-    @property
-    def failing(self) -> np.ndarray:
-        """Member ids that fail a check in any result."""
-        return np.flatnonzero(~self.passes)
-
-    def governing_result(self, member: int) -> str:
-        """Name of the result that governs one member."""
-        return self.names[int(self.result_index[member])]
-
-    def governing_check(self, member: int) -> str:
-        """The governing check of one member, in words."""
-        return self.checks[self.governing_result(member)].check_name(member)
-
-    def worst_per_group(self, groups: dict[str, np.ndarray]) -> dict[str, tuple[int, float]]:
-        """Group name → (member id, utilisation) of the group's most utilised member."""
-        out: dict[str, tuple[int, float]] = {}
-        for name, ids in groups.items():
-            ids = np.asarray(ids, dtype=np.int64)
-            if ids.size:
-                j = int(ids[np.argmax(self.utilisation[ids])])
-                out[name] = (j, float(self.utilisation[j]))
-        return out
-
-
-def check_results(
-    model: Model, results: Any, names: list[str] | None = None, **gammas: float
-) -> GoverningCheck:
-    """Check every member under each named result and keep the governing one.
-
-    Parameters
-    ----------
-    model : Model
-    results : Mapping of name → result
-        For example the value of ``model.solve()``.
-    names : list of str, optional
-        Results to check; default: every combination, or every case when
-        the model has no combination.
-    **gammas
-        Partial factors passed to :func:`check_members`.
-    """
-    if names is None:
-        combos = [n for n in results if getattr(results[n], "kind", "") == "combination"]
-        names = combos or list(results)
-    if not names:
-        raise ModelError("check_results: no result to check")
-    # The resistances once: they depend on the members, not on the result.
-    r = _resistances(model, **gammas)
-    b = model.n_members
-    scratch = _scratch(b)
-    checks: dict[str, MemberCheck] = {}
-    # Running maximum over the results (utilisations are finite), the first
-    # result winning ties as argmax would: two arrays, not one per result.
-    best = np.full(b, -np.inf)
-    which = np.zeros(b, dtype=np.intp)
-    better = np.empty(b, dtype=bool)
-    for j, n in enumerate(names):
-        c = checks[n] = _check(model, results[n], r, scratch)
-        np.greater(c.utilisation, best, out=better)
-        np.copyto(best, c.utilisation, where=better)
-        np.copyto(which, j, where=better)
-    return GoverningCheck(names=list(names), utilisation=best, result_index=which,
-                          checks=checks)

@@ -12,17 +12,20 @@ be checked by a qualified engineer.
 
 from __future__ import annotations
 
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from spaceframe.design.steel import CHECKS, IMPERFECTION_FACTORS, GoverningCheck, check_results
+from spaceframe.design.governing import GoverningCheck, check_results
+from spaceframe.design.steel import CHECKS, IMPERFECTION_FACTORS
 from spaceframe.errors import ModelError
 
 if TYPE_CHECKING:
     from spaceframe.design.deflection import DeflectionCheck
     from spaceframe.design.sizing import SizingResult
+    from spaceframe.design.steel import MemberCheck
     from spaceframe.model import Model
 
 __all__ = ["DEFAULT_GAMMAS", "GAMMA_NOTE", "DesignOutcome", "checkable_members", "run_checks"]
@@ -151,6 +154,34 @@ def _forces(result: Any, ids: np.ndarray) -> _Forces:
     return (_EnvelopeForces if hasattr(result, "axial_max") else _Forces)(result, ids)
 
 
+class _Utilisations(Mapping[str, np.ndarray]):
+    """Result name → (b,) utilisation of every member of the model, NaN where not checked.
+
+    Each is made from the result's check when read (a run checks many
+    results and shows a few).
+    """
+
+    def __init__(self, check: GoverningCheck, ids: np.ndarray, b: int) -> None:
+        self._checks, self._ids, self._b = check.checks, ids, b
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        u = self._checks[name].utilisation
+        if self._ids.size == self._b:  # every member checked: the check's own array
+            return u
+        out = np.full(self._b, np.nan)
+        out[self._ids] = u
+        return out
+
+    def __contains__(self, name: object) -> bool:
+        return name in self._checks
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._checks)
+
+    def __len__(self) -> int:
+        return len(self._checks)
+
+
 @dataclass
 class DesignOutcome:
     """The checks of a run, per member of the whole model (NaN where not checked).
@@ -163,8 +194,9 @@ class DesignOutcome:
         Ids of the checked members.
     utilisation : (b,) float
         Governing utilisation of every member, NaN where not checked.
-    per_result : dict
-        Result name → (b,) utilisation, NaN where not checked.
+    per_result : Mapping
+        Result name → (b,) utilisation, NaN where not checked (each made
+        when read).
     passes : (b,) bool
         False for a failing member (unchecked members count as not failing here;
         they are listed in ``missing``).
@@ -178,7 +210,7 @@ class DesignOutcome:
     check: GoverningCheck
     members: np.ndarray
     utilisation: np.ndarray
-    per_result: dict[str, np.ndarray]
+    per_result: Mapping[str, np.ndarray]
     passes: np.ndarray
     gammas: dict[str, float]
     missing: str = ""
@@ -206,7 +238,7 @@ class DesignOutcome:
         if k >= self.members.size or self.members[k] != j:
             return float("nan"), float("nan"), "", "not checked"
         name = self.check.governing_result(k)
-        c = self.check.checks[name]
+        c = self.check.worst if self.check.worst is not None else self.check.checks[name]
         at = c.at([k])
         return float(at["demand"][0]), float(at["resistance"][0]), name, c.check_name(k)
 
@@ -224,14 +256,7 @@ class DesignOutcome:
         if ids.size:
             names = np.array(g.names, dtype=object)
             words = np.array(CHECKS, dtype=object)
-            # The members each result governs, in one sort rather than a pass per result.
-            order = np.argsort(g.result_index, kind="stable")
-            bounds = np.searchsorted(g.result_index[order], np.arange(len(g.names) + 1))
-            for r, name in enumerate(g.names):
-                rows = order[bounds[r]:bounds[r + 1]]
-                if not rows.size:
-                    continue
-                c = g.checks[name]
+            for c, rows in self._governing_parts():
                 at = c.at(rows)
                 force[ids[rows]] = at["demand"]
                 resistance[ids[rows]] = at["resistance"]
@@ -242,6 +267,20 @@ class DesignOutcome:
         lam_limit[~np.isfinite(lam_limit)] = np.nan  # no limit (cables): shown empty
         return {"force": force, "resistance": resistance, "result": result, "check": check,
                 "slenderness": lam, "slenderness_limit": lam_limit}
+
+    def _governing_parts(self) -> Iterator[tuple[MemberCheck, np.ndarray]]:
+        """(member check, rows of ``check``): the rows, each under its governing result."""
+        g = self.check
+        if g.worst is not None:  # each member under its governing result, in one check
+            yield g.worst, np.arange(self.members.size)
+            return
+        # The members each result governs, in one sort rather than a pass per result.
+        order = np.argsort(g.result_index, kind="stable")
+        bounds = np.searchsorted(g.result_index[order], np.arange(len(g.names) + 1))
+        for r, name in enumerate(g.names):
+            rows = order[bounds[r]:bounds[r + 1]]
+            if rows.size:
+                yield g.checks[name], rows
 
     @property
     def too_slender(self) -> np.ndarray:
@@ -388,14 +427,7 @@ def run_checks(model: Model, results: Any, envelopes: dict[str, Any], project: A
                                result_index=np.zeros(0, dtype=np.int64), checks={})
     util = np.full(b, np.nan)
     util[ids] = check.utilisation
-    per = {}
-    for n, c in check.checks.items():
-        if ids.size == b:  # every member checked: the check's own array, not a copy
-            per[n] = c.utilisation
-            continue
-        u = np.full(b, np.nan)
-        u[ids] = c.utilisation
-        per[n] = u
+    per = _Utilisations(check, ids, b)
     passes = np.ones(b, dtype=bool)
     if ids.size:
         passes[ids] = check.passes

@@ -289,8 +289,10 @@ def _write_pictures_and_report(folder: Path, results: Results, loaded: Loaded,
         folder / "pictures", drawable, cases=chosen, progress=progress)]
     if design is not None and design.members.size:
         # Utilisation of each checked result that gets pictures (iso view).
-        util = {n: u for n, u in design.per_result.items() if n in drawable}
-        shown = [n for n in chosen if n in util] or list(util)[:1]
+        # Each utilisation is made when read: only those of the results shown.
+        checked = [n for n in design.per_result if n in drawable]
+        shown = [n for n in chosen if n in design.per_result and n in drawable] or checked[:1]
+        util = {n: design.per_result[n] for n in shown}
         pics += [Path(p) for p in report.write_pictures(
             folder / "pictures" / "utilisation", drawable, views=("iso",), cases=shown,
             color_by="utilisation", utilisation=util, prefix="utilisation_",

@@ -7,7 +7,7 @@ the same, and ``p`` over a member or node shows its figures.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -38,7 +38,7 @@ class Interaction:
     names: list[str]
     case: str
     radius: float
-    utilisation: dict[str, Any]
+    utilisation: Mapping[str, Any]
     _slider: Any
     _fit_each_case: bool
 

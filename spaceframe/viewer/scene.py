@@ -208,7 +208,7 @@ class FrameScene(Interaction):
         import pyvista as pv
 
         _check_options(color_by, view)
-        self.utilisation = dict(utilisation or {})
+        self.utilisation = utilisation if utilisation is not None else {}  # read when shown
         if color_by == "utilisation" and not self.utilisation:
             raise ModelError("viewer: color_by='utilisation' needs the utilisation of the "
                              "results (run the design checks first)")
