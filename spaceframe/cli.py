@@ -522,6 +522,10 @@ def main(argv: Sequence[str] | None = None) -> int:
 
     parser = build_parser()
     args = parser.parse_args(argv)
+    if args.command in ("run", "check", "study"):
+        from spaceframe.memory import keep_freed_memory
+
+        keep_freed_memory()  # this process's allocator: freed blocks reused, not paged in again
     out = _Printer(getattr(args, "quiet", False), getattr(args, "verbose", False))
     commands = {"check": _cmd_check, "run": _cmd_run, "new": _cmd_new, "view": _cmd_view,
                 "study": _cmd_study}

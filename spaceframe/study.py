@@ -37,6 +37,7 @@ from typing import Any
 
 import numpy as np
 
+from spaceframe import memory
 from spaceframe.errors import ModelError, SpaceframeError, one_line
 from spaceframe.model import Model
 from spaceframe.sections import Section
@@ -364,11 +365,13 @@ def run_study(
 #: fixes glibc's mmap threshold at 128 kB, so every array above that is mapped afresh and
 #: freed back to the system: a 10k-member variant then faults in about 12 000 pages (about
 #: 6 000 in a plain process).  With the trim threshold at 1 GB, the mmap threshold at
-#: 32 MB (glibc's largest) and one malloc arena (the task runs on a thread of its own),
-#: a worker reuses its memory and a variant faults in a few hundred pages.
+#: 32 MB (as far as glibc raises it by itself; ``spaceframe.memory``, which the command
+#: line sets for its own process) and one malloc arena (the task runs on a thread of its
+#: own), a worker reuses its memory and a variant faults in a few hundred pages.
 WORKER_ENVIRON: dict[str, int] = {
     "OMP_NUM_THREADS": 1, "OPENBLAS_NUM_THREADS": 1, "MKL_NUM_THREADS": 1,
-    "MALLOC_TRIM_THRESHOLD_": 1 << 30, "MALLOC_MMAP_THRESHOLD_": 1 << 25,
+    "MALLOC_TRIM_THRESHOLD_": memory.TRIM_THRESHOLD,
+    "MALLOC_MMAP_THRESHOLD_": memory.MMAP_THRESHOLD,
     "MALLOC_ARENA_MAX": 1,
 }
 

@@ -18,7 +18,7 @@ ROOT = Path(__file__).resolve().parents[1]
 
 #: The floors of DEVELOPERS.md's picture, lowest first.
 FLOORS: dict[str, int] = {
-    "errors": 1, "tolerances": 1,
+    "errors": 1, "tolerances": 1, "memory": 1,
     "units": 2, "sections": 2, "materials": 2, "model": 2, "files": 2,
     "geometry": 3, "assembly": 3, "solvers": 3, "results": 3, "design": 3,
     "analysis": 4, "io": 4, "viewer": 4,

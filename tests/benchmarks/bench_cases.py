@@ -73,9 +73,11 @@ def measure_run(size: str, cases: int, repeat: int) -> dict[str, float]:
     """Time ``spaceframe run --no-pictures`` with ``cases`` load cases (in this process)."""
     from _frames import member_count
 
+    from spaceframe.memory import keep_freed_memory
     from spaceframe.run import job
 
     warnings.simplefilter("ignore")
+    keep_freed_memory()  # as the command line's process does (spaceframe.cli.main)
     best: dict[str, float] = {}
     with tempfile.TemporaryDirectory(prefix="bench-cases-") as tmp:
         path = run_file(Path(tmp), member_count(size), cases)

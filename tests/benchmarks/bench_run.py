@@ -102,9 +102,11 @@ def measure(target_members: int, repeat: int) -> dict[str, Any]:
     import numpy as np
 
     from spaceframe.analysis.static import reduced_system
+    from spaceframe.memory import keep_freed_memory
     from spaceframe.run import job
     from spaceframe.solvers import factorize, resolve_backend
 
+    keep_freed_memory()  # as the command line's process does (spaceframe.cli.main)
     best: dict[str, float] = {}
 
     def keep(name: str, value: float) -> None:
