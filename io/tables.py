@@ -41,7 +41,7 @@ from typing import TYPE_CHECKING, Any, overload
 import numpy as np
 
 from spaceframe.errors import WriteError
-from spaceframe.files import atomic_write
+from spaceframe.files import atomic_write, unbuffered_file
 from spaceframe.results.summary import member_group_labels, summary, supported_nodes
 
 if TYPE_CHECKING:
@@ -438,7 +438,8 @@ def _save_npz(path: Path, arrays: Mapping[str, Any]) -> None:
     """
     import zipfile
 
-    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_STORED, allowZip64=True) as zf:
+    with unbuffered_file(path) as raw, zipfile.ZipFile(
+            raw, "w", compression=zipfile.ZIP_STORED, allowZip64=True) as zf:
         for name, value in arrays.items():
             rows = isinstance(value, _Rows)
             parts: Sequence[np.ndarray]

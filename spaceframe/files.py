@@ -7,15 +7,19 @@ viewer and the run use it as well as ``spaceframe.io``.
 
 from __future__ import annotations
 
+import contextlib
+import errno
+import mmap
 import os
 import tempfile
 import threading
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from pathlib import Path
+from typing import IO, Any, cast
 
 from spaceframe.errors import WriteError
 
-__all__ = ["atomic_write"]
+__all__ = ["atomic_write", "unbuffered_file"]
 
 
 def atomic_write(path: str | os.PathLike[str], save: Callable[[Path], None]) -> Path:
@@ -77,3 +81,117 @@ def _umask() -> int:
         mask = os.umask(0)
         os.umask(mask)
     return mask
+
+
+#: Writes through :func:`unbuffered_file` go out in blocks of this many bytes
+#: (a multiple of every disk's block size), from one page-aligned buffer.
+DIRECT_BUFFER = 16 * 2**20
+_ALIGN = 4096
+
+
+class _Unbuffered:
+    """A write-only stream to a file opened with O_DIRECT (no seeking: zip writes descriptors).
+
+    Bytes gather in one page-aligned buffer and go to the disk a whole buffer
+    at a time; the last partial block is padded, written, and the file cut
+    back to its length.  If the file system refuses O_DIRECT writes, the file
+    carries on as an ordinary one.
+    """
+
+    def __init__(self, fd: int) -> None:
+        self.fd = fd
+        self.buf = mmap.mmap(-1, DIRECT_BUFFER)  # anonymous maps start on a page
+        self.view = memoryview(self.buf)
+        self.fill = 0
+        self.pos = 0
+
+    def write(self, data: Any) -> int:
+        src = memoryview(data).cast("B")
+        n, done = len(src), 0
+        while done < n:
+            take = min(n - done, DIRECT_BUFFER - self.fill)
+            self.view[self.fill:self.fill + take] = src[done:done + take]
+            self.fill += take
+            done += take
+            if self.fill == DIRECT_BUFFER:
+                self._out(DIRECT_BUFFER)
+        self.pos += n
+        return n
+
+    def _out(self, size: int) -> None:
+        sent = 0
+        while sent < size:
+            try:
+                sent += os.write(self.fd, self.view[sent:size])
+            except OSError as exc:
+                if exc.errno != errno.EINVAL or not _direct(self.fd):
+                    raise
+                import fcntl
+
+                # Accepted at open, refused at write (some file systems): go on buffered.
+                flags = fcntl.fcntl(self.fd, fcntl.F_GETFL)
+                fcntl.fcntl(self.fd, fcntl.F_SETFL, flags & ~os.O_DIRECT)
+        self.fill = 0
+
+    def tell(self) -> int:
+        return self.pos
+
+    def seekable(self) -> bool:
+        return False
+
+    def seek(self, *_: Any) -> int:
+        raise OSError(errno.ESPIPE, "not seekable")
+
+    def flush(self) -> None:
+        """Nothing: the data leave at :meth:`close` (or a whole buffer at a time)."""
+
+    def close(self) -> None:
+        if self.fd < 0:
+            return
+        try:
+            tail = self.fill
+            if tail:
+                padded = -(-tail // _ALIGN) * _ALIGN
+                self.view[tail:padded] = bytes(padded - tail)
+                self._out(padded)
+                os.ftruncate(self.fd, self.pos)
+        finally:
+            os.close(self.fd)
+            self.fd = -1
+            self.view.release()
+            self.buf.close()
+
+
+def _direct(fd: int) -> bool:
+    import fcntl
+
+    return bool(fcntl.fcntl(fd, fcntl.F_GETFL) & getattr(os, "O_DIRECT", 0))
+
+
+@contextlib.contextmanager
+def unbuffered_file(path: str | os.PathLike[str]) -> Iterator[IO[bytes]]:
+    """A binary file for writing, past the system's page cache where it can be (O_DIRECT).
+
+    For files of gigabytes written once (``results.npz`` of a thousand
+    results): a buffered write first copies every byte into the page cache,
+    memory the kernel must find and zero page by page, and on this project's
+    virtual machines that ran at 0.1-0.2 GB/s against 1.3 GB/s written
+    straight to the disk (measured with dd: 1 GiB, 5.3 s against 0.8 s).
+    The stream cannot seek (zip files then carry data descriptors, which
+    every zip reader takes).  Where O_DIRECT is not offered (not Linux, or
+    tmpfs), an ordinary buffered file.
+    """
+    flag = getattr(os, "O_DIRECT", 0)
+    fd = -1
+    if flag:
+        with contextlib.suppress(OSError):
+            fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC | flag, 0o600)
+    if fd < 0:
+        with open(path, "wb") as fh:
+            yield fh
+        return
+    out = _Unbuffered(fd)
+    try:
+        yield cast(IO[bytes], out)
+    finally:
+        out.close()
