@@ -15,11 +15,11 @@ import tempfile
 import threading
 from collections.abc import Callable, Iterator
 from pathlib import Path
-from typing import IO, Any, cast
+from typing import IO, Any, Protocol, cast
 
 from spaceframe.errors import WriteError
 
-__all__ = ["atomic_write", "unbuffered_file"]
+__all__ = ["atomic_write", "unbuffered_file", "unbuffered_text"]
 
 
 def atomic_write(path: str | os.PathLike[str], save: Callable[[Path], None]) -> Path:
@@ -195,3 +195,27 @@ def unbuffered_file(path: str | os.PathLike[str]) -> Iterator[IO[bytes]]:
         yield cast(IO[bytes], out)
     finally:
         out.close()
+
+
+class TextSink(Protocol):
+    """Anything text is written to: an open text file, or :func:`unbuffered_text`'s."""
+
+    def write(self, text: str, /) -> int: ...
+
+
+class _Utf8:
+    """Text written as UTF-8 to a binary stream (``write(str)`` only)."""
+
+    def __init__(self, raw: IO[bytes]) -> None:
+        self.raw = raw
+
+    def write(self, text: str) -> int:
+        self.raw.write(text.encode("utf-8"))
+        return len(text)
+
+
+@contextlib.contextmanager
+def unbuffered_text(path: str | os.PathLike[str]) -> Iterator[_Utf8]:
+    """:func:`unbuffered_file` for text: ``write(str)`` in UTF-8, newlines as given."""
+    with unbuffered_file(path) as raw:
+        yield _Utf8(raw)

@@ -83,3 +83,10 @@ def test_an_error_inside_closes_the_file_and_atomic_write_leaves_nothing(tmp_pat
     with pytest.raises(files.WriteError, match="No space left on device"):
         files.atomic_write(target, save)
     assert list(tmp_path.iterdir()) == []
+
+
+def test_text_goes_out_as_utf8_with_its_newlines_as_given(tmp_path: Path) -> None:
+    p = tmp_path / "t.dxf"
+    with files.unbuffered_text(p) as fh:
+        assert fh.write("  0\nLINE\n  8\nSTÜTZE_Ø\r\n") == 23  # characters
+    assert p.read_bytes() == "  0\nLINE\n  8\nSTÜTZE_Ø\r\n".encode()
