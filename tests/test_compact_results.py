@@ -83,3 +83,37 @@ def test_linear_elongations_are_a_transpose_u_and_survive_results_npz(tmp_path) 
         np.testing.assert_array_equal(back[name].elongations, res[name].elongations)
         np.testing.assert_array_equal(back[name].reactions, res[name].reactions)
         np.testing.assert_array_equal(back[name].loads, res[name].loads)
+
+
+def test_cases_solved_through_one_work_array_keep_their_own_loads(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    from spaceframe.analysis import static
+
+    # Blocks of 4 columns solved 8 at a time: 30 cases pass through the work
+    # array of loads four times over; each result must keep its own loads, and
+    # each combination the sum of its cases' (superposition, common practice).
+    monkeypatch.setattr(static, "_RECOVER_BLOCK", 4)
+    monkeypatch.setattr(static, "_SOLVE_COLUMNS", 8)
+    monkeypatch.setattr(static, "_SOLVE_BYTES", 2**40)  # the columns, not the bytes, decide
+    m, feet, tops = _posts()
+    rng = np.random.default_rng(9)
+    for j in range(30):
+        if j % 7 == 0:  # every top loaded: kept as a dense copy
+            m.add_load(f"c{j}", tops, (0.0, 0.0, -100.0 * (j + 1)))
+        else:
+            m.add_load(f"c{j}", [tops[j % len(tops)]], (0.0, 0.0, -1.0e3 * (j + 1)))
+    factors = {f"c{j}": float(rng.uniform(0.5, 1.5)) for j in range(0, 30, 3)}
+    m.add_combination("ULS", factors)
+    m.add_combination("first and last", {"c0": 1.35, "c29": 1.5})
+    res = m.solve()
+    for j in range(30):
+        np.testing.assert_array_equal(res[f"c{j}"].loads, m.cases[f"c{j}"].forces)
+    want = sum(f * m.cases[c].forces for c, f in factors.items())
+    np.testing.assert_allclose(res["ULS"].loads, want, rtol=1e-15, atol=1e-9)
+    np.testing.assert_allclose(res["first and last"].loads,
+                               1.35 * m.cases["c0"].forces + 1.5 * m.cases["c29"].forces,
+                               rtol=1e-15, atol=1e-9)
+    # And each combination's forces are its cases' forces combined.
+    np.testing.assert_allclose(
+        res["ULS"].axial_forces, sum(f * res[c].axial_forces for c, f in factors.items()),
+        rtol=1e-9, atol=1e-6)

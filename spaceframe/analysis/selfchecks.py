@@ -297,7 +297,8 @@ def _make_results(
         # Loads at a few nodes (a point-load case) kept as those nodes' rows.
         f3 = F[:, j].reshape(n, 3)
         loaded = np.flatnonzero(f3.any(axis=1))
-        loads = NodeRows.of(f3, loaded) if loaded.size * _SPARSE_LOADS < n else f3
+        # Otherwise a copy: F may be a work array that the next block fills.
+        loads = NodeRows.of(f3, loaded) if loaded.size * _SPARSE_LOADS < n else f3.copy()
         residual = _check_numbers(f"{kind} {name!r}", float(num[j]), float(scale[j]),
                                   imbalance[:, j], float(ref[j]))
         items[name] = CaseResult(

@@ -159,17 +159,20 @@ def _peak_displacements(U: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return mag[nodes, np.arange(c)] * big, nodes
 
 
-def _case_columns(model: Model, names: list[str], temperature: bool,
-                  settlement: bool) -> tuple[np.ndarray, np.ndarray | None, np.ndarray | None]:
+def _case_columns(model: Model, names: list[str], temperature: bool, settlement: bool,
+                  F: np.ndarray | None = None
+                  ) -> tuple[np.ndarray, np.ndarray | None, np.ndarray | None]:
     """Forces F (3n x c), free elongations E0 (b x c) and settlements UP of some cases.
 
     E0 and UP are None when no case of the model has any (at 1000 cases of a
-    100k-member model each would be 0.6-0.8 GB of zeros).
+    100k-member model each would be 0.6-0.8 GB of zeros).  ``F``: the array
+    to fill (column-major), else a new one.
     """
     n, b, c = model.n_nodes, model.n_members, len(names)
     # Column by column (each case's column contiguous): filled a column at a
-    # time, solved as PARDISO takes them, and kept as the results hold them.
-    F = np.empty((3 * n, c), order="F")
+    # time, solved as PARDISO takes them, and recovered from there.
+    if F is None:
+        F = np.empty((3 * n, c), order="F")
     E0 = np.zeros((b, c), order="F") if temperature else None
     UP = np.zeros((3 * n, c), order="F") if settlement else None
     for j, name in enumerate(names):
@@ -242,6 +245,13 @@ class _Static:
         buf = self.buffers.get(key)
         if buf is None or buf.shape[1] < columns:
             buf = self.buffers[key] = np.empty((self.free.size, columns), order="F")
+        return buf[:, :columns]
+
+    def full_buffer(self, key: str, columns: int) -> np.ndarray:
+        """:meth:`_buffer` of all rows (3n x ``columns``), not only the free ones."""
+        buf = self.buffers.get(key)
+        if buf is None or buf.shape[1] < columns:
+            buf = self.buffers[key] = np.empty((3 * self.model.n_nodes, columns), order="F")
         return buf[:, :columns]
 
     def _copy_rows(self, full: np.ndarray, part: np.ndarray, gather: bool) -> None:
@@ -396,12 +406,24 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     # Cases a block of columns at a time, from loads to checked results: the
     # temporaries stay a few arrays of (model rows x block) however many cases.
     # The solve takes wider blocks than the recovery (_solve_columns).
-    blocks: list[tuple[slice, np.ndarray, np.ndarray, np.ndarray | None]] = []
+    blocks: list[tuple[slice, np.ndarray, np.ndarray | None]] = []
     width = _block_columns(model)
     wide = _solve_columns(model, width)
+    # Combinations: a combination's column is U @ w over the cases, so each
+    # result is what the combined load vector gives on its own.  Their loads
+    # F @ w are summed block by block as the cases are solved: the cases'
+    # load columns then pass through one work array (the results keep each
+    # case's loads themselves, compactly where they are sparse).
+    comb = list(model.combinations.items())
+    weights = np.zeros((len(names), len(comb)))
+    for i, (_, factors) in enumerate(comb):
+        for case, f in factors.items():
+            weights[names.index(case), i] += f
+    FC_all = np.zeros((3 * model.n_nodes, len(comb)), order="F")
     for lo in range(0, len(names), wide):
         part = names[lo:lo + wide]
-        F, E0, UP = _case_columns(model, part, temperature, settlement)
+        F, E0, UP = _case_columns(model, part, temperature, settlement,
+                                  F=run.full_buffer("loads", len(part)))
         U = run.solve_cases(part, F, E0, UP)
         subs = [slice(a, a + width) for a in range(0, len(part), width)]
         # Each block computed row by row (what the sparse products take), kept
@@ -414,26 +436,23 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
              (U[:, c], F[:, c])) for c in subs]
         for c, done, job in zip(subs, run.recover(todo), todo, strict=True):
             items.update(done)
-            blocks.append((slice(lo + c.start, lo + c.stop), U[:, c], F[:, c], job[3]))
-    # Combinations: a combination's column is U @ w over the cases, so each
-    # result is what the combined load vector gives on its own.
-    comb = list(model.combinations.items())
-    weights = np.zeros((len(names), len(comb)))
-    for i, (_, factors) in enumerate(comb):
-        for case, f in factors.items():
-            weights[names.index(case), i] += f
+            cols = slice(lo + c.start, lo + c.stop)
+            blocks.append((cols, U[:, c], job[3]))
+            if comb:
+                with np.errstate(over="ignore", invalid="ignore"):  # checked in the results
+                    FC_all += F[:, c] @ weights[cols]
     starts = list(range(0, len(comb) if blocks else 0, width))
     for group in range(0, len(starts), _RECOVER_THREADS):  # as many blocks as threads
         todo = []
         for lo in starts[group:group + _RECOVER_THREADS]:
             cc = slice(lo, lo + width)
             with np.errstate(over="ignore", invalid="ignore"):  # checked in the results
-                UC = sum(U @ weights[cols, cc] for cols, U, _, _ in blocks)
-                FC = sum(F @ weights[cols, cc] for cols, _, F, _ in blocks)
-                EC = (sum(E0 @ weights[cols, cc] for cols, _, _, E0 in blocks
+                UC = sum(U @ weights[cols, cc] for cols, U, _ in blocks)
+                EC = (sum(E0 @ weights[cols, cc] for cols, _, E0 in blocks
                           if E0 is not None) if temperature else None)
             todo.append(([("combination", c, f) for c, f in comb[cc]], np.asarray(UC),
-                         np.asarray(FC), None if EC is None else np.asarray(EC), False, None))
+                         np.ascontiguousarray(FC_all[:, cc]),
+                         None if EC is None else np.asarray(EC), False, None))
         for done in run.recover(todo):
             items.update(done)
     if run.peaks:
