@@ -95,7 +95,7 @@ def test_cases_solved_through_one_work_array_keep_their_own_loads(
     monkeypatch.setattr(static, "_RECOVER_BLOCK", 4)
     monkeypatch.setattr(static, "_SOLVE_COLUMNS", 8)
     monkeypatch.setattr(static, "_SOLVE_BYTES", 2**40)  # the columns, not the bytes, decide
-    m, feet, tops = _posts()
+    m, _, tops = _posts()
     rng = np.random.default_rng(9)
     for j in range(30):
         if j % 7 == 0:  # every top loaded: kept as a dense copy
