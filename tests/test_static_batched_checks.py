@@ -121,3 +121,30 @@ def test_forced_refinement_keeps_springs_settlements_and_temperatures(
         force = float(np.abs(b.axial_forces).max()) or 1.0
         np.testing.assert_allclose(a.axial_forces, b.axial_forces, rtol=0.0,
                                    atol=1e-10 * force, err_msg=name)
+
+
+@pytest.mark.parametrize("order", ["C", "F"])
+def test_node_sums_of_sparse_and_dense_blocks_equal_the_plain_sums(order: str) -> None:
+    # A block of point loads (a few rows not 0), one with a dense column, and
+    # one with a NaN at a loaded row: the sums over the loaded nodes only must
+    # be the plain sums over every node, and the NaN must reach them.
+    rng = np.random.default_rng(11)
+    n, c = 200, 6
+    sparse = np.zeros((3 * n, c), order=order)
+    for j in range(c):
+        sparse[rng.integers(3 * n, size=2), j] = rng.normal(size=2) * 1e4
+    dense = sparse.copy(order=order)
+    dense[:, 0] = rng.normal(size=3 * n)
+    for X in (sparse, dense):
+        X3 = np.asarray(X).reshape(n, 3, c)
+        total, size = selfchecks._node_sums(X, n)
+        np.testing.assert_allclose(total, X3.sum(axis=0), rtol=1e-13, atol=1e-9)
+        np.testing.assert_allclose(size, np.abs(X3).sum(axis=0), rtol=1e-13, atol=0)
+    held = np.unique(np.flatnonzero(sparse.any(axis=1)) // 3)
+    total, size = selfchecks._node_sums(sparse, n, held)
+    np.testing.assert_allclose(total, sparse.reshape(n, 3, c).sum(axis=0), rtol=1e-13, atol=1e-9)
+    bad = sparse.copy(order=order)
+    bad[int(np.flatnonzero(bad[:, 3])[0]), 3] = np.nan
+    total, size = selfchecks._node_sums(bad, n)
+    assert np.isnan(total[:, 3]).any() and np.isnan(size[:, 3]).any()
+    assert np.isfinite(total[:, [0, 1, 2, 4, 5]]).all()
