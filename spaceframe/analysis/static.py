@@ -225,33 +225,26 @@ class _Static:
                 e = (0.0 if E0 is None else E0) - (0.0 if UP is None else A.T @ UP)
                 rhs = np.asfortranarray((F + A @ (k[:, None] * e))[free])
             else:
-                rhs = self._buffer("rhs", F.shape[1])
+                rhs = self.buffer("rhs", free.size, F.shape[1])
                 self._copy_rows(F, rhs, gather=True)
             # Both back-ends reject zero pivots (solvers.PIVOT_TOLERANCE), so a
             # mechanism the loads happen to miss is caught without a probe column.
-            sol = solve_into(self.factor, rhs, self._buffer("solution", F.shape[1]))
+            sol = solve_into(self.factor, rhs, self.buffer("solution", free.size, F.shape[1]))
             _check_finite(names, sol)
             self._copy_rows(U, sol, gather=False)
         self.timings["solve"] += time.perf_counter() - t
         return U
 
-    def _buffer(self, key: str, columns: int) -> np.ndarray:
-        """A (free rows x ``columns``) work array, column by column, the same one each block.
+    def buffer(self, key: str, rows: int, columns: int) -> np.ndarray:
+        """A (``rows`` x ``columns``) work array, column by column, the same one each block.
 
-        The solve's right-hand sides and solutions pass through these on
-        their way from F and into U: one array each for the whole solve
-        rather than two new ones per block, each paged in afresh.
+        The cases' loads, the solve's right-hand sides and its solutions pass
+        through these on their way into U: one array each for the whole solve
+        rather than new ones per block, each paged in afresh.
         """
         buf = self.buffers.get(key)
         if buf is None or buf.shape[1] < columns:
-            buf = self.buffers[key] = np.empty((self.free.size, columns), order="F")
-        return buf[:, :columns]
-
-    def full_buffer(self, key: str, columns: int) -> np.ndarray:
-        """:meth:`_buffer` of all rows (3n x ``columns``), not only the free ones."""
-        buf = self.buffers.get(key)
-        if buf is None or buf.shape[1] < columns:
-            buf = self.buffers[key] = np.empty((3 * self.model.n_nodes, columns), order="F")
+            buf = self.buffers[key] = np.empty((rows, columns), order="F")
         return buf[:, :columns]
 
     def _copy_rows(self, full: np.ndarray, part: np.ndarray, gather: bool) -> None:
@@ -423,7 +416,7 @@ def solve_static(model: Model, solver: str = "auto") -> Results:
     for lo in range(0, len(names), wide):
         part = names[lo:lo + wide]
         F, E0, UP = _case_columns(model, part, temperature, settlement,
-                                  F=run.full_buffer("loads", len(part)))
+                                  F=run.buffer("loads", 3 * model.n_nodes, len(part)))
         U = run.solve_cases(part, F, E0, UP)
         subs = [slice(a, a + width) for a in range(0, len(part), width)]
         # Each block computed row by row (what the sparse products take), kept
