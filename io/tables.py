@@ -337,9 +337,9 @@ def write_arrays(
     held = np.zeros(model.n_nodes, dtype=bool)
     held[supported_nodes(model)] = True
     for r in items:
-        held |= np.any(r.reactions != 0, axis=1)
+        held[r.nonzero_rows("reactions")[0]] = True
     reaction_nodes = np.flatnonzero(held)
-    loaded = [np.flatnonzero(np.any(r.loads != 0.0, axis=1)) for r in items]
+    loads = [r.nonzero_rows("loads") for r in items]  # (nodes, rows) each
     arrays: dict[str, Any] = {
         "nodes": np.asarray(model.nodes, dtype=np.float64),
         "members": np.asarray(model.members, dtype=np.int64),
@@ -360,10 +360,9 @@ def write_arrays(
         # Loads only at the nodes each result loads: a load moved over a roof in
         # a thousand cases is one node per case, and the full stack would be 0.6
         # GB of zeros at 100k members.
-        "load_counts": np.array([k.size for k in loaded], dtype=np.int64),
-        "load_nodes": _Rows(loaded, np.int64),
-        "load_values": _Rows([r.loads[k] for r, k in zip(items, loaded, strict=True)],
-                             np.float64),
+        "load_counts": np.array([k.size for k, _ in loads], dtype=np.int64),
+        "load_nodes": _Rows([k for k, _ in loads], np.int64),
+        "load_values": _Rows([v for _, v in loads], np.float64),
         "elongations": _Stack(_Each(items, lambda r: r.elongations)),
         "residuals": np.array([r.residual for r in items], dtype=np.float64),
         "result_factors": np.array(json.dumps([r.factors for r in items])),

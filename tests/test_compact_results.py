@@ -58,6 +58,14 @@ def test_point_loads_and_reactions_are_held_at_their_nodes_and_read_back_in_full
         assert r.loads[t, 2] == -1.0e3 * (j + 1)
     dense = res["all"].__dict__["_loads"]
     assert isinstance(dense, np.ndarray)  # more than one node in four loaded
+    # The non-zero rows read from what is held equal those of the full arrays.
+    for r in (res["p3"], res["all"]):
+        for name in ("loads", "reactions"):
+            full = getattr(r, name)
+            rows, values = r.nonzero_rows(name)
+            np.testing.assert_array_equal(rows, np.flatnonzero(full.any(axis=1)))
+            np.testing.assert_array_equal(values, full[rows])
+    assert res["p3"].nonzero_rows("loads")[0].tolist() == [tops[3]]
 
 
 def test_linear_elongations_are_a_transpose_u_and_survive_results_npz(tmp_path) -> None:  # type: ignore[no-untyped-def]

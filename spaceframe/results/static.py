@@ -163,6 +163,21 @@ class CaseResult:
         i = int(np.argmax(self.axial_forces))
         return i, float(self.axial_forces[i])
 
+    def nonzero_rows(self, name: str) -> tuple[np.ndarray, np.ndarray]:
+        """The nodes where ``name`` ("loads" or "reactions") is not 0, and their (k, 3) rows.
+
+        Read from what the result holds, without making the full array of a
+        compact one (:class:`NodeRows`).  NaN counts as not 0.
+        """
+        held = self.__dict__["_" + name]
+        if isinstance(held, NodeRows):
+            rows, values = held.rows, held.values
+        else:
+            values = np.asarray(held)
+            rows = np.arange(values.shape[0])
+        keep = np.any(values != 0.0, axis=1)
+        return rows[keep], values[keep]
+
     def max_compression(self) -> tuple[int, float]:
         """Member id and value of the most negative axial force, N."""
         i = int(np.argmin(self.axial_forces))
