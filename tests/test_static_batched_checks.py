@@ -92,17 +92,60 @@ def test_column_norms_equal_the_scaled_norm_of_each_column() -> None:
     # Columns of ordinary size, near the float64 limits, all zero, with inf and NaN: the
     # blocked norm must give what _norm (scaled, no overflow) gives column by column.
     rng = np.random.default_rng(3)
-    X = rng.normal(size=(50, 6))
+    # Columns 6 and 7 lie where the sum of squares alone cannot tell that no square
+    # overflows or underflows (entries near 1e150 and 1e-150): they are sized.
+    X = rng.normal(size=(50, 8))
     X[:, 1] *= 1e200
     X[:, 2] *= 1e-200
     X[:, 3] = 0.0
     X[7, 4] = np.inf
     X[9, 5] = np.nan
+    X[:, 6] = 9e149 * np.sign(X[:, 6])
+    X[:, 7] = 1.2e-150 * np.sign(X[:, 7])
     got = selfchecks._column_norms(X)
-    want = [selfchecks._norm(X[:, j]) for j in range(6)]
+    want = [selfchecks._norm(X[:, j]) for j in range(8)]
     np.testing.assert_allclose(got[:3], want[:3], rtol=1e-14)
+    np.testing.assert_allclose(got[6:], want[6:], rtol=1e-14)
     assert got[3] == 0.0 and got[4] == np.inf and np.isnan(got[5])
     np.testing.assert_allclose(got[0], np.linalg.norm(X[:, 0]), rtol=1e-14)
+    np.testing.assert_allclose(got[6], 9e149 * np.sqrt(50), rtol=1e-14)
+    # Ordinary columns are the fused sum of squares, bit for bit, with or without others.
+    assert got[0] == np.sqrt(np.einsum("i,i->", X[:, 0], X[:, 0]))
+    assert selfchecks._column_norms(X[:, :1])[0] == got[0]
+
+
+@pytest.mark.parametrize("order", ["C", "F"])
+def test_peak_displacements_are_the_largest_node_magnitudes(order: str) -> None:
+    # Columns of ordinary size, near the float64 limits and all zero: the largest
+    # |u| of a node and that node, as the plain norms of each node give them.
+    rng = np.random.default_rng(5)
+    U = rng.normal(size=(3 * 40, 5))
+    U[:, 1] *= 1e200
+    U[:, 2] *= 1e-200
+    U[:, 3] = 0.0
+    U[3 * 17 + 2, 4] = 50.0  # one node far ahead of the others
+    U = np.asarray(U, order=order)
+    peaks, nodes = static._peak_displacements(U)
+    for j in (0, 1, 2, 4):
+        big = float(np.abs(U[:, j]).max())
+        mag = [float(np.linalg.norm(U[3 * i:3 * i + 3, j] / big)) * big for i in range(40)]
+        assert nodes[j] == int(np.argmax(mag)), j
+        np.testing.assert_allclose(peaks[j], max(mag), rtol=1e-14, err_msg=str(j))
+    assert peaks[3] == 0.0 and nodes[3] == 0 and nodes[4] == 17
+
+
+def test_loaded_nodes_are_the_nodes_with_a_load() -> None:
+    # A few loaded nodes (one by a NaN) give those nodes, ascending; loads at one
+    # node in four or more give None (kept whole), as any() over rows decides.
+    n = 40
+    f = np.zeros((n, 3))
+    f[[3, 9, 9, 30], [2, 0, 1, 1]] = [-1.0, 2.0, 3.0, np.nan]
+    got = selfchecks._loaded_nodes(f.reshape(-1), n)
+    np.testing.assert_array_equal(got, np.flatnonzero(f.any(axis=1)))
+    assert selfchecks._loaded_nodes(np.zeros(3 * n), n).size == 0
+    f[: n // 4 + 1, 0] = 1.0
+    assert np.flatnonzero(f.any(axis=1)).size * selfchecks._SPARSE_LOADS >= n
+    assert selfchecks._loaded_nodes(f.reshape(-1), n) is None
 
 
 def test_forced_refinement_keeps_springs_settlements_and_temperatures(

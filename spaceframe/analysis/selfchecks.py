@@ -45,11 +45,21 @@ def _column_norms(X: np.ndarray) -> np.ndarray:
 
     Columns whose entries are all within 1e-150..1e150 in size cannot
     overflow or underflow in their squares: their norm is the plain square
-    root of one fused sum of squares; only the others are scaled first.
+    root of one fused sum of squares; only the others are scaled first.  A
+    sum of squares s with rows * 1e-300 < s < 1e300 proves that of its column
+    without a pass for the sizes (the largest square is at most s and at
+    least s / rows); only the other columns are sized.
     """
+    rows = X.shape[0]
+    squares = np.einsum("ij,ij->j", X, X)
+    out = np.sqrt(squares)
+    # Comparisons with NaN are False: such columns are sized below.
+    rest = np.flatnonzero(~((squares < 1e300) & (squares > max(rows, 1) * 1e-300)))
+    if not rest.size:
+        return out
+    sub = X[:, rest]
     # The largest size in each column (NaN where the column holds one).
-    hi = np.maximum(X.max(axis=0, initial=-np.inf), -X.min(axis=0, initial=np.inf))
-    out = np.sqrt(np.einsum("ij,ij->j", X, X))
+    hi = np.maximum(sub.max(axis=0, initial=-np.inf), -sub.min(axis=0, initial=np.inf))
     risky = ~((hi < 1e150) & (hi > 1e-150)) & (hi > 0)
     if np.any(risky):
         cols = np.flatnonzero(risky)
@@ -57,8 +67,8 @@ def _column_norms(X: np.ndarray) -> np.ndarray:
         ok = np.isfinite(big)
         safe = np.where(ok, big, 1.0)
         with np.errstate(over="ignore", invalid="ignore"):
-            scaled = np.sqrt(((X[:, cols] / safe) ** 2).sum(axis=0)) * safe
-        out[cols] = np.where(ok, scaled, big)
+            scaled = np.sqrt(((sub[:, cols] / safe) ** 2).sum(axis=0)) * safe
+        out[rest[cols]] = np.where(ok, scaled, big)
     return out
 
 
@@ -250,7 +260,10 @@ def _make_results(
     with np.errstate(over="ignore", invalid="ignore"):
         # As in _make_result: forces within round-off of their scale shown as 0,
         # before the reactions are taken from equilibrium.
-        tiny = np.abs(T) <= ROUND_OFF * member_scale
+        # Forces already 0 (members whose ends move alike) need no setting,
+        # nor the product again: only columns where a non-zero force is set.
+        size = np.abs(T)
+        tiny = (size <= ROUND_OFF * member_scale) & (size > 0.0)
         redo = np.flatnonzero(tiny.any(axis=0))
         if redo.size:
             np.copyto(T, 0.0, where=tiny)
@@ -297,9 +310,9 @@ def _make_results(
     for j, (kind, name, factors) in enumerate(labels):
         # Loads at a few nodes (a point-load case) kept as those nodes' rows.
         f3 = F[:, j].reshape(n, 3)
-        loaded = np.flatnonzero(f3.any(axis=1))
+        loaded = _loaded_nodes(F[:, j], n)
         # Otherwise a copy: F may be a work array that the next block fills.
-        loads = NodeRows.of(f3, loaded) if loaded.size * _SPARSE_LOADS < n else f3.copy()
+        loads = NodeRows.of(f3, loaded) if loaded is not None else f3.copy()
         residual = _check_numbers(f"{kind} {name!r}", float(num[j]), float(scale[j]),
                                   imbalance[:, j], float(ref[j]))
         items[name] = CaseResult(
@@ -315,6 +328,22 @@ def _make_results(
             factors=dict(factors or {}),
         )
     return items
+
+
+def _loaded_nodes(f: np.ndarray, n: int) -> np.ndarray | None:
+    """The nodes (ascending) with a non-zero entry of one load column f (3n), or None.
+
+    None when at least one node in :data:`_SPARSE_LOADS` is loaded (the loads
+    are then kept whole).  The column's non-zero entries come in node order,
+    so their nodes need no sort: a pass of the column instead of numpy's
+    any() over rows of 3 (0.4 ms a column of a 100k-member model).
+    """
+    rows = np.flatnonzero(f)  # NaN counts as not 0: such loads are kept
+    if rows.size * _SPARSE_LOADS >= 3 * n:  # at least rows / 3 nodes: n / 4 or more
+        return None
+    nodes = rows // 3
+    nodes = nodes[np.r_[True, nodes[1:] != nodes[:-1]]] if nodes.size else nodes
+    return nodes if nodes.size * _SPARSE_LOADS < n else None
 
 
 def _node_sums(X: np.ndarray, n: int,

@@ -147,16 +147,31 @@ def _warn_large(model: Model, names: list[str], peaks: np.ndarray, nodes: np.nda
 
 
 def _peak_displacements(U: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Largest displacement magnitude of each column of U (3n x columns), and its node."""
+    """Largest displacement magnitude of each column of U (3n x columns), and its node.
+
+    From the squared magnitudes in one pass; a column whose largest square
+    is outside 1e-290..1e290 (where squares overflow, or underflow enough to
+    hide the largest) is scaled by its largest entry first.
+    """
     n, c = U.shape[0] // 3, U.shape[1]
     if n == 0:
         return np.zeros(c), np.zeros(c, dtype=int)
-    big = np.abs(U).max(axis=0)
-    big = np.where((big > 0) & np.isfinite(big), big, 1.0)
-    scaled = U.reshape(n, 3, c) / big  # no overflow in the squares
-    mag = np.sqrt(np.einsum("ijk,ijk->ik", scaled, scaled))
-    nodes = np.argmax(mag, axis=0)
-    return mag[nodes, np.arange(c)] * big, nodes
+    U3 = U.reshape(n, 3, c)
+    with np.errstate(over="ignore", invalid="ignore"):
+        squares = np.einsum("ijk,ijk->ik", U3, U3)
+    nodes = np.argmax(squares, axis=0)
+    top = squares[nodes, np.arange(c)]
+    peaks = np.sqrt(top)
+    rest = np.flatnonzero(~((top < 1e290) & (top > 1e-290)))
+    if rest.size:
+        sub = U3[:, :, rest]
+        big = np.abs(sub).max(axis=(0, 1))
+        big = np.where((big > 0) & np.isfinite(big), big, 1.0)
+        scaled = sub / big  # no overflow in the squares
+        mag = np.sqrt(np.einsum("ijk,ijk->ik", scaled, scaled))
+        nodes[rest] = np.argmax(mag, axis=0)
+        peaks[rest] = mag[nodes[rest], np.arange(rest.size)] * big
+    return peaks, nodes
 
 
 def _case_columns(model: Model, names: list[str], temperature: bool, settlement: bool,
